@@ -1,0 +1,286 @@
+//! The adjustment steps and their registry.
+//!
+//! Each step lives in a file of its own and implements `Step`: a name, a one-line summary, its
+//! formula, the stage column it writes, and `apply`, which turns the current value expression
+//! into the next one while recording the reference factors it needs (`FactorNeed`). `STEPS` is
+//! the one list of all steps: `--help`, the README's methods section and the run summary are
+//! generated from it, and a unit test checks its rules.
+//!
+//! Steps run twice: once for the adjusted track (the steps as given) and once for the baseline
+//! track (`ppp` replaced by `market`), so that the rank shift isolates the price-level effect.
+
+pub mod deflate;
+pub mod market;
+pub mod per_capita;
+pub mod per_income;
+pub mod ppp;
+
+use crate::error::{Error, Result};
+use crate::reference::{Basis, Kind};
+use polars::prelude::*;
+use std::collections::BTreeSet;
+
+/// The unit the current value is in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Unit {
+    /// The entity's own currency (or the unit its reference tables use).
+    Local,
+    /// The reference tables' base currency at market rates (USD unless the catalog says other).
+    Base,
+    /// International dollars (PPP).
+    Intl,
+    /// A ratio without currency (share of income, days of income).
+    Ratio,
+}
+
+/// Whose prices the current value is in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Prices {
+    RowYear,
+    BaseYear,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TrackState {
+    pub unit: Unit,
+    pub prices: Prices,
+    /// The per-capita scale applied so far (1 when none).
+    pub per: Option<u32>,
+}
+
+/// Which track is being built.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Track {
+    Adjusted,
+    Baseline,
+}
+
+/// The year a factor is taken from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum At {
+    RowYear,
+    BaseYear,
+}
+
+/// Whose factor: the row's entity, or the base currency's home (for the base-currency CPI).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Whose {
+    Entity,
+    BaseCurrency,
+}
+
+/// A reference factor a step needs; `attach` provides a `<prefix>_used` and a `<prefix>_year`
+/// column for each.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct FactorNeed {
+    pub kind: Kind,
+    pub at: At,
+    pub whose: Whose,
+}
+
+impl FactorNeed {
+    pub fn entity(kind: Kind, at: At) -> Self {
+        FactorNeed { kind, at, whose: Whose::Entity }
+    }
+
+    /// Column prefix: `fx`, `fx_base`, `base_cpi`, `base_cpi_base`.
+    pub fn prefix(&self) -> String {
+        let owner = match self.whose {
+            Whose::Entity => "",
+            Whose::BaseCurrency => "base_",
+        };
+        let at = match self.at {
+            At::RowYear => "",
+            At::BaseYear => "_base",
+        };
+        format!("{owner}{}{at}", self.kind.as_str())
+    }
+
+    pub fn used_column(&self) -> String {
+        format!("{}_used", self.prefix())
+    }
+
+    pub fn year_column(&self) -> String {
+        format!("{}_year", self.prefix())
+    }
+
+    /// The flag raised when the factor is missing.
+    pub fn missing_flag(&self) -> String {
+        match self.at {
+            At::RowYear => format!("no_{}", self.prefix()),
+            At::BaseYear => format!("no_{}_year", self.prefix()),
+        }
+    }
+
+    /// The flag raised when a neighbouring year's factor was used.
+    pub fn year_differs_flag(&self, year: i32) -> String {
+        format!("{}_year_differs:{year}", self.prefix())
+    }
+
+    /// The factor as a column expression.
+    pub fn col(&self) -> Expr {
+        col(self.used_column())
+    }
+}
+
+/// How `deflate` picks its price index.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+pub enum Deflator {
+    /// The entity's own CPI, applied before currency conversion (then constant PPPs).
+    Own,
+    /// The base currency's CPI, applied after conversion at each year's rate.
+    BaseCurrency,
+}
+
+/// How `per-income` expresses the ratio.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+pub enum IncomeAs {
+    /// value / income per capita, as a fraction (0.05 = 5% of a year's income).
+    Share,
+    /// value / (income per capita / 365): days of average income.
+    Days,
+}
+
+/// Settings the steps read.
+#[derive(Debug, Clone)]
+pub struct StepSettings {
+    pub base_year: Option<i32>,
+    pub deflator: Option<Deflator>,
+    pub per: u32,
+    pub income_as: IncomeAs,
+    pub income_basis: Basis,
+    pub base_currency: String,
+}
+
+/// What a step sees while it is applied.
+pub struct StepContext<'a> {
+    pub settings: &'a StepSettings,
+    pub track: Track,
+    pub needs: &'a mut BTreeSet<FactorNeed>,
+    /// The deflator actually chosen (recorded by `deflate` for the summary).
+    pub deflator_used: Option<Deflator>,
+}
+
+impl StepContext<'_> {
+    /// Records the need and returns the factor's column.
+    pub fn factor(&mut self, kind: Kind, at: At) -> Expr {
+        let need = FactorNeed::entity(kind, at);
+        self.needs.insert(need);
+        need.col()
+    }
+
+    pub fn base_currency_factor(&mut self, kind: Kind, at: At) -> Expr {
+        let need = FactorNeed { kind, at, whose: Whose::BaseCurrency };
+        self.needs.insert(need);
+        need.col()
+    }
+
+    /// The year whose factor converts a value in `prices`.
+    pub fn at_for(prices: Prices) -> At {
+        match prices {
+            Prices::RowYear => At::RowYear,
+            Prices::BaseYear => At::BaseYear,
+        }
+    }
+}
+
+/// An adjustment step.
+pub trait Step: Sync {
+    /// The name used in `--steps`.
+    fn name(&self) -> &'static str;
+    /// One line for `--help`.
+    fn summary(&self) -> &'static str;
+    /// The formula, in the notation of the README's methods section.
+    fn formula(&self) -> &'static str;
+    /// The stage column written on the adjusted track.
+    fn column(&self) -> &'static str;
+    /// The next value expression and state.
+    fn apply(&self, value: Expr, state: &mut TrackState, ctx: &mut StepContext) -> Result<Expr>;
+    /// Extra columns the step writes on the adjusted track (factors derived from others).
+    fn extra_columns(&self, _state_before: &TrackState, _ctx: &mut StepContext) -> Vec<Expr> {
+        Vec::new()
+    }
+}
+
+/// Every step, in the order the methods note lists them.
+pub static STEPS: &[&dyn Step] = &[&market::Market, &ppp::Ppp, &deflate::Deflate, &per_capita::PerCapita, &per_income::PerIncome];
+
+pub fn find_step(name: &str) -> Option<&'static dyn Step> {
+    STEPS.iter().copied().find(|s| s.name() == name)
+}
+
+/// The names of all steps, for messages.
+pub fn step_names() -> String {
+    STEPS.iter().map(|s| s.name()).collect::<Vec<_>>().join(", ")
+}
+
+/// The `--steps` help text, generated from the registry.
+pub fn steps_help() -> String {
+    let mut text = String::from("Adjustment steps, applied in the order given (comma-separated):\n");
+    for step in STEPS {
+        text.push_str(&format!("  {:<11} {}\n  {:<11} = {}\n", step.name(), step.summary(), "", step.formula()));
+    }
+    text
+}
+
+/// The steps of the baseline track: `ppp` replaced by `market` (dropped if `market` is there
+/// already), everything else unchanged.
+pub fn baseline_steps(steps: &[&'static dyn Step]) -> Vec<&'static dyn Step> {
+    let has_market = steps.iter().any(|s| s.name() == "market");
+    steps
+        .iter()
+        .filter_map(|s| match s.name() {
+            "ppp" if has_market => None,
+            "ppp" => Some(&market::Market as &'static dyn Step),
+            _ => Some(*s),
+        })
+        .collect()
+}
+
+/// An error for a step placed where it cannot work.
+pub fn misplaced(step: &str, problem: impl Into<String>, fix: impl Into<String>) -> Error {
+    Error::usage(format!("step {step}: {}", problem.into()), fix.into())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn registry_rules_unique_names_and_complete_docs() {
+        let mut names: Vec<&str> = STEPS.iter().map(|s| s.name()).collect();
+        names.sort();
+        names.dedup();
+        assert_eq!(names.len(), STEPS.len(), "step names must be unique");
+        let mut columns: Vec<&str> = STEPS.iter().map(|s| s.column()).collect();
+        columns.sort();
+        columns.dedup();
+        assert_eq!(columns.len(), STEPS.len(), "stage columns must be unique");
+        for step in STEPS {
+            assert!(!step.summary().is_empty() && !step.formula().is_empty(), "{}", step.name());
+            assert!(step.column().starts_with("value_"), "{}", step.name());
+        }
+    }
+
+    #[test]
+    fn baseline_replaces_ppp_by_market() {
+        let steps: Vec<&'static dyn Step> = ["deflate", "ppp", "per-capita"].iter().map(|n| find_step(n).unwrap()).collect();
+        let names: Vec<&str> = baseline_steps(&steps).iter().map(|s| s.name()).collect();
+        assert_eq!(names, vec!["deflate", "market", "per-capita"]);
+        let steps: Vec<&'static dyn Step> = ["market", "ppp"].iter().map(|n| find_step(n).unwrap()).collect();
+        let names: Vec<&str> = baseline_steps(&steps).iter().map(|s| s.name()).collect();
+        assert_eq!(names, vec!["market"]);
+    }
+
+    #[test]
+    fn factor_columns_and_flags_are_named_from_the_need() {
+        let need = FactorNeed::entity(Kind::Ppp, At::BaseYear);
+        assert_eq!(need.used_column(), "ppp_base_used");
+        assert_eq!(need.missing_flag(), "no_ppp_base_year");
+        let need = FactorNeed::entity(Kind::Fx, At::RowYear);
+        assert_eq!(need.missing_flag(), "no_fx");
+        assert_eq!(need.year_differs_flag(2019), "fx_year_differs:2019");
+        let need = FactorNeed { kind: Kind::Cpi, at: At::RowYear, whose: Whose::BaseCurrency };
+        assert_eq!(need.used_column(), "base_cpi_used");
+    }
+}

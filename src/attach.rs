@@ -1,0 +1,108 @@
+//! Attaching reference factors: for every distinct (entity, year) of the input, the factors the
+//! steps asked for (`FactorNeed`), each with the year it came from, and the flags that say which
+//! factor was missing or taken from a neighbouring year.
+//!
+//! The lookup is done once per distinct key, not per row, and the result is a small frame that
+//! the pipeline left-joins onto the (possibly large) input frame.
+
+use crate::adjust::{At, FactorNeed, Whose};
+use crate::error::{Error, Result};
+use crate::reference::References;
+use polars::prelude::*;
+use std::collections::{BTreeSet, HashSet};
+
+pub struct AttachSettings {
+    pub base_year: Option<i32>,
+    pub nearest_year: u32,
+    pub base_currency: String,
+}
+
+/// The entity whose CPI stands for the base currency. The euro has no single country, so its
+/// index is the euro area aggregate's.
+pub fn base_currency_home(currency: &str) -> Option<&'static str> {
+    match currency {
+        "USD" => Some("USA"),
+        "EUR" => Some("EMU"),
+        "GBP" => Some("GBR"),
+        "JPY" => Some("JPN"),
+        "CHF" => Some("CHE"),
+        _ => None,
+    }
+}
+
+/// Builds the lookup frame: `entity_code`, `year`, then `<prefix>_used`, `<prefix>_year` for
+/// each need, then `_factor_flags` (null when nothing to say).
+pub fn lookup_frame(
+    keys: &HashSet<(String, i32)>,
+    needs: &BTreeSet<FactorNeed>,
+    references: Option<&References>,
+    settings: &AttachSettings,
+) -> Result<DataFrame> {
+    let mut keys: Vec<&(String, i32)> = keys.iter().collect();
+    keys.sort();
+    let n = keys.len();
+    let mut columns: Vec<Column> = vec![
+        Column::new("entity_code".into(), keys.iter().map(|(c, _)| c.as_str()).collect::<Vec<_>>()),
+        Column::new("year".into(), keys.iter().map(|(_, y)| *y).collect::<Vec<i32>>()),
+    ];
+    let mut flags: Vec<Vec<String>> = vec![Vec::new(); n];
+    for need in needs {
+        let table = references.and_then(|r| r.get(need.kind)).ok_or_else(|| {
+            Error::usage(
+                format!("the steps need a {} table, and the reference catalog has none", need.kind.as_str()),
+                format!("add a resource of kind {} to the catalog (see reference-tables/README.md), or drop the step that needs it", need.kind.as_str()),
+            )
+        })?;
+        let home = match need.whose {
+            Whose::Entity => None,
+            Whose::BaseCurrency => Some(base_currency_home(&settings.base_currency).ok_or_else(|| {
+                Error::usage(
+                    format!("no price index is known for the base currency {}", settings.base_currency),
+                    "use --deflator own (deflate before converting), or reference tables based on USD",
+                )
+            })?),
+        };
+        let mut used: Vec<Option<f64>> = Vec::with_capacity(n);
+        let mut years: Vec<Option<i32>> = Vec::with_capacity(n);
+        for (i, (code, row_year)) in keys.iter().enumerate() {
+            let year = match need.at {
+                At::RowYear => *row_year,
+                At::BaseYear => settings.base_year.unwrap_or(*row_year),
+            };
+            let entity = home.unwrap_or(code.as_str());
+            match table.lookup(entity, year, settings.nearest_year) {
+                Some(factor) => {
+                    if factor.year != year {
+                        flags[i].push(need.year_differs_flag(factor.year));
+                    }
+                    used.push(Some(factor.value));
+                    years.push(Some(factor.year));
+                }
+                None => {
+                    flags[i].push(need.missing_flag());
+                    used.push(None);
+                    years.push(None);
+                }
+            }
+        }
+        columns.push(Column::new(need.used_column().into(), used));
+        columns.push(Column::new(need.year_column().into(), years));
+    }
+    let joined: Vec<Option<String>> = flags
+        .into_iter()
+        .map(|f| if f.is_empty() { None } else { Some(f.join(";")) })
+        .collect();
+    columns.push(Column::new("_factor_flags".into(), joined));
+    DataFrame::new(n, columns).map_err(Error::engine("building the factor lookup"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn base_currency_homes() {
+        assert_eq!(base_currency_home("USD"), Some("USA"));
+        assert_eq!(base_currency_home("XXX"), None);
+    }
+}

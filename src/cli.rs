@@ -1,0 +1,221 @@
+//! Stage one of the command line: clap definitions only. Values are checked for form here
+//! (numbers, enums, conflicts); nothing touches a file until `plan` resolves them.
+
+use crate::adjust::{self, Deflator, IncomeAs};
+use crate::ingest::encoding::EncodingChoice;
+use crate::rank::Order;
+use crate::report::Format;
+use clap::{Args, Parser, Subcommand};
+use std::path::PathBuf;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "levelfield",
+    version,
+    about = "Make cross-country money and count tables comparable: PPP instead of market rates, one price base, per capita, with rank shifts and flags.",
+    long_about = None,
+    after_help = "Run `levelfield demo` to see a worked (invented) example, and `levelfield adjust --help` for every option."
+)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Adjust a table: convert, deflate, divide by population, rank, flag.
+    Adjust(AdjustArgs),
+    /// List the reference tables of a catalog folder: coverage, gaps and validation errors.
+    Refs(RefsArgs),
+    /// Run the bundled, invented scenario end to end and print the comparison.
+    Demo(DemoArgs),
+}
+
+#[derive(Debug, Args)]
+#[command(after_long_help = adjust::steps_help())]
+pub struct AdjustArgs {
+    /// The table to adjust (CSV or TSV), or `-` for standard input.
+    #[arg(value_name = "INPUT")]
+    pub input: String,
+
+    /// Folder of reference tables described by a datapackage.json.
+    #[arg(long, value_name = "DIR", help_heading = "Method")]
+    pub refs: Option<PathBuf>,
+
+    /// Steps in order, comma-separated: market, ppp, deflate, per-capita, per-income (see below).
+    #[arg(long, value_delimiter = ',', value_name = "LIST", help_heading = "Method")]
+    pub steps: Vec<String>,
+
+    /// The year whose prices `deflate` brings every figure to.
+    #[arg(long, value_name = "YYYY", help_heading = "Method")]
+    pub base_year: Option<i32>,
+
+    /// Which CPI deflates: the entity's own (before conversion) or the base currency's (after).
+    /// Default: chosen by where deflate stands in --steps.
+    #[arg(long, value_enum, help_heading = "Method")]
+    pub deflator: Option<Deflator>,
+
+    /// Per-capita scale: 1, 1000, 100000 or 1000000 people.
+    #[arg(long, default_value_t = 1, value_parser = parse_per, value_name = "N", help_heading = "Method")]
+    pub per: u32,
+
+    /// How per-income states affordability.
+    #[arg(long, value_enum, default_value_t = IncomeAs::Share, help_heading = "Method")]
+    pub income_as: IncomeAs,
+
+    /// Accept a reference factor up to N years from the figure's year (flagged).
+    #[arg(long, default_value_t = 0, value_name = "N", help_heading = "Method")]
+    pub nearest_year: u32,
+
+    /// Rank order: desc makes the largest value rank 1.
+    #[arg(long, value_enum, default_value_t = Order::Desc, help_heading = "Method")]
+    pub order: Order,
+
+    /// Rank aggregates (world, regions, income groups) among countries.
+    #[arg(long, help_heading = "Method")]
+    pub rank_aggregates: bool,
+
+    /// CSV of extra entity names and user-defined entities (columns name,code[,kind][,currency]).
+    #[arg(long, value_name = "FILE", help_heading = "Entities")]
+    pub aliases: Vec<PathBuf>,
+
+    /// Keep rows whose entity matches nothing, flagged `unresolved`, instead of stopping.
+    #[arg(long, help_heading = "Entities")]
+    pub allow_unresolved: bool,
+
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+
+    #[command(flatten)]
+    pub output: OutputArgs,
+}
+
+#[derive(Debug, Args, Clone, Default)]
+pub struct ColumnArgs {
+    /// Column of entity names or codes (default: a header naming a country, economy, entity or ISO code).
+    #[arg(long, value_name = "COL", help_heading = "Input columns")]
+    pub entity: Option<String>,
+
+    /// Column of figures in a long table.
+    #[arg(long, value_name = "COL", help_heading = "Input columns")]
+    pub value: Option<String>,
+
+    /// Column of years in a long table.
+    #[arg(long, value_name = "COL", help_heading = "Input columns", conflicts_with = "year_value")]
+    pub year: Option<String>,
+
+    /// One year for the whole table.
+    #[arg(long, value_name = "YYYY", help_heading = "Input columns")]
+    pub year_value: Option<i32>,
+
+    /// Column to rank within (item, indicator); ranks are per group and year.
+    #[arg(long, value_name = "COL", help_heading = "Input columns")]
+    pub group: Option<String>,
+
+    /// Column of ISO 4217 codes, one per row.
+    #[arg(long, value_name = "COL", help_heading = "Input columns", conflicts_with = "currency_code")]
+    pub currency: Option<String>,
+
+    /// ISO 4217 code of every figure (for example USD). Default: each entity's own currency.
+    #[arg(long, value_name = "XXX", help_heading = "Input columns")]
+    pub currency_code: Option<String>,
+
+    /// Multiply every figure first (1000 for a table in thousands, 1000000 for millions).
+    #[arg(long, value_name = "N", help_heading = "Input columns")]
+    pub value_multiplier: Option<String>,
+
+    /// Treat the table as wide: one column per year (detected automatically when headers are years).
+    #[arg(long, help_heading = "Input columns", conflicts_with = "long")]
+    pub wide_years: bool,
+
+    /// Treat the table as long even if some headers look like years.
+    #[arg(long, help_heading = "Input columns")]
+    pub long: bool,
+
+    /// Field delimiter (default: sniffed): a character, or `tab`.
+    #[arg(long, value_name = "CHAR", help_heading = "Reading")]
+    pub delimiter: Option<String>,
+
+    /// Text encoding (default: from the byte-order mark, else UTF-8, else Windows-1252).
+    #[arg(long, value_enum, help_heading = "Reading")]
+    pub encoding: Option<EncodingChoice>,
+
+    /// Numbers use a decimal comma (1.234,5).
+    #[arg(long, help_heading = "Reading")]
+    pub decimal_comma: bool,
+
+    /// Keep cells that are not numbers as rows flagged `unparsed` instead of stopping.
+    #[arg(long, help_heading = "Reading")]
+    pub lenient: bool,
+}
+
+#[derive(Debug, Args, Clone, Default)]
+pub struct OutputArgs {
+    /// Output format (default: from the -o extension; table on a terminal, csv when piped).
+    #[arg(long, value_enum, help_heading = "Output")]
+    pub format: Option<Format>,
+
+    /// Write to FILE (atomically) instead of standard output.
+    #[arg(short = 'o', long = "output", value_name = "FILE", help_heading = "Output")]
+    pub output: Option<PathBuf>,
+
+    /// Round numbers to N decimals (half to even) in every format.
+    #[arg(long, value_name = "N", help_heading = "Output", conflicts_with = "sig")]
+    pub decimals: Option<u32>,
+
+    /// Round numbers to N significant digits (half to even) in every format.
+    #[arg(long, value_name = "N", help_heading = "Output")]
+    pub sig: Option<u32>,
+
+    /// Do not print the run summary on stderr.
+    #[arg(short, long, help_heading = "Output")]
+    pub quiet: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct RefsArgs {
+    /// Catalog folder (holding datapackage.json).
+    #[arg(value_name = "DIR", default_value = "reference-tables")]
+    pub dir: PathBuf,
+
+    /// Alias files whose names the reference tables may use.
+    #[arg(long, value_name = "FILE")]
+    pub aliases: Vec<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Write the demo's input, alias file and reference tables into DIR, to rerun with `adjust`.
+    #[arg(long, value_name = "DIR")]
+    pub extract: Option<PathBuf>,
+
+    #[command(flatten)]
+    pub output: OutputArgs,
+}
+
+fn parse_per(text: &str) -> Result<u32, String> {
+    match text.replace(['_', ','], "").as_str() {
+        "1" => Ok(1),
+        "1000" => Ok(1000),
+        "100000" => Ok(100_000),
+        "1000000" => Ok(1_000_000),
+        other => Err(format!("\"{other}\" is not a per-capita scale: use 1, 1000, 100000 or 1000000")),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn clap_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+
+    #[test]
+    fn per_capita_scales() {
+        assert_eq!(parse_per("100,000"), Ok(100_000));
+        assert!(parse_per("10").is_err());
+    }
+}

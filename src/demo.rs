@@ -1,0 +1,115 @@
+//! `levelfield demo`: the bundled scenario, embedded in the binary so it runs from any folder.
+//!
+//! The scenario is invented (see demo/README.md): the yearly fee for a standard adult
+//! public-transport pass in the capitals of twelve fictional countries, with invented
+//! currencies and invented reference tables. The demo runs the same plan that
+//! `levelfield adjust` would build from `DEMO_ARGS`, only with embedded files.
+
+use crate::cli::{Cli, Command, DemoArgs};
+use crate::entity::Resolver;
+use crate::error::{Error, Result};
+use crate::plan;
+use crate::reference;
+use crate::source::Embedded;
+use crate::Outcome;
+use clap::Parser;
+
+/// The `adjust` arguments the demo runs, as a user would type them.
+pub const DEMO_ARGS: &[&str] = &[
+    "demo/transit-pass-fees.csv",
+    "--aliases",
+    "demo/aliases.csv",
+    "--refs",
+    "reference-tables",
+    "--steps",
+    "deflate,ppp",
+    "--base-year",
+    "2023",
+];
+
+pub const DEMO_INPUT: &str = include_str!("../demo/transit-pass-fees.csv");
+pub const DEMO_ALIASES: &str = include_str!("../demo/aliases.csv");
+
+pub static DEMO_REFERENCES: Embedded = Embedded {
+    prefix: "reference-tables",
+    files: &[
+        ("datapackage.json", include_str!("../reference-tables/datapackage.json")),
+        ("fx.csv", include_str!("../reference-tables/fx.csv")),
+        ("ppp.csv", include_str!("../reference-tables/ppp.csv")),
+        ("cpi.csv", include_str!("../reference-tables/cpi.csv")),
+        ("population.csv", include_str!("../reference-tables/population.csv")),
+    ],
+};
+
+const BANNER: &str = "INVENTED DATA: twelve fictional countries, their made-up currencies and made-up reference tables.\n\
+Yearly fee for a standard adult public-transport pass in each capital, 2019 and 2023, local currency.\n";
+
+/// Builds the demo's plan from the embedded files.
+pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
+    let mut argv = vec!["levelfield", "adjust"];
+    argv.extend_from_slice(DEMO_ARGS);
+    let cli = Cli::try_parse_from(argv).map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
+    let Command::Adjust(adjust) = cli.command else {
+        return Err(Error::usage("demo arguments are not an adjust command", "report this as a bug"));
+    };
+    let steps = plan::parse_steps(&adjust.steps)?;
+    plan::check_step_options(&steps, adjust.base_year)?;
+    let mut resolver = Resolver::builtin();
+    resolver.add_alias_text(DEMO_ALIASES, "demo/aliases.csv")?;
+    let references = reference::load(&DEMO_REFERENCES, &resolver)?;
+    let ingest = plan::ingest_options(&adjust.columns)?;
+    let settings = plan::pipeline_settings(&adjust, steps, ingest, Some(&references));
+    Ok(plan::AdjustPlan {
+        input_bytes: DEMO_INPUT.as_bytes().to_vec(),
+        input_label: DEMO_ARGS[0].to_string(),
+        settings,
+        resolver,
+        references: Some(references),
+        output: demo_output(&args.output)?,
+    })
+}
+
+/// The demo prints the comparison table unless another format or a file is asked for.
+fn demo_output(args: &crate::cli::OutputArgs) -> Result<plan::OutputPlan> {
+    let mut output = plan::resolve_output(args)?;
+    if args.format.is_none() && args.output.is_none() {
+        output.format = crate::report::Format::Table;
+    }
+    Ok(output)
+}
+
+pub fn run(args: &DemoArgs) -> Result<Outcome> {
+    if let Some(dir) = &args.extract {
+        extract(dir)?;
+        eprintln!("wrote the demo files into {}", dir.display());
+        eprintln!("reproduce with: cd {} && levelfield adjust {}", dir.display(), DEMO_ARGS.join(" "));
+        return Ok(Outcome::Ok);
+    }
+    let plan = demo_plan(args)?;
+    if plan.output.format == crate::report::Format::Table {
+        print!("{BANNER}");
+    }
+    crate::execute(&plan)?;
+    eprintln!(
+        "reproduce with: levelfield demo --extract levelfield-demo && cd levelfield-demo && levelfield adjust {}",
+        DEMO_ARGS.join(" ")
+    );
+    Ok(Outcome::Ok)
+}
+
+/// Writes the demo files into `dir`, laid out as in the repository.
+pub fn extract(dir: &std::path::Path) -> Result<()> {
+    let write = |relative: &str, text: &str| -> Result<()> {
+        let path = dir.join(relative);
+        if let Some(parent) = path.parent() {
+            std::fs::create_dir_all(parent).map_err(|e| Error::io(parent.display(), "create the folder", e))?;
+        }
+        crate::report::write_atomically(&path, text)
+    };
+    write("demo/transit-pass-fees.csv", DEMO_INPUT)?;
+    write("demo/aliases.csv", DEMO_ALIASES)?;
+    for (name, text) in DEMO_REFERENCES.files {
+        write(&format!("reference-tables/{name}"), text)?;
+    }
+    Ok(())
+}

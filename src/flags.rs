@@ -1,0 +1,48 @@
+//! The machine-readable flags written in the `flags` column, each with the sentence the README
+//! and the run summary use for it. Flags are joined with `;` in the order they were raised.
+//! Factor flags are built from the factor kind: `no_<kind>`, `no_<kind>_base_year` and
+//! `<kind>_year_differs:YYYY`.
+
+pub const FOOTNOTE: &str = "footnote";
+pub const MISSING_VALUE: &str = "missing_value";
+pub const UNPARSED: &str = "unparsed";
+pub const MISSING_YEAR: &str = "missing_year";
+pub const UNPARSED_YEAR: &str = "unparsed_year";
+pub const UNKNOWN_CURRENCY: &str = "unknown_currency";
+pub const UNRESOLVED: &str = "unresolved";
+pub const AGGREGATE: &str = "aggregate";
+pub const CURRENCY_MISMATCH: &str = "currency_mismatch";
+pub const NOT_RANKED: &str = "not_ranked";
+
+/// Every fixed flag with its meaning, for the README and `--help`. A test checks that each
+/// flag raised anywhere in the code is listed here.
+pub const FLAG_MEANINGS: &[(&str, &str)] = &[
+    (FOOTNOTE, "a footnote or status mark (such as *, e, p) was removed from the cell; the number was kept"),
+    (MISSING_VALUE, "the cell was empty or a missing-value mark (.., -, n/a); no value"),
+    (UNPARSED, "the cell is not a number (kept because of --lenient); no value"),
+    (MISSING_YEAR, "the year cell was empty; the row cannot be matched to reference factors"),
+    (UNPARSED_YEAR, "the year cell is not a calendar year (kept because of --lenient)"),
+    (UNKNOWN_CURRENCY, "the currency cell is not an ISO 4217 code (kept because of --lenient)"),
+    (UNRESOLVED, "the entity matched no country, alias or aggregate (kept because of --allow-unresolved)"),
+    (AGGREGATE, "the entity is an aggregate (world, region, income group); not ranked unless --rank-aggregates"),
+    (CURRENCY_MISMATCH, "the figure's currency is neither the entity's own nor the reference tables' base currency"),
+    ("no_<kind>", "no reference factor of that kind (fx, ppp, cpi, population, income) for the entity and year"),
+    ("no_<kind>_base_year", "no reference factor of that kind for the entity in the base year"),
+    ("<kind>_year_differs:YYYY", "the factor of year YYYY was used (allowed by --nearest-year)"),
+    (NOT_RANKED, "the row has no usable baseline or adjusted value, or is excluded from ranks; see its other flags"),
+];
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn flag_names_are_unique_and_documented() {
+        let mut names: Vec<&str> = FLAG_MEANINGS.iter().map(|(n, _)| *n).collect();
+        names.sort();
+        let before = names.len();
+        names.dedup();
+        assert_eq!(before, names.len());
+        assert!(FLAG_MEANINGS.iter().all(|(_, m)| !m.is_empty()));
+    }
+}

@@ -1,0 +1,326 @@
+//! Reading a user's table into canonical rows: one row per figure with its row id, entity text,
+//! year, group, the cell text exactly as given, the parsed value, its currency and the flags
+//! raised while reading.
+//!
+//! Pipeline inside: bytes → `encoding` → `table` (delimited text) → `layout` (roles, melting)
+//! → `number` (exact parsing). The result goes to `crate::resolve`, which adds entities.
+
+pub mod encoding;
+pub mod layout;
+pub mod number;
+pub mod table;
+
+use crate::entity::Resolver;
+use crate::error::{Error, Location, Result};
+use crate::flags;
+use layout::{RoleFlags, Shape, YearSource};
+use number::{Cell, NumberStyle};
+use rust_decimal::Decimal;
+
+/// How to read the input.
+#[derive(Debug, Clone, Default)]
+pub struct IngestOptions {
+    pub delimiter: Option<u8>,
+    pub encoding: Option<encoding::EncodingChoice>,
+    pub roles: RoleFlags,
+    pub currency_code: Option<String>,
+    pub value_multiplier: Option<Decimal>,
+    pub number_style: NumberStyle,
+    pub lenient: bool,
+}
+
+/// One figure of the input.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CanonicalRow {
+    pub row_id: String,
+    pub line: usize,
+    pub entity_input: String,
+    pub year: Option<i32>,
+    pub group: Option<String>,
+    pub value_input: String,
+    pub value: Option<f64>,
+    pub currency: Option<String>,
+    pub flags: Vec<String>,
+}
+
+/// The rows and what was decided while reading them (for the run summary).
+#[derive(Debug, Clone)]
+pub struct Ingested {
+    pub rows: Vec<CanonicalRow>,
+    pub file: String,
+    pub notes: Vec<String>,
+    pub entity_column: String,
+    pub has_group: bool,
+}
+
+pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Ingested> {
+    let decoded = encoding::decode(bytes, options.encoding, file)?;
+    let delimiter = match options.delimiter {
+        Some(d) => d,
+        None if file.ends_with(".tsv") || file.ends_with(".tab") => b'\t',
+        None => table::sniff_delimiter(&decoded.text),
+    };
+    let table = table::read_table(&decoded.text, delimiter, file)?;
+    let roles = layout::assign_roles(&table, &options.roles, file)?;
+
+    let mut notes = vec![format!(
+        "read {file}: {}, {} delimiter, {} data line(s)",
+        decoded.description,
+        table::delimiter_name(delimiter),
+        table.records.len()
+    )];
+    let entity_column = table.headers[roles.entity].clone();
+    notes.push(format!(
+        "entity column: \"{entity_column}\"{}",
+        if roles.entity_detected { " (detected from its header; --entity to choose another)" } else { "" }
+    ));
+    match &roles.shape {
+        Shape::Wide { year_columns } => notes.push(format!(
+            "layout: wide, {} year column(s) {}..{} melted into rows",
+            year_columns.len(),
+            year_columns.iter().map(|(_, y)| *y).min().unwrap_or(0),
+            year_columns.iter().map(|(_, y)| *y).max().unwrap_or(0)
+        )),
+        Shape::Long { value, value_detected, year } => {
+            let year_text = match year {
+                YearSource::Column { index, detected } => format!(
+                    "year column \"{}\"{}",
+                    table.headers[*index],
+                    if *detected { " (detected)" } else { "" }
+                ),
+                YearSource::Fixed(y) => format!("every row is year {y} (--year-value)"),
+            };
+            notes.push(format!(
+                "layout: long, value column \"{}\"{}, {year_text}",
+                table.headers[*value],
+                if *value_detected { " (detected)" } else { "" }
+            ));
+        }
+    }
+    if !roles.ignored.is_empty() {
+        notes.push(format!("columns not used: {}", roles.ignored.join(", ")));
+    }
+    if let Some(m) = options.value_multiplier {
+        notes.push(format!("every value multiplied by {m} (--value-multiplier) before any step"));
+    }
+
+    let currency_code = match &options.currency_code {
+        Some(code) => Some(checked_currency(code, None, file)?),
+        None => None,
+    };
+    let reader = RowReader { file, options, currency_code: currency_code.as_deref() };
+    let mut rows = Vec::new();
+    for (index, record) in table.records.iter().enumerate() {
+        let data_row = index + 1;
+        let entity_input = record.cells[roles.entity].clone();
+        let group = roles.group.map(|g| record.cells[g].trim().to_string()).filter(|g| !g.is_empty());
+        let currency_cell = roles.currency.map(|c| (table.headers[c].as_str(), record.cells[c].as_str()));
+        match &roles.shape {
+            Shape::Long { value, year, .. } => {
+                let mut row_flags = Vec::new();
+                let year = match year {
+                    YearSource::Fixed(y) => Some(*y),
+                    YearSource::Column { index, .. } => {
+                        reader.year(&record.cells[*index], record.line, &table.headers[*index], &mut row_flags)?
+                    }
+                };
+                rows.push(reader.row(
+                    data_row.to_string(),
+                    record.line,
+                    entity_input,
+                    year,
+                    group,
+                    &record.cells[*value],
+                    &table.headers[*value],
+                    currency_cell,
+                    row_flags,
+                )?);
+            }
+            Shape::Wide { year_columns } => {
+                for &(column, year) in year_columns {
+                    rows.push(reader.row(
+                        format!("{data_row}:{year}"),
+                        record.line,
+                        entity_input.clone(),
+                        Some(year),
+                        group.clone(),
+                        &record.cells[column],
+                        &table.headers[column],
+                        currency_cell,
+                        Vec::new(),
+                    )?);
+                }
+            }
+        }
+    }
+    Ok(Ingested { rows, file: file.to_string(), notes, entity_column, has_group: roles.group.is_some() })
+}
+
+struct RowReader<'a> {
+    file: &'a str,
+    options: &'a IngestOptions,
+    currency_code: Option<&'a str>,
+}
+
+impl RowReader<'_> {
+    #[allow(clippy::too_many_arguments)]
+    fn row(
+        &self,
+        row_id: String,
+        line: usize,
+        entity_input: String,
+        year: Option<i32>,
+        group: Option<String>,
+        cell: &str,
+        column: &str,
+        currency_cell: Option<(&str, &str)>,
+        mut row_flags: Vec<String>,
+    ) -> Result<CanonicalRow> {
+        let value = match number::parse_cell(cell, self.options.number_style) {
+            Ok(Cell::Number { value, footnote }) => {
+                if footnote {
+                    row_flags.push(flags::FOOTNOTE.into());
+                }
+                let scaled = match self.options.value_multiplier {
+                    Some(m) => value.checked_mul(m).ok_or_else(|| {
+                        Error::bad_input(
+                            Location::cell(self.file, line, column),
+                            format!("\"{cell}\" times the multiplier {m} is too large for an exact decimal"),
+                            "a value that stays below about 7.9e28 after --value-multiplier",
+                            "use a smaller --value-multiplier",
+                        )
+                    })?,
+                    None => value,
+                };
+                Some(number::to_f64(scaled))
+            }
+            Ok(Cell::Missing) => {
+                row_flags.push(flags::MISSING_VALUE.into());
+                None
+            }
+            Err(e) if self.options.lenient => {
+                let _ = e;
+                row_flags.push(flags::UNPARSED.into());
+                None
+            }
+            Err(e) => {
+                return Err(Error::bad_input(
+                    Location::cell(self.file, line, column),
+                    e.reason,
+                    e.hint,
+                    "correct the cell, or pass --lenient to keep such rows flagged `unparsed`",
+                ))
+            }
+        };
+        let currency = match currency_cell {
+            Some((header, text)) if !text.trim().is_empty() => {
+                match checked_currency(text, Some((line, header)), self.file) {
+                    Ok(code) => Some(code),
+                    Err(_) if self.options.lenient => {
+                        row_flags.push(flags::UNKNOWN_CURRENCY.into());
+                        None
+                    }
+                    Err(e) => return Err(e),
+                }
+            }
+            _ => self.currency_code.map(str::to_string),
+        };
+        Ok(CanonicalRow {
+            row_id,
+            line,
+            entity_input,
+            year,
+            group,
+            value_input: cell.to_string(),
+            value,
+            currency,
+            flags: row_flags,
+        })
+    }
+
+    fn year(&self, cell: &str, line: usize, column: &str, row_flags: &mut Vec<String>) -> Result<Option<i32>> {
+        match layout::parse_year_cell(cell) {
+            Ok(Some(year)) => Ok(Some(year)),
+            Ok(None) => {
+                row_flags.push(flags::MISSING_YEAR.into());
+                Ok(None)
+            }
+            Err(_) if self.options.lenient => {
+                row_flags.push(flags::UNPARSED_YEAR.into());
+                Ok(None)
+            }
+            Err(text) => Err(Error::bad_input(
+                Location::cell(self.file, line, column),
+                format!("\"{text}\" is not a calendar year"),
+                "a four-digit calendar year such as 2021; fiscal-year labels (2019/20, FY2021) are not matched to reference years automatically",
+                "relabel the year with the calendar year your reference tables use for it, or pass --lenient to keep the row flagged `unparsed_year`",
+            )),
+        }
+    }
+}
+
+fn checked_currency(text: &str, cell: Option<(usize, &str)>, file: &str) -> Result<String> {
+    let code = text.trim().to_uppercase();
+    if Resolver::is_valid_currency_code(&code) {
+        return Ok(code);
+    }
+    let location = match cell {
+        Some((line, column)) => Location::cell(file, line, column),
+        None => Location::file("--currency-code"),
+    };
+    Err(Error::bad_input(
+        location,
+        format!("\"{}\" is not an ISO 4217 currency code", text.trim()),
+        "a three-letter ISO 4217 code such as USD, EUR or JPY",
+        "correct the code; leave the currency out for figures in each country's own currency",
+    ))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn run(text: &str, options: IngestOptions) -> Result<Ingested> {
+        ingest(text.as_bytes(), "t.csv", &options)
+    }
+
+    #[test]
+    fn wide_table_melts_into_one_row_per_figure_with_ids() {
+        let out = run("country,2019,2020\nFrance,\"1,200\",..\nChile,3*,4\n", IngestOptions::default()).unwrap();
+        let ids: Vec<&str> = out.rows.iter().map(|r| r.row_id.as_str()).collect();
+        assert_eq!(ids, vec!["1:2019", "1:2020", "2:2019", "2:2020"]);
+        assert_eq!(out.rows[0].value, Some(1200.0));
+        assert_eq!(out.rows[1].value, None);
+        assert_eq!(out.rows[1].flags, vec!["missing_value".to_string()]);
+        assert_eq!(out.rows[2].flags, vec!["footnote".to_string()]);
+        assert_eq!(out.rows[3].line, 3);
+    }
+
+    #[test]
+    fn bad_cell_is_an_error_unless_lenient() {
+        let err = run("country,year,value\nFrance,2020,abc\n", IngestOptions::default()).unwrap_err().to_string();
+        assert!(err.contains("t.csv, line 2, column \"value\""), "{err}");
+        let lenient = IngestOptions { lenient: true, ..Default::default() };
+        let out = run("country,year,value\nFrance,2020,abc\n", lenient).unwrap();
+        assert_eq!(out.rows.len(), 1);
+        assert_eq!(out.rows[0].flags, vec!["unparsed".to_string()]);
+    }
+
+    #[test]
+    fn multiplier_is_exact() {
+        let options = IngestOptions { value_multiplier: Some(Decimal::from(1_000_000)), ..Default::default() };
+        let out = run("country,year,value\nFrance,2020,0.1\n", options).unwrap();
+        assert_eq!(out.rows[0].value, Some(100_000.0));
+    }
+
+    #[test]
+    fn currency_codes_are_checked() {
+        let flags = RoleFlags { currency: Some("cur".into()), ..Default::default() };
+        let options = IngestOptions { roles: flags, ..Default::default() };
+        let out = run("country,year,value,cur\nFrance,2020,1,eur\nChile,2020,1,\n", options.clone()).unwrap();
+        assert_eq!(out.rows[0].currency.as_deref(), Some("EUR"));
+        assert_eq!(out.rows[1].currency, None);
+        let err = run("country,year,value,cur\nFrance,2020,1,EUX\n", options).unwrap_err().to_string();
+        assert!(err.contains("ISO 4217"), "{err}");
+    }
+}

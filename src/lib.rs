@@ -1,0 +1,92 @@
+//! levelfield: make cross-country tables comparable and say how.
+//!
+//! Module map (data flows top to bottom, see DEVELOPERS.md):
+//! - `cli`: clap definitions (stage one: raw, validated arguments, no file access)
+//! - `plan`: the resolved plan (stage two: files read, references loaded, steps ordered)
+//! - `ingest`: reading user tables (encoding, delimiter, long/wide layout, exact numbers)
+//! - `entity`: ISO 3166-1, publishers' name variants, aggregates, user alias files
+//! - `resolve`: entity and currency basis of every row
+//! - `reference`: the reference catalog (datapackage.json), loading, validation, coverage
+//! - `attach`: reference factors per entity and year, with their years and flags
+//! - `adjust`: the registry of adjustment steps (market, ppp, deflate, per-capita, per-income)
+//! - `rank`: standard competition ranks and rank shifts
+//! - `pipeline`: the adjust run from bytes to the output frame and its summary
+//! - `report`: terminal table, csv, md, json, atomic writes, the run summary
+//! - `demo`: the bundled invented scenario
+//! - `flags`, `error`, `source`: shared vocabulary, typed errors, file access
+
+pub mod adjust;
+pub mod attach;
+pub mod cli;
+pub mod demo;
+pub mod entity;
+pub mod error;
+pub mod flags;
+pub mod ingest;
+pub mod pipeline;
+pub mod plan;
+pub mod rank;
+pub mod reference;
+pub mod report;
+pub mod resolve;
+pub mod source;
+
+use cli::{Cli, Command};
+use error::Result;
+use std::io::Write;
+
+/// What a finished command tells `main`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outcome {
+    /// Done, nothing to report.
+    Ok,
+    /// Done, with findings the caller asked to fail on (exit code 1).
+    Findings,
+}
+
+/// Runs a parsed command line.
+pub fn run(cli: Cli) -> Result<Outcome> {
+    match cli.command {
+        Command::Adjust(args) => {
+            let plan = plan::resolve_adjust(&args)?;
+            execute(&plan)?;
+            Ok(Outcome::Ok)
+        }
+        Command::Refs(args) => {
+            let mut resolver = entity::Resolver::builtin();
+            for path in &args.aliases {
+                resolver.add_alias_file(path)?;
+            }
+            let (title, tables) = reference::coverage::survey(&source::DiskDir::new(&args.dir), &resolver)?;
+            print!("{}", reference::coverage::render(&title, &tables));
+            Ok(if tables.iter().any(|t| t.error.is_some()) { Outcome::Findings } else { Outcome::Ok })
+        }
+        Command::Demo(args) => demo::run(&args),
+    }
+}
+
+/// Runs a resolved adjust plan: pipeline, output, summary.
+pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
+    let output = pipeline::run_adjust(
+        &plan.input_bytes,
+        &plan.input_label,
+        &plan.settings,
+        &plan.resolver,
+        plan.references.as_ref(),
+    )?;
+    let text = report::render(&output.frame, &output.summary, plan.output.format, plan.output.rounding)?;
+    match &plan.output.path {
+        Some(path) => report::write_atomically(path, &text)?,
+        None => {
+            let mut stdout = std::io::stdout().lock();
+            stdout.write_all(text.as_bytes()).map_err(|e| error::Error::io("standard output", "write", e))?;
+        }
+    }
+    if !plan.output.quiet {
+        eprint!("{}", report::summary::render(&output.summary));
+        if let Some(path) = &plan.output.path {
+            eprintln!("  wrote {} ({} rows)", path.display(), output.frame.height());
+        }
+    }
+    Ok(output)
+}

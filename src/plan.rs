@@ -1,0 +1,233 @@
+//! Stage two of the command line: the resolved plan. Steps are looked up in the registry and
+//! ordered, paths are checked, the input is read, alias files and reference tables are loaded
+//! and validated, and the output is decided, all before any adjustment runs.
+
+use crate::adjust::{self, Step, StepSettings};
+use crate::cli::{AdjustArgs, ColumnArgs, OutputArgs};
+use crate::entity::Resolver;
+use crate::error::{Error, Result};
+use crate::ingest::layout::{LayoutChoice, RoleFlags};
+use crate::ingest::number::NumberStyle;
+use crate::ingest::IngestOptions;
+use crate::pipeline::PipelineSettings;
+use crate::reference::{self, Basis, Kind, References};
+use crate::report::format::Rounding;
+use crate::report::Format;
+use crate::source::{self, DiskDir};
+use rust_decimal::Decimal;
+use std::io::{IsTerminal, Read};
+use std::path::{Path, PathBuf};
+use std::str::FromStr;
+
+/// Everything a run needs, resolved.
+pub struct AdjustPlan {
+    pub input_bytes: Vec<u8>,
+    pub input_label: String,
+    pub settings: PipelineSettings,
+    pub resolver: Resolver,
+    pub references: Option<References>,
+    pub output: OutputPlan,
+}
+
+#[derive(Debug, Clone)]
+pub struct OutputPlan {
+    pub format: Format,
+    pub path: Option<PathBuf>,
+    pub rounding: Rounding,
+    pub quiet: bool,
+}
+
+pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
+    let steps = parse_steps(&args.steps)?;
+    check_step_options(&steps, args.base_year)?;
+    if !steps.is_empty() && args.refs.is_none() {
+        return Err(Error::usage(
+            "--steps needs reference tables",
+            "pass --refs DIR, a folder with a datapackage.json (see reference-tables/README.md)",
+        ));
+    }
+    let output = resolve_output(&args.output)?;
+    let (input_bytes, input_label) = read_input(&args.input)?;
+    if let Some(out) = &output.path {
+        refuse_overwrite(out, &args.input, args.refs.as_deref(), &args.aliases)?;
+    }
+    let mut resolver = Resolver::builtin();
+    for path in &args.aliases {
+        resolver.add_alias_file(path)?;
+    }
+    let references = match &args.refs {
+        Some(dir) => Some(load_refs(dir, &resolver)?),
+        None => None,
+    };
+    let ingest = ingest_options(&args.columns)?;
+    let settings = pipeline_settings(args, steps, ingest, references.as_ref());
+    Ok(AdjustPlan { input_bytes, input_label, settings, resolver, references, output })
+}
+
+/// The pipeline settings, with the base currency and income basis taken from the references.
+pub fn pipeline_settings(
+    args: &AdjustArgs,
+    steps: Vec<&'static dyn Step>,
+    ingest: IngestOptions,
+    references: Option<&References>,
+) -> PipelineSettings {
+    let base_currency = references
+        .and_then(|r| r.get(Kind::Ppp).or(r.get(Kind::Fx)))
+        .map(|t| t.resource.base_currency.clone())
+        .unwrap_or_else(|| "USD".into());
+    let income_basis = references.and_then(|r| r.get(Kind::Income)).map(|t| t.resource.basis).unwrap_or(Basis::Lcu);
+    PipelineSettings {
+        ingest,
+        steps,
+        step_settings: StepSettings {
+            base_year: args.base_year,
+            deflator: args.deflator,
+            per: args.per,
+            income_as: args.income_as,
+            income_basis,
+            base_currency,
+        },
+        nearest_year: args.nearest_year,
+        allow_unresolved: args.allow_unresolved,
+        rank_aggregates: args.rank_aggregates,
+        order: args.order,
+    }
+}
+
+pub fn parse_steps(names: &[String]) -> Result<Vec<&'static dyn Step>> {
+    let mut steps: Vec<&'static dyn Step> = Vec::new();
+    for raw in names {
+        let name = raw.trim();
+        if name.is_empty() {
+            continue;
+        }
+        let step = adjust::find_step(name).ok_or_else(|| {
+            Error::usage(format!("unknown step \"{name}\""), format!("use steps from: {}", adjust::step_names()))
+        })?;
+        if steps.iter().any(|s| s.name() == step.name()) {
+            return Err(Error::usage(format!("step {name} is listed twice"), "list each step once"));
+        }
+        steps.push(step);
+    }
+    Ok(steps)
+}
+
+pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -> Result<()> {
+    if steps.iter().any(|s| s.name() == "deflate") && base_year.is_none() {
+        return Err(Error::usage("step deflate needs a base year", "pass --base-year YYYY (for example --base-year 2023)"));
+    }
+    if let Some(i) = steps.iter().position(|s| s.name() == "per-income") {
+        if i + 1 != steps.len() {
+            return Err(Error::usage(
+                "per-income must be the last step: its result is a ratio without currency or price base",
+                "move per-income to the end of --steps",
+            ));
+        }
+    }
+    Ok(())
+}
+
+pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
+    let delimiter = match columns.delimiter.as_deref() {
+        None => None,
+        Some("tab") | Some("\\t") | Some("\t") => Some(b'\t'),
+        Some(d) if d.len() == 1 && d.is_ascii() => Some(d.as_bytes()[0]),
+        Some(d) => return Err(Error::usage(format!("--delimiter \"{d}\" is not one character"), "pass one character such as ; or | or the word tab")),
+    };
+    let value_multiplier = match columns.value_multiplier.as_deref() {
+        None => None,
+        Some(text) => {
+            let m = Decimal::from_str(&text.replace([',', '_'], "")).ok().filter(|m| *m > Decimal::ZERO).ok_or_else(|| {
+                Error::usage(format!("--value-multiplier \"{text}\" is not a positive number"), "pass a number such as 1000 or 1000000")
+            })?;
+            Some(m)
+        }
+    };
+    let layout = if columns.wide_years {
+        LayoutChoice::Wide
+    } else if columns.long {
+        LayoutChoice::Long
+    } else {
+        LayoutChoice::Auto
+    };
+    Ok(IngestOptions {
+        delimiter,
+        encoding: columns.encoding,
+        roles: RoleFlags {
+            entity: columns.entity.clone(),
+            value: columns.value.clone(),
+            year: columns.year.clone(),
+            year_value: columns.year_value,
+            group: columns.group.clone(),
+            currency: columns.currency.clone(),
+            layout,
+        },
+        currency_code: columns.currency_code.as_ref().map(|c| c.trim().to_uppercase()),
+        value_multiplier,
+        number_style: NumberStyle { decimal_comma: columns.decimal_comma },
+        lenient: columns.lenient,
+    })
+}
+
+pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
+    let format = match (args.format, &args.output) {
+        (Some(f), _) => f,
+        (None, Some(path)) => Format::from_path(path).unwrap_or(Format::Csv),
+        (None, None) if std::io::stdout().is_terminal() => Format::Table,
+        (None, None) => Format::Csv,
+    };
+    let rounding = match (args.decimals, args.sig) {
+        (Some(d), _) => Rounding::Decimals(d),
+        (None, Some(0)) => return Err(Error::usage("--sig 0 keeps no digit", "pass --sig 1 or more")),
+        (None, Some(s)) => Rounding::Significant(s),
+        (None, None) => Rounding::Full,
+    };
+    Ok(OutputPlan { format, path: args.output.clone(), rounding, quiet: args.quiet })
+}
+
+fn read_input(input: &str) -> Result<(Vec<u8>, String)> {
+    if input == "-" {
+        let mut bytes = Vec::new();
+        std::io::stdin().read_to_end(&mut bytes).map_err(|e| Error::io("standard input", "read", e))?;
+        return Ok((bytes, "<stdin>".into()));
+    }
+    let path = Path::new(input);
+    Ok((source::read_file(path)?, input.to_string()))
+}
+
+fn load_refs(dir: &Path, resolver: &Resolver) -> Result<References> {
+    if !dir.join(reference::CATALOG_FILE).is_file() {
+        return Err(Error::usage(
+            format!("{} has no {}", dir.display(), reference::CATALOG_FILE),
+            "point --refs at a folder with a datapackage.json catalog (see reference-tables/README.md)",
+        ));
+    }
+    reference::load(&DiskDir::new(dir), resolver)
+}
+
+/// The output may not replace the input, a reference table or an alias file.
+fn refuse_overwrite(output: &Path, input: &str, refs: Option<&Path>, aliases: &[PathBuf]) -> Result<()> {
+    let out = match output.canonicalize() {
+        Ok(p) => p,
+        Err(_) => return Ok(()),
+    };
+    let mut protected: Vec<PathBuf> = aliases.to_vec();
+    if input != "-" {
+        protected.push(PathBuf::from(input));
+    }
+    if let Some(dir) = refs {
+        if let Ok(entries) = std::fs::read_dir(dir) {
+            protected.extend(entries.flatten().map(|e| e.path()));
+        }
+    }
+    for path in protected {
+        if path.canonicalize().ok().as_ref() == Some(&out) {
+            return Err(Error::usage(
+                format!("the output {} would overwrite an input file", output.display()),
+                "write the output to a new file",
+            ));
+        }
+    }
+    Ok(())
+}
+

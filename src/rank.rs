@@ -1,0 +1,91 @@
+//! Ranks and rank shifts, computed by polars within each group and year.
+//!
+//! Standard competition ranking ("1224": tied values share the lowest rank and the next rank
+//! is skipped), descending by default so rank 1 is the largest value. Only rows with both a
+//! baseline and an adjusted value, and not excluded (aggregates, unresolved entities), are
+//! ranked, so both rankings cover the same set and the shift isolates the adjustment.
+
+use polars::prelude::*;
+
+/// Which end of the scale is rank 1.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Order {
+    /// The largest value is rank 1.
+    #[default]
+    Desc,
+    /// The smallest value is rank 1.
+    Asc,
+}
+
+/// Rank expressions: `rank_baseline`, `rank_adjusted` (Int64, null when not ranked).
+pub fn rank_columns(order: Order, eligible: Expr, partition: &[Expr]) -> PolarsResult<Vec<Expr>> {
+    let rankable = eligible
+        .and(col("value_adjusted").is_not_null())
+        .and(col("value_baseline").is_not_null());
+    let options = RankOptions { method: RankMethod::Min, descending: order == Order::Desc };
+    let rank_of = |column: &str| -> PolarsResult<Expr> {
+        let masked = when(rankable.clone()).then(col(column)).otherwise(lit(NULL).cast(DataType::Float64));
+        Ok(masked.rank(options, None).over(partition)?.cast(DataType::Int64))
+    };
+    Ok(vec![rank_of("value_baseline")?.alias("rank_baseline"), rank_of("value_adjusted")?.alias("rank_adjusted")])
+}
+
+/// `rank_shift` = rank_baseline − rank_adjusted: positive means the row moved up.
+pub fn shift_column() -> Expr {
+    (col("rank_baseline") - col("rank_adjusted")).alias("rank_shift")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn ranks(values: &[Option<f64>], eligible: &[bool], groups: &[&str], order: Order) -> (Vec<Option<i64>>, Vec<Option<i64>>) {
+        let df = DataFrame::new_infer_height(vec![
+            Column::new("value_baseline".into(), values.to_vec()),
+            Column::new("value_adjusted".into(), values.iter().map(|v| v.map(|x| -x)).collect::<Vec<_>>()),
+            Column::new("ok".into(), eligible.to_vec()),
+            Column::new("group".into(), groups.to_vec()),
+        ])
+        .unwrap();
+        let mut exprs = rank_columns(order, col("ok"), &[col("group")]).unwrap();
+        exprs.push(lit(0));
+        let out = df.lazy().with_columns(&exprs[..2]).with_column(shift_column()).collect().unwrap();
+        let get = |name: &str| out.column(name).unwrap().i64().unwrap().into_iter().collect::<Vec<_>>();
+        let shift = get("rank_shift");
+        let baseline = get("rank_baseline");
+        let adjusted = get("rank_adjusted");
+        for i in 0..values.len() {
+            if let (Some(b), Some(a)) = (baseline[i], adjusted[i]) {
+                assert_eq!(shift[i], Some(b - a));
+            }
+        }
+        (baseline, adjusted)
+    }
+
+    #[test]
+    fn standard_competition_ranking_on_ties() {
+        // Standard competition ranking, "1224" (common practice, no source).
+        let values = [Some(10.0), Some(20.0), Some(20.0), Some(5.0)];
+        let (desc, asc_of_negated) = ranks(&values, &[true; 4], &["g"; 4], Order::Desc);
+        assert_eq!(desc, vec![Some(3), Some(1), Some(1), Some(4)]);
+        // The adjusted column holds the negated values, so descending on it is ascending here.
+        assert_eq!(asc_of_negated, vec![Some(2), Some(3), Some(3), Some(1)]);
+        let (asc, _) = ranks(&values, &[true; 4], &["g"; 4], Order::Asc);
+        assert_eq!(asc, vec![Some(2), Some(3), Some(3), Some(1)]);
+    }
+
+    #[test]
+    fn ineligible_and_missing_rows_are_not_ranked_and_do_not_take_a_rank() {
+        let values = [Some(10.0), None, Some(30.0), Some(20.0)];
+        let (desc, _) = ranks(&values, &[true, true, false, true], &["g"; 4], Order::Desc);
+        assert_eq!(desc, vec![Some(2), None, None, Some(1)]);
+    }
+
+    #[test]
+    fn ranks_restart_in_each_group() {
+        let values = [Some(1.0), Some(2.0), Some(3.0), Some(4.0)];
+        let (desc, _) = ranks(&values, &[true; 4], &["a", "a", "b", "b"], Order::Desc);
+        assert_eq!(desc, vec![Some(2), Some(1), Some(2), Some(1)]);
+    }
+}

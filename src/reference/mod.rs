@@ -1,0 +1,81 @@
+//! Reference tables chosen by the user: the catalog (`catalog`), loading and validation
+//! (`table`), and the coverage report behind `levelfield refs` (`coverage`).
+//!
+//! `References` is what the rest of the pipeline sees: at most one table per kind, each with
+//! its catalog metadata and the sha256-free, file-named provenance the summary prints.
+
+pub mod catalog;
+pub mod coverage;
+pub mod table;
+
+use crate::entity::Resolver;
+use crate::error::Result;
+use crate::source::FileSource;
+pub use catalog::{Basis, Catalog, Kind, Resource};
+pub use table::{Factor, RefTable};
+
+pub const CATALOG_FILE: &str = "datapackage.json";
+
+/// The loaded reference tables of one catalog.
+#[derive(Debug, Clone)]
+pub struct References {
+    pub catalog: Catalog,
+    pub catalog_file: String,
+    pub tables: Vec<RefTable>,
+}
+
+impl References {
+    pub fn get(&self, kind: Kind) -> Option<&RefTable> {
+        self.tables.iter().find(|t| t.resource.kind == kind)
+    }
+
+    /// One line per table for the run summary: kind, name, unit, vintage, first source.
+    pub fn describe(&self) -> Vec<String> {
+        self.tables
+            .iter()
+            .map(|t| {
+                let r = &t.resource;
+                let source = r.sources.first().map(|s| s.title.as_str()).unwrap_or("no source given");
+                format!(
+                    "{} \"{}\" ({}{}), vintage {}, source: {source}",
+                    r.kind.as_str(),
+                    r.name,
+                    if r.unit.is_empty() { "unit not stated" } else { &r.unit },
+                    if r.multiplier != 1.0 { format!(", x{}", r.multiplier) } else { String::new() },
+                    r.vintage.as_deref().unwrap_or("not stated"),
+                )
+            })
+            .collect()
+    }
+
+    /// Warnings for entities in the reference tables that resolve to nothing, listed once.
+    pub fn warnings(&self) -> Vec<String> {
+        self.tables
+            .iter()
+            .filter(|t| !t.unresolved.is_empty())
+            .map(|t| {
+                let names: Vec<String> = t.unresolved.iter().take(8).map(|(n, l)| format!("\"{n}\" (line {l})")).collect();
+                let more = if t.unresolved.len() > 8 { format!(" and {} more", t.unresolved.len() - 8) } else { String::new() };
+                format!(
+                    "{}: {} entity name(s) match no country or aggregate and were skipped: {}{more}",
+                    t.file,
+                    t.unresolved.len(),
+                    names.join(", ")
+                )
+            })
+            .collect()
+    }
+}
+
+/// Loads the catalog and every table it lists; the first broken table stops the load.
+pub fn load(source: &dyn FileSource, resolver: &Resolver) -> Result<References> {
+    let catalog_file = source.label(CATALOG_FILE);
+    let catalog = catalog::parse_catalog(&source.read(CATALOG_FILE)?, &catalog_file)?;
+    let mut tables = Vec::with_capacity(catalog.resources.len());
+    for resource in &catalog.resources {
+        let file = source.label(&resource.path);
+        let bytes = source.read(&resource.path)?;
+        tables.push(table::load_table(&bytes, &file, resource, resolver)?);
+    }
+    Ok(References { catalog, catalog_file, tables })
+}

@@ -1,0 +1,155 @@
+//! Loading one reference table (long or wide), validating it, and looking factors up by entity
+//! and year, strictly or within `--nearest-year N`.
+//!
+//! Validation stops at the first broken cell with its file, line and column: a reference table
+//! with a bad factor would silently bend every figure that uses it. Entities that do not resolve
+//! are not errors (reference tables carry many aggregates and territories) but warnings listed
+//! once.
+
+use crate::entity::{Resolution, Resolver};
+use crate::error::{Error, Location, Result};
+use crate::ingest::layout::{self, RoleFlags, Shape, YearSource};
+use crate::ingest::number::{self, Cell, NumberStyle};
+use crate::ingest::{encoding, table};
+use crate::reference::catalog::{Kind, Resource};
+use std::collections::{BTreeMap, HashMap};
+
+/// A loaded reference table: entity code → year → factor (multiplier applied).
+#[derive(Debug, Clone)]
+pub struct RefTable {
+    pub resource: Resource,
+    pub file: String,
+    pub series: HashMap<String, BTreeMap<i32, f64>>,
+    /// Entity names in the table that resolve to nothing, with their first line.
+    pub unresolved: Vec<(String, usize)>,
+    pub rows_read: usize,
+}
+
+/// A factor found for an entity and year.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Factor {
+    pub value: f64,
+    pub year: i32,
+}
+
+impl RefTable {
+    /// The factor for `code` in `year`, or the nearest year within `tolerance` years (the
+    /// earlier year wins a tie, because it is the one already published when the later one is
+    /// still an estimate: a convention of ours, stated in the README).
+    pub fn lookup(&self, code: &str, year: i32, tolerance: u32) -> Option<Factor> {
+        let series = self.series.get(code)?;
+        if let Some(&value) = series.get(&year) {
+            return Some(Factor { value, year });
+        }
+        for distance in 1..=tolerance as i32 {
+            for candidate in [year - distance, year + distance] {
+                if let Some(&value) = series.get(&candidate) {
+                    return Some(Factor { value, year: candidate });
+                }
+            }
+        }
+        None
+    }
+
+    pub fn years(&self) -> Option<(i32, i32)> {
+        let min = self.series.values().filter_map(|s| s.keys().next()).min()?;
+        let max = self.series.values().filter_map(|s| s.keys().next_back()).max()?;
+        Some((*min, *max))
+    }
+}
+
+pub fn load_table(bytes: &[u8], file: &str, resource: &Resource, resolver: &Resolver) -> Result<RefTable> {
+    let decoded = encoding::decode(bytes, None, file)?;
+    let delimiter = table::sniff_delimiter(&decoded.text);
+    let text_table = table::read_table(&decoded.text, delimiter, file)?;
+    let flags = RoleFlags {
+        entity: resource.entity_field.clone(),
+        value: resource.value_field.clone(),
+        year: resource.year_field.clone(),
+        layout: resource.layout,
+        ..Default::default()
+    };
+    let roles = layout::assign_roles(&text_table, &flags, file)?;
+    let mut loaded = RefTable {
+        resource: resource.clone(),
+        file: file.to_string(),
+        series: HashMap::new(),
+        unresolved: Vec::new(),
+        rows_read: 0,
+    };
+    let mut first_line: HashMap<(String, i32), usize> = HashMap::new();
+    for record in &text_table.records {
+        let entity_text = record.cells[roles.entity].trim();
+        let code = match resolver.resolve(entity_text) {
+            Resolution::Found(entity) => entity.code.clone(),
+            Resolution::Unresolved { .. } => {
+                if !loaded.unresolved.iter().any(|(n, _)| n == entity_text) {
+                    loaded.unresolved.push((entity_text.to_string(), record.line));
+                }
+                continue;
+            }
+        };
+        let cells: Vec<(i32, usize)> = match &roles.shape {
+            Shape::Wide { year_columns } => year_columns.iter().map(|&(c, y)| (y, c)).collect(),
+            Shape::Long { value, year, .. } => {
+                let year = match year {
+                    YearSource::Fixed(y) => *y,
+                    YearSource::Column { index, .. } => {
+                        match layout::parse_year_cell(&record.cells[*index]) {
+                            Ok(Some(y)) => y,
+                            _ => {
+                                return Err(Error::bad_input(
+                                    Location::cell(file, record.line, &text_table.headers[*index]),
+                                    format!("\"{}\" is not a calendar year", record.cells[*index]),
+                                    "a four-digit year",
+                                    "fix the reference table",
+                                ))
+                            }
+                        }
+                    }
+                };
+                vec![(year, *value)]
+            }
+        };
+        for (year, column) in cells {
+            let header = &text_table.headers[column];
+            let cell = &record.cells[column];
+            let value = match number::parse_cell(cell, NumberStyle::default()) {
+                Ok(Cell::Missing) => continue,
+                Ok(Cell::Number { value, .. }) => number::to_f64(value),
+                Err(e) => {
+                    return Err(Error::bad_input(
+                        Location::cell(file, record.line, header),
+                        e.reason,
+                        format!("a {} factor ({})", resource.kind.as_str(), e.hint),
+                        "fix the reference table; mark a missing factor with .. or leave the cell empty",
+                    ))
+                }
+            };
+            if value <= 0.0 && kind_must_be_positive(resource.kind) {
+                return Err(Error::bad_input(
+                    Location::cell(file, record.line, header),
+                    format!("{} factor \"{cell}\" is not positive", resource.kind.as_str()),
+                    format!("a positive {}", resource.kind.describe()),
+                    "fix the reference table; mark a missing factor with .. or leave the cell empty",
+                ));
+            }
+            if let Some(previous) = first_line.insert((code.clone(), year), record.line) {
+                return Err(Error::bad_input(
+                    Location::line(file, record.line),
+                    format!("a second {} factor for {code} in {year} (the first is on line {previous})", resource.kind.as_str()),
+                    "one factor per entity and year",
+                    "remove the duplicate, or check whether two names in the table mean the same country",
+                ));
+            }
+            loaded.series.entry(code.clone()).or_default().insert(year, value * resource.multiplier);
+            loaded.rows_read += 1;
+        }
+    }
+    Ok(loaded)
+}
+
+fn kind_must_be_positive(kind: Kind) -> bool {
+    // Every kind divides or scales a figure; zero or negative factors have no meaning here.
+    matches!(kind, Kind::Fx | Kind::Ppp | Kind::Cpi | Kind::Population | Kind::Income)
+}

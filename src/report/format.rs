@@ -1,0 +1,192 @@
+//! Turning frame cells into text: full precision for machine formats, rounded for reading.
+//!
+//! One rounding rule everywhere: half to even (banker's rounding, the IEEE 754 default), either
+//! to a number of decimals (`--decimals`) or to significant digits (`--sig`). Without either,
+//! machine formats (csv, json) keep every digit and reader formats (table, md) use the reading
+//! rule: no decimals from 100 up, two from 1 up, three significant digits below 1.
+
+use polars::prelude::*;
+use rust_decimal::prelude::FromPrimitive;
+use rust_decimal::{Decimal, RoundingStrategy};
+
+/// How to round numbers when writing.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+pub enum Rounding {
+    /// Every digit (shortest text that reads back to the same f64).
+    #[default]
+    Full,
+    /// The reading rule described above.
+    Reading,
+    Decimals(u32),
+    Significant(u32),
+}
+
+/// Formats one number; `grouping` adds thousands separators (reader formats only).
+pub fn format_number(value: f64, rounding: Rounding, grouping: bool) -> String {
+    if !value.is_finite() {
+        return String::new();
+    }
+    let text = match rounding {
+        Rounding::Full => {
+            let v = if value == 0.0 { 0.0 } else { value };
+            format!("{v}")
+        }
+        Rounding::Decimals(dp) => round_dp(value, dp),
+        Rounding::Significant(sig) => round_sig(value, sig.max(1)),
+        Rounding::Reading => {
+            let magnitude = value.abs();
+            if magnitude >= 100.0 {
+                round_dp(value, 0)
+            } else if magnitude >= 1.0 {
+                round_dp(value, 2)
+            } else {
+                round_sig(value, 3)
+            }
+        }
+    };
+    if grouping {
+        group_thousands(&text)
+    } else {
+        text
+    }
+}
+
+fn round_dp(value: f64, dp: u32) -> String {
+    match Decimal::from_f64(value) {
+        Some(d) => {
+            let rounded = d.round_dp_with_strategy(dp, RoundingStrategy::MidpointNearestEven);
+            let rounded = if rounded.is_zero() { Decimal::ZERO } else { rounded };
+            format!("{:.*}", dp as usize, rounded)
+        }
+        // Beyond Decimal's range: f64's own formatting, which rounds half to even as well.
+        None => format!("{:.*}", dp as usize, value),
+    }
+}
+
+fn round_sig(value: f64, sig: u32) -> String {
+    if value == 0.0 {
+        return "0".into();
+    }
+    let exponent = value.abs().log10().floor() as i32;
+    let dp = sig as i32 - 1 - exponent;
+    if dp >= 0 {
+        round_dp(value, dp as u32)
+    } else {
+        let scale = 10f64.powi(-dp);
+        let rounded = match Decimal::from_f64(value / scale) {
+            Some(d) => d.round_dp_with_strategy(0, RoundingStrategy::MidpointNearestEven),
+            None => return format!("{value:.0}"),
+        };
+        let whole: f64 = rust_decimal::prelude::ToPrimitive::to_f64(&rounded).unwrap_or(value) * scale;
+        format!("{whole:.0}")
+    }
+}
+
+fn group_thousands(text: &str) -> String {
+    let (sign, rest) = match text.strip_prefix('-') {
+        Some(r) => ("-", r),
+        None => ("", text),
+    };
+    let (integer, fraction) = match rest.find('.') {
+        Some(i) => (&rest[..i], &rest[i..]),
+        None => (rest, ""),
+    };
+    if integer.len() <= 3 || !integer.bytes().all(|b| b.is_ascii_digit()) {
+        return text.to_string();
+    }
+    let mut grouped = String::new();
+    for (i, c) in integer.chars().enumerate() {
+        if i > 0 && (integer.len() - i) % 3 == 0 {
+            grouped.push(',');
+        }
+        grouped.push(c);
+    }
+    format!("{sign}{grouped}{fraction}")
+}
+
+/// A column as text cells (empty for null).
+pub fn column_texts(frame: &DataFrame, name: &str, rounding: Rounding, grouping: bool) -> Vec<String> {
+    let Ok(column) = frame.column(name) else {
+        return vec![String::new(); frame.height()];
+    };
+    let series = column.as_materialized_series();
+    match series.dtype() {
+        DataType::Float64 => series
+            .f64()
+            .map(|ca| ca.iter().map(|v| v.map(|x| format_number(x, rounding, grouping)).unwrap_or_default()).collect())
+            .unwrap_or_default(),
+        DataType::String => series
+            .str()
+            .map(|ca| ca.iter().map(|v| v.unwrap_or("").to_string()).collect())
+            .unwrap_or_default(),
+        _ => (0..series.len())
+            .map(|i| match series.get(i) {
+                Ok(AnyValue::Null) | Err(_) => String::new(),
+                Ok(v) => v.to_string().trim_matches('"').to_string(),
+            })
+            .collect(),
+    }
+}
+
+/// A column as JSON values (numbers stay numbers).
+pub fn column_json(frame: &DataFrame, name: &str, rounding: Rounding) -> Vec<serde_json::Value> {
+    let Ok(column) = frame.column(name) else {
+        return vec![serde_json::Value::Null; frame.height()];
+    };
+    let series = column.as_materialized_series();
+    (0..series.len())
+        .map(|i| match series.get(i) {
+            Ok(AnyValue::Null) | Err(_) => serde_json::Value::Null,
+            Ok(AnyValue::String(s)) => serde_json::Value::String(s.to_string()),
+            Ok(AnyValue::Float64(x)) => {
+                let text = format_number(x, rounding, false);
+                serde_json::from_str::<serde_json::Number>(&text)
+                    .map(serde_json::Value::Number)
+                    .unwrap_or(serde_json::Value::Null)
+            }
+            Ok(AnyValue::Int32(x)) => serde_json::Value::from(x),
+            Ok(AnyValue::Int64(x)) => serde_json::Value::from(x),
+            Ok(AnyValue::UInt32(x)) => serde_json::Value::from(x),
+            Ok(AnyValue::UInt64(x)) => serde_json::Value::from(x),
+            Ok(AnyValue::Boolean(b)) => serde_json::Value::Bool(b),
+            Ok(other) => serde_json::Value::String(other.to_string()),
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn half_to_even_at_the_requested_decimals() {
+        // Round half to even (IEEE 754-2008 roundTiesToEven; common practice in statistics).
+        assert_eq!(format_number(2.5, Rounding::Decimals(0), false), "2");
+        assert_eq!(format_number(3.5, Rounding::Decimals(0), false), "4");
+        assert_eq!(format_number(0.125, Rounding::Decimals(2), false), "0.12");
+        assert_eq!(format_number(-0.0001, Rounding::Decimals(2), false), "0.00");
+    }
+
+    #[test]
+    fn significant_digits() {
+        assert_eq!(format_number(123456.0, Rounding::Significant(3), false), "123000");
+        assert_eq!(format_number(0.0012345, Rounding::Significant(3), false), "0.00123");
+        assert_eq!(format_number(1.0, Rounding::Significant(2), false), "1.0");
+    }
+
+    #[test]
+    fn reading_rule_and_grouping() {
+        assert_eq!(format_number(1234567.4, Rounding::Reading, true), "1,234,567");
+        assert_eq!(format_number(12.345, Rounding::Reading, true), "12.35");
+        assert_eq!(format_number(0.012345, Rounding::Reading, true), "0.0123");
+        assert_eq!(format_number(-1234.5, Rounding::Reading, true), "-1,234");
+    }
+
+    #[test]
+    fn full_precision_reads_back_to_the_same_number() {
+        for v in [0.1, 1.0 / 3.0, 128.5634, 1e-7, 123456789.125] {
+            let text = format_number(v, Rounding::Full, false);
+            assert_eq!(text.parse::<f64>().unwrap(), v, "{text}");
+        }
+    }
+}

@@ -1,0 +1,228 @@
+//! Writing results: the terminal table, csv, Markdown and JSON, written atomically, and the
+//! run summary on stderr.
+//!
+//! Machine formats (csv, json) carry every output column at full precision; reader formats
+//! (table, md) show the columns an editor reads, rounded by the one rule in `format`.
+
+pub mod format;
+pub mod summary;
+
+use crate::error::{Error, Result};
+use crate::pipeline::RunSummary;
+use format::{column_json, column_texts, Rounding};
+use polars::prelude::*;
+use std::io::Write;
+use std::path::Path;
+use tabled::settings::{object::Columns, Alignment, Style};
+
+/// Output formats.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Format {
+    /// A rounded table for reading on a terminal.
+    Table,
+    /// Every column at full precision.
+    Csv,
+    /// A Markdown table for a memo or a newsroom CMS.
+    Md,
+    /// Records with a metadata object (steps, references, summary).
+    Json,
+}
+
+impl Format {
+    /// The format implied by a file name, if any.
+    pub fn from_path(path: &Path) -> Option<Format> {
+        match path.extension()?.to_str()?.to_ascii_lowercase().as_str() {
+            "csv" => Some(Format::Csv),
+            "md" | "markdown" => Some(Format::Md),
+            "json" => Some(Format::Json),
+            "txt" => Some(Format::Table),
+            _ => None,
+        }
+    }
+}
+
+/// Renders the frame in `format`.
+pub fn render(frame: &DataFrame, summary: &RunSummary, format: Format, rounding: Rounding) -> Result<String> {
+    Ok(match format {
+        Format::Table => render_table(frame, summary, reader_rounding(rounding)),
+        Format::Md => render_markdown(frame, summary, reader_rounding(rounding)),
+        Format::Csv => render_csv(frame, rounding)?,
+        Format::Json => render_json(frame, summary, rounding)?,
+    })
+}
+
+fn reader_rounding(rounding: Rounding) -> Rounding {
+    match rounding {
+        Rounding::Full => Rounding::Reading,
+        other => other,
+    }
+}
+
+pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
+    let names: Vec<String> = frame.get_column_names().iter().map(|n| n.to_string()).collect();
+    let columns: Vec<Vec<String>> = names.iter().map(|n| column_texts(frame, n, rounding, false)).collect();
+    let mut writer = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
+    let io_error = |e: csv::Error| Error::io("the csv output", "write", std::io::Error::other(e.to_string()));
+    writer.write_record(&names).map_err(io_error)?;
+    for row in 0..frame.height() {
+        writer.write_record(columns.iter().map(|c| c[row].as_str())).map_err(io_error)?;
+    }
+    let bytes = writer.into_inner().map_err(|e| Error::io("the csv output", "write", std::io::Error::other(e.to_string())))?;
+    Ok(String::from_utf8_lossy(&bytes).into_owned())
+}
+
+pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> Result<String> {
+    let names: Vec<String> = frame.get_column_names().iter().map(|n| n.to_string()).collect();
+    let columns: Vec<Vec<serde_json::Value>> = names.iter().map(|n| column_json(frame, n, rounding)).collect();
+    let mut out = String::from("{\n  \"metadata\": ");
+    let metadata = serde_json::json!({
+        "tool": "levelfield",
+        "version": env!("CARGO_PKG_VERSION"),
+        "summary": summary,
+    });
+    out.push_str(&serde_json::to_string(&metadata).unwrap_or_default());
+    out.push_str(",\n  \"rows\": [");
+    for row in 0..frame.height() {
+        out.push_str(if row == 0 { "\n    {" } else { ",\n    {" });
+        for (i, name) in names.iter().enumerate() {
+            if i > 0 {
+                out.push_str(", ");
+            }
+            out.push_str(&serde_json::to_string(name).unwrap_or_default());
+            out.push_str(": ");
+            out.push_str(&serde_json::to_string(&columns[i][row]).unwrap_or_default());
+        }
+        out.push('}');
+    }
+    out.push_str("\n  ]\n}\n");
+    Ok(out)
+}
+
+/// The columns a reader sees, with their headers.
+fn reader_rows(frame: &DataFrame, rounding: Rounding) -> (Vec<&'static str>, Vec<Vec<String>>) {
+    let has_group = frame.column("group").map(|c| c.null_count() < c.len()).unwrap_or(false);
+    let names = column_texts(frame, "entity_name", rounding, true);
+    let inputs = column_texts(frame, "entity_input", rounding, true);
+    let years = column_texts(frame, "year", rounding, true);
+    let groups = column_texts(frame, "group", rounding, true);
+    let given = column_texts(frame, "value_input", rounding, true);
+    let baseline = column_texts(frame, "value_baseline", rounding, true);
+    let adjusted = column_texts(frame, "value_adjusted", rounding, true);
+    let rank_b = column_texts(frame, "rank_baseline", rounding, false);
+    let rank_a = column_texts(frame, "rank_adjusted", rounding, false);
+    let shift = column_texts(frame, "rank_shift", rounding, false);
+    let flags = column_texts(frame, "flags", rounding, false);
+    let mut header = vec!["entity", "year"];
+    if has_group {
+        header.push("group");
+    }
+    header.extend(["as given", "baseline", "adjusted", "rank before", "rank after", "shift", "flags"]);
+    let rows = (0..frame.height())
+        .map(|i| {
+            let entity = if names[i].is_empty() { inputs[i].clone() } else { names[i].clone() };
+            let mut row = vec![entity, years[i].clone()];
+            if has_group {
+                row.push(groups[i].clone());
+            }
+            row.extend([
+                given[i].trim().to_string(),
+                baseline[i].clone(),
+                adjusted[i].clone(),
+                rank_b[i].clone(),
+                rank_a[i].clone(),
+                shift_marker(&shift[i]),
+                flags[i].replace(';', ", "),
+            ]);
+            row
+        })
+        .collect();
+    (header, rows)
+}
+
+/// `▲ 2` for a move up, `▼ 3` for a move down, `=` for none, `–` when not ranked.
+pub fn shift_marker(shift: &str) -> String {
+    match shift.parse::<i64>() {
+        Ok(0) => "=".into(),
+        Ok(n) if n > 0 => format!("▲ {n}"),
+        Ok(n) => format!("▼ {}", -n),
+        Err(_) => "–".into(),
+    }
+}
+
+pub fn render_table(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> String {
+    let (header, rows) = reader_rows(frame, rounding);
+    let mut builder = tabled::builder::Builder::default();
+    builder.push_record(header.iter().map(|h| h.to_string()));
+    for row in rows {
+        builder.push_record(row);
+    }
+    let mut table = builder.build();
+    let numeric_from = header.iter().position(|h| *h == "as given").unwrap_or(2);
+    table.with(Style::sharp());
+    table.modify(Columns::new(numeric_from..numeric_from + 5), Alignment::right());
+    let mut out = table.to_string();
+    out.push('\n');
+    out.push_str(&summary::units_line(summary));
+    out.push('\n');
+    out
+}
+
+pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> String {
+    let (header, rows) = reader_rows(frame, rounding);
+    let numeric_from = header.iter().position(|h| *h == "as given").unwrap_or(2);
+    let mut out = format!("| {} |\n|", header.join(" | "));
+    for i in 0..header.len() {
+        out.push_str(if i >= numeric_from && i < numeric_from + 5 { "---:|" } else { "---|" });
+    }
+    out.push('\n');
+    for row in rows {
+        let cells: Vec<String> = row.iter().map(|c| c.replace('|', "\\|")).collect();
+        out.push_str(&format!("| {} |\n", cells.join(" | ")));
+    }
+    out.push('\n');
+    out.push_str(&summary::units_line(summary));
+    out.push('\n');
+    out
+}
+
+/// Writes `text` to `path` through a temporary file in the same folder and a rename, so a
+/// failure never leaves a half-written file and an earlier output stays intact.
+pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
+    if path.is_dir() {
+        return Err(Error::io(path.display(), "write the output", std::io::Error::other("this path is a folder; give a file name")));
+    }
+    let dir = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => std::path::PathBuf::from("."),
+    };
+    let mut temp = tempfile::NamedTempFile::new_in(&dir).map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
+    temp.write_all(text.as_bytes()).map_err(|e| Error::io(path.display(), "write the output", e))?;
+    temp.as_file().sync_all().map_err(|e| Error::io(path.display(), "write the output", e))?;
+    temp.persist(path).map_err(|e| Error::io(path.display(), "move the finished output into place", e.error))?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn shift_markers() {
+        assert_eq!(shift_marker("2"), "▲ 2");
+        assert_eq!(shift_marker("-3"), "▼ 3");
+        assert_eq!(shift_marker("0"), "=");
+        assert_eq!(shift_marker(""), "–");
+    }
+
+    #[test]
+    fn atomic_write_replaces_and_refuses_folders() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("out.csv");
+        write_atomically(&path, "a\n").unwrap();
+        write_atomically(&path, "b\n").unwrap();
+        assert_eq!(std::fs::read_to_string(&path).unwrap(), "b\n");
+        assert!(write_atomically(dir.path(), "x").is_err());
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1, "no temporary file left behind");
+    }
+}

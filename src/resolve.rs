@@ -1,0 +1,143 @@
+//! Resolving the entity text of every canonical row to an entity (ISO 3166-1 country, aggregate
+//! or user-defined), and deciding what currency basis each figure is in.
+//!
+//! Never guesses: a name that matches nothing stops the run with every such name listed (and up
+//! to three suggestions each), unless `--allow-unresolved` keeps those rows flagged.
+
+use crate::entity::{EntityKind, Resolution, Resolver};
+use crate::error::{Error, Result, UnresolvedName};
+use crate::flags;
+use crate::ingest::Ingested;
+use std::collections::HashMap;
+
+/// Entity columns for every row, in input order.
+#[derive(Debug, Clone, Default)]
+pub struct EntityColumns {
+    pub code: Vec<Option<String>>,
+    pub name: Vec<Option<String>>,
+    pub kind: Vec<Option<&'static str>>,
+    /// The ISO 4217 code the entity's reference tables are in, when known.
+    pub currency: Vec<Option<String>>,
+}
+
+/// How a figure relates to the reference tables' currencies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InputBasis {
+    /// In the entity's own currency (or not stated, which means the same).
+    Local,
+    /// In the reference tables' base currency (USD), to be taken back to local currency.
+    Base,
+    /// In some other currency: the row is flagged `currency_mismatch` and not adjusted.
+    Mismatch,
+}
+
+impl InputBasis {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            InputBasis::Local => "local",
+            InputBasis::Base => "base",
+            InputBasis::Mismatch => "mismatch",
+        }
+    }
+}
+
+pub struct ResolveOptions<'a> {
+    pub allow_unresolved: bool,
+    pub rank_aggregates: bool,
+    pub base_currency: &'a str,
+}
+
+/// Resolves every row. Adds `unresolved`, `aggregate` and `currency_mismatch` flags to the rows.
+pub fn resolve_rows(ingested: &mut Ingested, resolver: &Resolver, options: &ResolveOptions) -> Result<(EntityColumns, Vec<InputBasis>)> {
+    let mut cache: HashMap<String, Option<(String, String, EntityKind, Option<String>)>> = HashMap::new();
+    let mut unresolved: Vec<UnresolvedName> = Vec::new();
+    let n = ingested.rows.len();
+    let mut columns = EntityColumns {
+        code: Vec::with_capacity(n),
+        name: Vec::with_capacity(n),
+        kind: Vec::with_capacity(n),
+        currency: Vec::with_capacity(n),
+    };
+    let mut bases = Vec::with_capacity(n);
+    for row in ingested.rows.iter_mut() {
+        let found = cache
+            .entry(row.entity_input.clone())
+            .or_insert_with(|| match resolver.resolve(&row.entity_input) {
+                Resolution::Found(e) => Some((e.code.clone(), e.name.clone(), e.kind, e.currency.clone())),
+                Resolution::Unresolved { suggestions } => {
+                    unresolved.push(UnresolvedName { text: row.entity_input.clone(), lines: Vec::new(), suggestions });
+                    None
+                }
+            })
+            .clone();
+        match found {
+            Some((code, name, kind, currency)) => {
+                if kind == EntityKind::Aggregate && !options.rank_aggregates {
+                    row.flags.push(flags::AGGREGATE.into());
+                }
+                let basis = input_basis(row.currency.as_deref(), currency.as_deref(), options.base_currency);
+                if basis == InputBasis::Mismatch {
+                    row.flags.push(flags::CURRENCY_MISMATCH.into());
+                }
+                bases.push(basis);
+                columns.code.push(Some(code));
+                columns.name.push(Some(name));
+                columns.kind.push(Some(kind.as_str()));
+                columns.currency.push(currency);
+            }
+            None => {
+                if let Some(u) = unresolved.iter_mut().find(|u| u.text == row.entity_input) {
+                    if u.lines.last() != Some(&row.line) {
+                        u.lines.push(row.line);
+                    }
+                }
+                row.flags.push(flags::UNRESOLVED.into());
+                bases.push(InputBasis::Local);
+                columns.code.push(None);
+                columns.name.push(None);
+                columns.kind.push(None);
+                columns.currency.push(None);
+            }
+        }
+    }
+    if !unresolved.is_empty() && !options.allow_unresolved {
+        return Err(Error::Unresolved { file: ingested.file.clone(), names: unresolved });
+    }
+    if !unresolved.is_empty() {
+        ingested.notes.push(format!(
+            "{} entity name(s) unresolved and kept flagged (--allow-unresolved): {}",
+            unresolved.len(),
+            unresolved.iter().map(|u| format!("\"{}\"", u.text)).collect::<Vec<_>>().join(", ")
+        ));
+    }
+    Ok((columns, bases))
+}
+
+/// A stated currency equal to the entity's own is local; equal to the base currency is base;
+/// anything else is a mismatch. An entity whose currency is not known (user-defined entities
+/// without one in the alias file) takes any non-base currency as its own, because its
+/// reference tables define its unit.
+pub fn input_basis(stated: Option<&str>, own: Option<&str>, base: &str) -> InputBasis {
+    match (stated, own) {
+        (None, _) => InputBasis::Local,
+        (Some(s), Some(o)) if s == o => InputBasis::Local,
+        (Some(s), _) if s == base => InputBasis::Base,
+        (Some(_), None) => InputBasis::Local,
+        (Some(_), Some(_)) => InputBasis::Mismatch,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn currency_basis_rules() {
+        assert_eq!(input_basis(None, Some("EUR"), "USD"), InputBasis::Local);
+        assert_eq!(input_basis(Some("EUR"), Some("EUR"), "USD"), InputBasis::Local);
+        assert_eq!(input_basis(Some("USD"), Some("EUR"), "USD"), InputBasis::Base);
+        assert_eq!(input_basis(Some("USD"), Some("USD"), "USD"), InputBasis::Local);
+        assert_eq!(input_basis(Some("GBP"), Some("EUR"), "USD"), InputBasis::Mismatch);
+        assert_eq!(input_basis(Some("XQA"), None, "USD"), InputBasis::Local);
+    }
+}
