@@ -14,6 +14,7 @@ use std::path::PathBuf;
     version,
     about = "Make cross-country money and count tables comparable: PPP instead of market rates, one price base, per capita, with rank shifts and flags.",
     long_about = None,
+    term_width = 100,
     after_help = "Run `levelfield demo` to see a worked (invented) example, and `levelfield adjust --help` for every option."
 )]
 pub struct Cli {

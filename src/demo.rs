@@ -17,8 +17,6 @@ use clap::Parser;
 /// The `adjust` arguments the demo runs, as a user would type them.
 pub const DEMO_ARGS: &[&str] = &[
     "demo/transit-pass-fees.csv",
-    "--aliases",
-    "demo/aliases.csv",
     "--refs",
     "reference-tables",
     "--steps",
@@ -28,12 +26,12 @@ pub const DEMO_ARGS: &[&str] = &[
 ];
 
 pub const DEMO_INPUT: &str = include_str!("../demo/transit-pass-fees.csv");
-pub const DEMO_ALIASES: &str = include_str!("../demo/aliases.csv");
 
 pub static DEMO_REFERENCES: Embedded = Embedded {
     prefix: "reference-tables",
     files: &[
         ("datapackage.json", include_str!("../reference-tables/datapackage.json")),
+        ("aliases.csv", include_str!("../reference-tables/aliases.csv")),
         ("fx.csv", include_str!("../reference-tables/fx.csv")),
         ("ppp.csv", include_str!("../reference-tables/ppp.csv")),
         ("cpi.csv", include_str!("../reference-tables/cpi.csv")),
@@ -55,8 +53,7 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
     let steps = plan::parse_steps(&adjust.steps)?;
     plan::check_step_options(&steps, adjust.base_year)?;
     let mut resolver = Resolver::builtin();
-    resolver.add_alias_text(DEMO_ALIASES, "demo/aliases.csv")?;
-    let references = reference::load(&DEMO_REFERENCES, &resolver)?;
+    let references = reference::load(&DEMO_REFERENCES, &mut resolver)?;
     let ingest = plan::ingest_options(&adjust.columns)?;
     let settings = plan::pipeline_settings(&adjust, steps, ingest, Some(&references));
     Ok(plan::AdjustPlan {
@@ -107,7 +104,6 @@ pub fn extract(dir: &std::path::Path) -> Result<()> {
         crate::report::write_atomically(&path, text)
     };
     write("demo/transit-pass-fees.csv", DEMO_INPUT)?;
-    write("demo/aliases.csv", DEMO_ALIASES)?;
     for (name, text) in DEMO_REFERENCES.files {
         write(&format!("reference-tables/{name}"), text)?;
     }

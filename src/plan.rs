@@ -56,7 +56,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         resolver.add_alias_file(path)?;
     }
     let references = match &args.refs {
-        Some(dir) => Some(load_refs(dir, &resolver)?),
+        Some(dir) => Some(load_refs(dir, &mut resolver)?),
         None => None,
     };
     let ingest = ingest_options(&args.columns)?;
@@ -195,7 +195,7 @@ fn read_input(input: &str) -> Result<(Vec<u8>, String)> {
     Ok((source::read_file(path)?, input.to_string()))
 }
 
-fn load_refs(dir: &Path, resolver: &Resolver) -> Result<References> {
+fn load_refs(dir: &Path, resolver: &mut Resolver) -> Result<References> {
     if !dir.join(reference::CATALOG_FILE).is_file() {
         return Err(Error::usage(
             format!("{} has no {}", dir.display(), reference::CATALOG_FILE),

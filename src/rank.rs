@@ -51,7 +51,7 @@ mod tests {
         let mut exprs = rank_columns(order, col("ok"), &[col("group")]).unwrap();
         exprs.push(lit(0));
         let out = df.lazy().with_columns(&exprs[..2]).with_column(shift_column()).collect().unwrap();
-        let get = |name: &str| out.column(name).unwrap().i64().unwrap().into_iter().collect::<Vec<_>>();
+        let get = |name: &str| out.column(name).unwrap().i64().unwrap().iter().collect::<Vec<_>>();
         let shift = get("rank_shift");
         let baseline = get("rank_baseline");
         let adjusted = get("rank_adjusted");

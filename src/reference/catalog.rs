@@ -89,6 +89,8 @@ pub struct Resource {
 pub struct Catalog {
     pub name: String,
     pub title: Option<String>,
+    /// Alias files (relative to the catalog) that define the entities the tables use.
+    pub aliases: Vec<String>,
     pub resources: Vec<Resource>,
 }
 
@@ -98,6 +100,8 @@ struct RawCatalog {
     name: String,
     #[serde(default)]
     title: Option<String>,
+    #[serde(default)]
+    aliases: Vec<String>,
     resources: Vec<RawResource>,
 }
 
@@ -200,7 +204,7 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
             ));
         }
     }
-    Ok(Catalog { name: raw.name, title: raw.title, resources })
+    Ok(Catalog { name: raw.name, title: raw.title, aliases: raw.aliases, resources })
 }
 
 #[cfg(test)]

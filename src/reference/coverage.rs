@@ -24,6 +24,9 @@ pub struct TableCoverage {
 pub fn survey(source: &dyn FileSource, resolver: &Resolver) -> Result<(String, Vec<TableCoverage>)> {
     let catalog_file = source.label(CATALOG_FILE);
     let catalog = catalog::parse_catalog(&source.read(CATALOG_FILE)?, &catalog_file)?;
+    let mut resolver = resolver.clone();
+    crate::reference::add_catalog_aliases(&catalog, source, &mut resolver)?;
+    let resolver = &resolver;
     let mut out = Vec::new();
     for resource in &catalog.resources {
         let file = source.label(&resource.path);
@@ -112,8 +115,10 @@ pub fn render(title: &str, tables: &[TableCoverage]) -> String {
             let more = if t.gaps.len() > 10 { format!("; and {} more entities", t.gaps.len() - 10) } else { String::new() };
             out.push_str(&format!("\ngaps in {}: {}{more}\n", t.resource.name, listed.join("; ")));
         }
-        for w in &t.warnings {
-            out.push_str(&format!("warning in {}: {w}\n", t.resource.name));
+        if !t.warnings.is_empty() {
+            let shown: Vec<&str> = t.warnings.iter().take(5).map(String::as_str).collect();
+            let more = if t.warnings.len() > 5 { format!(" (and {} more)", t.warnings.len() - 5) } else { String::new() };
+            out.push_str(&format!("\nwarnings in {}: {}{more}\n", t.resource.name, shown.join("; ")));
         }
     }
     out

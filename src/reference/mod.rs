@@ -16,6 +16,15 @@ pub use table::{Factor, RefTable};
 
 pub const CATALOG_FILE: &str = "datapackage.json";
 
+/// Adds the alias files a catalog declares (its `aliases` property) to the resolver.
+pub fn add_catalog_aliases(catalog: &Catalog, source: &dyn FileSource, resolver: &mut Resolver) -> Result<()> {
+    for path in &catalog.aliases {
+        let bytes = source.read(path)?;
+        resolver.add_alias_text(&String::from_utf8_lossy(&bytes), &source.label(path))?;
+    }
+    Ok(())
+}
+
 /// The loaded reference tables of one catalog.
 #[derive(Debug, Clone)]
 pub struct References {
@@ -67,10 +76,12 @@ impl References {
     }
 }
 
-/// Loads the catalog and every table it lists; the first broken table stops the load.
-pub fn load(source: &dyn FileSource, resolver: &Resolver) -> Result<References> {
+/// Loads the catalog, adds the alias files it declares to `resolver` (so inputs can use the
+/// same user-defined entities), and loads every table; the first broken table stops the load.
+pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<References> {
     let catalog_file = source.label(CATALOG_FILE);
     let catalog = catalog::parse_catalog(&source.read(CATALOG_FILE)?, &catalog_file)?;
+    add_catalog_aliases(&catalog, source, resolver)?;
     let mut tables = Vec::with_capacity(catalog.resources.len());
     for resource in &catalog.resources {
         let file = source.label(&resource.path);

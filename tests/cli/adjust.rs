@@ -1,0 +1,147 @@
+//! `levelfield adjust` end to end on tables with real country names.
+
+use crate::{competition_ranks, num, setup};
+
+#[test]
+fn wide_table_of_country_names_resolves_adjusts_ranks_and_keeps_every_row() {
+    let env = setup();
+    let run = env.run(&[
+        "adjust",
+        &env.data("wide-country-fees.csv"),
+        "--refs",
+        &env.data("country-refs"),
+        "--steps",
+        "ppp",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    // 8 input lines × 2 year columns: rows in = rows out.
+    assert_eq!(rows.len(), 16);
+    assert!(run.stderr.contains("16 row(s) in, 16 row(s) out"), "{}", run.stderr);
+    let codes: Vec<&str> = rows.iter().step_by(2).map(|r| r["entity_code"].as_str()).collect();
+    // Publishers' spellings (World Bank and everyday forms) resolve to ISO 3166-1 alpha-3.
+    assert_eq!(codes, vec!["KOR", "TUR", "CZE", "CIV", "VNM", "FRA", "USA", "WLD"]);
+    assert_eq!(rows[0]["row_id"], "1:2020");
+    assert_eq!(rows[1]["row_id"], "1:2023");
+
+    // value_intl = value / ppp (the definition of the conversion; OECD PPP FAQ).
+    let korea_2020 = &rows[0];
+    assert!((num(korea_2020, "value_intl") - 1_200_000.0 / 848.0).abs() < 1e-9);
+    assert!((num(korea_2020, "value_baseline") - 1_200_000.0 / 1180.0).abs() < 1e-9);
+    assert!((num(korea_2020, "price_level_index") - 848.0 / 1180.0 * 100.0).abs() < 1e-9);
+
+    // Côte d'Ivoire 2023 is "..": kept, flagged, not ranked.
+    let civ_2023 = &rows[7];
+    assert_eq!(civ_2023["value_input"], "..");
+    assert!(civ_2023["flags"].contains("missing_value") && civ_2023["flags"].contains("not_ranked"));
+    // Viet Nam has no PPP for 2023 in the reference table: strict lookup flags it.
+    let vnm_2023 = &rows[9];
+    assert_eq!(vnm_2023["value_adjusted"], "");
+    assert!(vnm_2023["flags"].contains("no_ppp"), "{:?}", vnm_2023);
+    // The world aggregate is kept and adjusted where it can be, but never ranked.
+    for world in &rows[14..16] {
+        assert_eq!(world["entity_kind"], "aggregate");
+        assert!(world["flags"].contains("aggregate"));
+        assert_eq!(world["rank_adjusted"], "");
+    }
+
+    // Ranks are standard competition ranks of the ranked values, per year.
+    for year in ["2020", "2023"] {
+        let ranked: Vec<_> = rows.iter().filter(|r| r["year"] == year && !r["rank_adjusted"].is_empty()).collect();
+        for column in ["value_adjusted", "value_baseline"] {
+            let values: Vec<f64> = ranked.iter().map(|r| num(r, column)).collect();
+            let expected = competition_ranks(&values);
+            let rank_column = column.replace("value_", "rank_");
+            let actual: Vec<i64> = ranked.iter().map(|r| r[&rank_column].parse().unwrap()).collect();
+            assert_eq!(actual, expected, "{column} {year}");
+        }
+        for r in &ranked {
+            let shift: i64 = r["rank_shift"].parse().unwrap();
+            let before: i64 = r["rank_baseline"].parse().unwrap();
+            let after: i64 = r["rank_adjusted"].parse().unwrap();
+            assert_eq!(shift, before - after);
+        }
+    }
+}
+
+#[test]
+fn nearest_year_uses_a_neighbouring_factor_and_says_so() {
+    let env = setup();
+    let args = ["adjust", &env.data("wide-country-fees.csv"), "--refs", &env.data("country-refs"), "--steps", "ppp", "--nearest-year", "1", "--format", "csv"];
+    let run = env.run(&args);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let vnm_2023 = &run.rows()[9];
+    assert_eq!(vnm_2023["ppp_year"], "2022");
+    assert!(vnm_2023["flags"].contains("ppp_year_differs:2022"), "{:?}", vnm_2023);
+    assert!((num(vnm_2023, "value_intl") - 23_000_000.0 / 7500.0).abs() < 1e-9);
+}
+
+#[test]
+fn per_capita_divides_by_population_times_multiplier_and_scales() {
+    // value / (population × multiplier) × per (common practice for rates per N people).
+    let env = setup();
+    let input = env.write("budget.csv", "country,year,value\nFrance,2020,676\nCzechia,2020,107\n");
+    let run = env.run(&[
+        "adjust", &input, "--refs", &env.data("country-refs"), "--steps", "per-capita", "--per", "1000", "--value-multiplier", "1000000", "--format", "csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    assert!((num(&rows[0], "value_per_capita") - 676e6 / 67.6e6 * 1000.0).abs() < 1e-9);
+    assert!((num(&rows[1], "value_per_capita") - 107e6 / 10.7e6 * 1000.0).abs() < 1e-9);
+    assert!(run.stderr.contains("multiplied by 1000000"));
+}
+
+#[test]
+fn currency_that_is_neither_local_nor_base_is_flagged_not_converted() {
+    let env = setup();
+    let input = env.write("mixed.csv", "country,year,value,cur\nFrance,2020,10,EUR\nCzechia,2020,10,EUR\nCzechia,2020,230,CZK\nUnited States,2020,10,USD\n");
+    let run = env.run(&["adjust", &input, "--refs", &env.data("country-refs"), "--steps", "ppp", "--currency", "cur", "--format", "csv"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    assert_eq!(rows.len(), 4);
+    assert!(rows[1]["flags"].contains("currency_mismatch"));
+    assert_eq!(rows[1]["value_adjusted"], "");
+    assert!(!rows[2]["flags"].contains("currency_mismatch"));
+    assert!((num(&rows[2], "value_intl") - 230.0 / 12.6).abs() < 1e-9);
+}
+
+#[test]
+fn stdin_input_json_output_and_atomic_file_output() {
+    let env = setup();
+    let text = "country,year,value\nFrance,2020,1\nChile,2020,2\n";
+    let run = env.run_with_stdin(&["adjust", "-", "--format", "json"], Some(text));
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).expect("valid json");
+    assert_eq!(json["rows"].as_array().unwrap().len(), 2);
+    assert_eq!(json["rows"][1]["entity_code"], "CHL");
+    assert_eq!(json["rows"][1]["rank_adjusted"], 1);
+    assert_eq!(json["metadata"]["summary"]["rows_in"], 2);
+
+    let input = env.write("in.csv", text);
+    let run = env.run(&["adjust", &input, "-o", "out.csv"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let written = std::fs::read_to_string(env.path("out.csv")).unwrap();
+    assert!(written.starts_with("row_id,entity_input,entity_code"));
+    assert_eq!(written.lines().count(), 3);
+
+    // The output may not replace the input; the input stays as it was.
+    let run = env.run(&["adjust", &input, "-o", &input]);
+    assert_eq!(run.code, 2);
+    assert!(run.stderr.contains("would overwrite an input file"), "{}", run.stderr);
+    assert_eq!(std::fs::read_to_string(&input).unwrap(), text);
+}
+
+#[test]
+fn user_aliases_add_entities_and_names() {
+    let env = setup();
+    let aliases = env.write("aliases.csv", "name,code\nNorth Province,XNP\nRepublique francaise,FRA\n");
+    let input = env.write("in.csv", "place,year,value\nNorth Province,2021,5\nRepublique francaise,2021,7\n");
+    let run = env.run(&["adjust", &input, "--entity", "place", "--aliases", &aliases, "--format", "csv"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    assert_eq!(rows[0]["entity_code"], "XNP");
+    assert_eq!(rows[0]["entity_kind"], "user");
+    assert_eq!(rows[1]["entity_code"], "FRA");
+}

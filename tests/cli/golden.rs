@@ -1,0 +1,35 @@
+//! Golden files: the demo's table and the help texts. The demo also checks that it labels its
+//! data as invented and tells how to reproduce the run.
+
+use crate::{assert_golden, setup};
+
+#[test]
+fn demo_prints_the_comparison_table() {
+    let env = setup();
+    let run = env.run(&["demo"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert!(run.stdout.starts_with("INVENTED DATA"));
+    assert!(run.stderr.contains("reproduce with: levelfield demo --extract"));
+    assert_golden("demo-table.txt", &run.stdout);
+}
+
+#[test]
+fn demo_extract_reproduces_the_same_result_with_adjust() {
+    let env = setup();
+    let run = env.run(&["demo", "--extract", "files"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let demo = env.run(&["demo", "--format", "csv"]);
+    let mut argv = vec!["adjust"];
+    argv.extend_from_slice(levelfield::demo::DEMO_ARGS);
+    argv.extend(["--format", "csv"]);
+    let adjust = env.run_in("files", &argv);
+    assert_eq!(adjust.code, 0, "{}", adjust.stderr);
+    assert_eq!(adjust.stdout, demo.stdout);
+}
+
+#[test]
+fn help_texts() {
+    let env = setup();
+    assert_golden("help.txt", &env.run(&["--help"]).stdout);
+    assert_golden("adjust-help.txt", &env.run(&["adjust", "--help"]).stdout);
+}
