@@ -42,8 +42,14 @@ pub fn lookup_frame(
     keys.sort();
     let n = keys.len();
     let mut columns: Vec<Column> = vec![
-        Column::new("entity_code".into(), keys.iter().map(|(c, _)| c.as_str()).collect::<Vec<_>>()),
-        Column::new("year".into(), keys.iter().map(|(_, y)| *y).collect::<Vec<i32>>()),
+        Column::new(
+            "entity_code".into(),
+            keys.iter().map(|(c, _)| c.as_str()).collect::<Vec<_>>(),
+        ),
+        Column::new(
+            "year".into(),
+            keys.iter().map(|(_, y)| *y).collect::<Vec<i32>>(),
+        ),
     ];
     let mut flags: Vec<Vec<String>> = vec![Vec::new(); n];
     for need in needs {
@@ -90,7 +96,13 @@ pub fn lookup_frame(
     }
     let joined: Vec<Option<String>> = flags
         .into_iter()
-        .map(|f| if f.is_empty() { None } else { Some(f.join(";")) })
+        .map(|f| {
+            if f.is_empty() {
+                None
+            } else {
+                Some(f.join(";"))
+            }
+        })
         .collect();
     columns.push(Column::new("_factor_flags".into(), joined));
     DataFrame::new(n, columns).map_err(Error::engine("building the factor lookup"))

@@ -25,7 +25,7 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Adjust a table: convert, deflate, divide by population, rank, flag.
-    Adjust(AdjustArgs),
+    Adjust(Box<AdjustArgs>),
     /// List the reference tables of a catalog folder: coverage, gaps and validation errors.
     Refs(RefsArgs),
     /// Run the bundled, invented scenario end to end and print the comparison.
@@ -44,7 +44,12 @@ pub struct AdjustArgs {
     pub refs: Option<PathBuf>,
 
     /// Steps in order, comma-separated: market, ppp, deflate, per-capita, per-income (see below).
-    #[arg(long, value_delimiter = ',', value_name = "LIST", help_heading = "Method")]
+    #[arg(
+        long,
+        value_delimiter = ',',
+        value_name = "LIST",
+        help_heading = "Method"
+    )]
     pub steps: Vec<String>,
 
     /// The year whose prices `deflate` brings every figure to.
@@ -102,7 +107,12 @@ pub struct ColumnArgs {
     pub value: Option<String>,
 
     /// Column of years in a long table.
-    #[arg(long, value_name = "COL", help_heading = "Input columns", conflicts_with = "year_value")]
+    #[arg(
+        long,
+        value_name = "COL",
+        help_heading = "Input columns",
+        conflicts_with = "year_value"
+    )]
     pub year: Option<String>,
 
     /// One year for the whole table.
@@ -114,7 +124,12 @@ pub struct ColumnArgs {
     pub group: Option<String>,
 
     /// Column of ISO 4217 codes, one per row.
-    #[arg(long, value_name = "COL", help_heading = "Input columns", conflicts_with = "currency_code")]
+    #[arg(
+        long,
+        value_name = "COL",
+        help_heading = "Input columns",
+        conflicts_with = "currency_code"
+    )]
     pub currency: Option<String>,
 
     /// ISO 4217 code of every figure (for example USD). Default: each entity's own currency.
@@ -157,11 +172,21 @@ pub struct OutputArgs {
     pub format: Option<Format>,
 
     /// Write to FILE (atomically) instead of standard output.
-    #[arg(short = 'o', long = "output", value_name = "FILE", help_heading = "Output")]
+    #[arg(
+        short = 'o',
+        long = "output",
+        value_name = "FILE",
+        help_heading = "Output"
+    )]
     pub output: Option<PathBuf>,
 
     /// Round numbers to N decimals (half to even) in every format.
-    #[arg(long, value_name = "N", help_heading = "Output", conflicts_with = "sig")]
+    #[arg(
+        long,
+        value_name = "N",
+        help_heading = "Output",
+        conflicts_with = "sig"
+    )]
     pub decimals: Option<u32>,
 
     /// Round numbers to N significant digits (half to even) in every format.
@@ -200,7 +225,9 @@ fn parse_per(text: &str) -> Result<u32, String> {
         "1000" => Ok(1000),
         "100000" => Ok(100_000),
         "1000000" => Ok(1_000_000),
-        other => Err(format!("\"{other}\" is not a per-capita scale: use 1, 1000, 100000 or 1000000")),
+        other => Err(format!(
+            "\"{other}\" is not a per-capita scale: use 1, 1000, 100000 or 1000000"
+        )),
     }
 }
 

@@ -30,12 +30,21 @@ pub const DEMO_INPUT: &str = include_str!("../demo/transit-pass-fees.csv");
 pub static DEMO_REFERENCES: Embedded = Embedded {
     prefix: "reference-tables",
     files: &[
-        ("datapackage.json", include_str!("../reference-tables/datapackage.json")),
-        ("aliases.csv", include_str!("../reference-tables/aliases.csv")),
+        (
+            "datapackage.json",
+            include_str!("../reference-tables/datapackage.json"),
+        ),
+        (
+            "aliases.csv",
+            include_str!("../reference-tables/aliases.csv"),
+        ),
         ("fx.csv", include_str!("../reference-tables/fx.csv")),
         ("ppp.csv", include_str!("../reference-tables/ppp.csv")),
         ("cpi.csv", include_str!("../reference-tables/cpi.csv")),
-        ("population.csv", include_str!("../reference-tables/population.csv")),
+        (
+            "population.csv",
+            include_str!("../reference-tables/population.csv"),
+        ),
     ],
 };
 
@@ -46,9 +55,13 @@ Yearly fee for a standard adult public-transport pass in each capital, 2019 and 
 pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
     let mut argv = vec!["levelfield", "adjust"];
     argv.extend_from_slice(DEMO_ARGS);
-    let cli = Cli::try_parse_from(argv).map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
+    let cli = Cli::try_parse_from(argv)
+        .map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
     let Command::Adjust(adjust) = cli.command else {
-        return Err(Error::usage("demo arguments are not an adjust command", "report this as a bug"));
+        return Err(Error::usage(
+            "demo arguments are not an adjust command",
+            "report this as a bug",
+        ));
     };
     let steps = plan::parse_steps(&adjust.steps)?;
     plan::check_step_options(&steps, adjust.base_year)?;
@@ -79,7 +92,11 @@ pub fn run(args: &DemoArgs) -> Result<Outcome> {
     if let Some(dir) = &args.extract {
         extract(dir)?;
         eprintln!("wrote the demo files into {}", dir.display());
-        eprintln!("reproduce with: cd {} && levelfield adjust {}", dir.display(), DEMO_ARGS.join(" "));
+        eprintln!(
+            "reproduce with: cd {} && levelfield adjust {}",
+            dir.display(),
+            DEMO_ARGS.join(" ")
+        );
         return Ok(Outcome::Ok);
     }
     let plan = demo_plan(args)?;
@@ -99,7 +116,8 @@ pub fn extract(dir: &std::path::Path) -> Result<()> {
     let write = |relative: &str, text: &str| -> Result<()> {
         let path = dir.join(relative);
         if let Some(parent) = path.parent() {
-            std::fs::create_dir_all(parent).map_err(|e| Error::io(parent.display(), "create the folder", e))?;
+            std::fs::create_dir_all(parent)
+                .map_err(|e| Error::io(parent.display(), "create the folder", e))?;
         }
         crate::report::write_atomically(&path, text)
     };

@@ -15,15 +15,27 @@ pub struct Location {
 
 impl Location {
     pub fn file(file: impl Into<String>) -> Self {
-        Location { file: file.into(), line: None, column: None }
+        Location {
+            file: file.into(),
+            line: None,
+            column: None,
+        }
     }
 
     pub fn line(file: impl Into<String>, line: usize) -> Self {
-        Location { file: file.into(), line: Some(line), column: None }
+        Location {
+            file: file.into(),
+            line: Some(line),
+            column: None,
+        }
     }
 
     pub fn cell(file: impl Into<String>, line: usize, column: impl Into<String>) -> Self {
-        Location { file: file.into(), line: Some(line), column: Some(column.into()) }
+        Location {
+            file: file.into(),
+            line: Some(line),
+            column: Some(column.into()),
+        }
     }
 }
 
@@ -52,7 +64,12 @@ pub struct UnresolvedName {
 pub enum Error {
     /// A cell, row or file whose content is not what it must be.
     #[error("{location}: {found}\n  expected: {expected}\n  what to do: {fix}")]
-    BadInput { location: Location, found: String, expected: String, fix: String },
+    BadInput {
+        location: Box<Location>,
+        found: String,
+        expected: String,
+        fix: String,
+    },
 
     /// Arguments that cannot work together, checked before any file is read.
     #[error("{problem}\n  what to do: {fix}")]
@@ -60,15 +77,25 @@ pub enum Error {
 
     /// The operating system refused a read or a write.
     #[error("{path}: cannot {action}: {source}\n  what to do: check that the path exists and is readable (or writable)")]
-    Io { path: String, action: &'static str, source: std::io::Error },
+    Io {
+        path: String,
+        action: &'static str,
+        source: std::io::Error,
+    },
 
     /// Entity names that match no ISO 3166-1 entry, no alias and no aggregate.
     #[error("{}", format_unresolved(file, names))]
-    Unresolved { file: String, names: Vec<UnresolvedName> },
+    Unresolved {
+        file: String,
+        names: Vec<UnresolvedName>,
+    },
 
     /// The table engine failed; `stage` says which part of the pipeline was running.
     #[error("table engine error while {stage}: {source}")]
-    Engine { stage: &'static str, source: polars::error::PolarsError },
+    Engine {
+        stage: &'static str,
+        source: Box<polars::error::PolarsError>,
+    },
 }
 
 pub type Result<T, E = Error> = std::result::Result<T, E>;
@@ -81,7 +108,7 @@ impl Error {
         fix: impl Into<String>,
     ) -> Self {
         Error::BadInput {
-            location,
+            location: Box::new(location),
             found: found.into(),
             expected: expected.into(),
             fix: fix.into(),
@@ -89,16 +116,26 @@ impl Error {
     }
 
     pub fn usage(problem: impl Into<String>, fix: impl Into<String>) -> Self {
-        Error::Usage { problem: problem.into(), fix: fix.into() }
+        Error::Usage {
+            problem: problem.into(),
+            fix: fix.into(),
+        }
     }
 
     pub fn io(path: impl fmt::Display, action: &'static str, source: std::io::Error) -> Self {
-        Error::Io { path: path.to_string(), action, source }
+        Error::Io {
+            path: path.to_string(),
+            action,
+            source,
+        }
     }
 
     /// Wraps a polars error with the pipeline stage that was running.
     pub fn engine(stage: &'static str) -> impl FnOnce(polars::error::PolarsError) -> Self {
-        move |source| Error::Engine { stage, source }
+        move |source| Error::Engine {
+            stage,
+            source: Box::new(source),
+        }
     }
 }
 
@@ -110,7 +147,11 @@ fn format_unresolved(file: &str, names: &[UnresolvedName]) -> String {
     for name in names {
         let lines: Vec<String> = name.lines.iter().take(5).map(|l| l.to_string()).collect();
         let more = if name.lines.len() > 5 { ", ..." } else { "" };
-        out.push_str(&format!("\n  \"{}\" (line {}{more})", name.text, lines.join(", ")));
+        out.push_str(&format!(
+            "\n  \"{}\" (line {}{more})",
+            name.text,
+            lines.join(", ")
+        ));
         if name.suggestions.is_empty() {
             out.push_str(": no close match");
         } else {
@@ -147,8 +188,16 @@ mod tests {
         let err = Error::Unresolved {
             file: "in.csv".into(),
             names: vec![
-                UnresolvedName { text: "Frnace".into(), lines: vec![3], suggestions: vec!["France (FRA)".into()] },
-                UnresolvedName { text: "Atlantis".into(), lines: vec![4, 9], suggestions: vec![] },
+                UnresolvedName {
+                    text: "Frnace".into(),
+                    lines: vec![3],
+                    suggestions: vec!["France (FRA)".into()],
+                },
+                UnresolvedName {
+                    text: "Atlantis".into(),
+                    lines: vec![4, 9],
+                    suggestions: vec![],
+                },
             ],
         };
         let text = err.to_string();

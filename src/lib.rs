@@ -57,9 +57,14 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             for path in &args.aliases {
                 resolver.add_alias_file(path)?;
             }
-            let (title, tables) = reference::coverage::survey(&source::DiskDir::new(&args.dir), &resolver)?;
+            let (title, tables) =
+                reference::coverage::survey(&source::DiskDir::new(&args.dir), &resolver)?;
             print!("{}", reference::coverage::render(&title, &tables));
-            Ok(if tables.iter().any(|t| t.error.is_some()) { Outcome::Findings } else { Outcome::Ok })
+            Ok(if tables.iter().any(|t| t.error.is_some()) {
+                Outcome::Findings
+            } else {
+                Outcome::Ok
+            })
         }
         Command::Demo(args) => demo::run(&args),
     }
@@ -74,18 +79,29 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         &plan.resolver,
         plan.references.as_ref(),
     )?;
-    let text = report::render(&output.frame, &output.summary, plan.output.format, plan.output.rounding)?;
+    let text = report::render(
+        &output.frame,
+        &output.summary,
+        plan.output.format,
+        plan.output.rounding,
+    )?;
     match &plan.output.path {
         Some(path) => report::write_atomically(path, &text)?,
         None => {
             let mut stdout = std::io::stdout().lock();
-            stdout.write_all(text.as_bytes()).map_err(|e| error::Error::io("standard output", "write", e))?;
+            stdout
+                .write_all(text.as_bytes())
+                .map_err(|e| error::Error::io("standard output", "write", e))?;
         }
     }
     if !plan.output.quiet {
         eprint!("{}", report::summary::render(&output.summary));
         if let Some(path) = &plan.output.path {
-            eprintln!("  wrote {} ({} rows)", path.display(), output.frame.height());
+            eprintln!(
+                "  wrote {} ({} rows)",
+                path.display(),
+                output.frame.height()
+            );
         }
     }
     Ok(output)

@@ -5,15 +5,17 @@
 //! Everything after the canonical frame is one polars lazy plan, so large inputs are joined,
 //! adjusted and ranked by the engine, not row by row.
 
-use crate::adjust::{self, FactorNeed, Prices, Step, StepContext, StepSettings, Track, TrackState, Unit};
+use crate::adjust::{
+    self, FactorNeed, Prices, Step, StepContext, StepSettings, Track, TrackState, Unit,
+};
 use crate::attach::{self, AttachSettings};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::flags;
 use crate::ingest::{self, IngestOptions};
 use crate::rank::{self, Order};
-use crate::report::summary::describe_track;
 use crate::reference::References;
+use crate::report::summary::describe_track;
 use crate::resolve::{self, InputBasis, ResolveOptions};
 use polars::prelude::*;
 use std::collections::{BTreeMap, BTreeSet, HashSet};
@@ -62,7 +64,9 @@ pub struct RunSummary {
 /// Columns that currency steps make relevant: a figure in a foreign currency cannot be
 /// converted with its country's factors.
 fn needs_currency(steps: &[&'static dyn Step]) -> bool {
-    steps.iter().any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
+    steps
+        .iter()
+        .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
 }
 
 pub fn run_adjust(
@@ -84,7 +88,8 @@ pub fn run_adjust(
         },
     )?;
     let check_currency = needs_currency(&settings.steps);
-    let whole_table_in_base = settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
+    let whole_table_in_base =
+        settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
     let rows_in = ingested.rows.len();
 
     // The canonical frame.
@@ -95,16 +100,28 @@ pub fn run_adjust(
     let mut keys: HashSet<(String, i32)> = HashSet::new();
     let mut any_base = false;
     for (i, row) in ingested.rows.iter_mut().enumerate() {
-        let basis = if whole_table_in_base || !check_currency { InputBasis::Local } else { bases[i] };
+        let basis = if whole_table_in_base || !check_currency {
+            InputBasis::Local
+        } else {
+            bases[i]
+        };
         if basis == InputBasis::Mismatch {
             row.flags.push(flags::CURRENCY_MISMATCH.into());
         }
         any_base |= basis == InputBasis::Base;
         basis_text.push(basis.as_str());
-        flags_pre.push(if row.flags.is_empty() { None } else { Some(row.flags.join(";")) });
+        flags_pre.push(if row.flags.is_empty() {
+            None
+        } else {
+            Some(row.flags.join(";"))
+        });
         let kind = entities.kind[i];
         eligible.push(kind.is_some() && (kind != Some("aggregate") || settings.rank_aggregates));
-        currency.push(row.currency.clone().or_else(|| entities.currency[i].clone()));
+        currency.push(
+            row.currency
+                .clone()
+                .or_else(|| entities.currency[i].clone()),
+        );
         if let (Some(code), Some(year)) = (&entities.code[i], row.year) {
             keys.insert((code.clone(), year));
         }
@@ -114,15 +131,37 @@ pub fn run_adjust(
         rows_in,
         vec![
             Column::new("_ord".into(), (0..rows_in as u64).collect::<Vec<u64>>()),
-            Column::new("row_id".into(), rows.iter().map(|r| r.row_id.as_str()).collect::<Vec<_>>()),
-            Column::new("entity_input".into(), rows.iter().map(|r| r.entity_input.as_str()).collect::<Vec<_>>()),
+            Column::new(
+                "row_id".into(),
+                rows.iter().map(|r| r.row_id.as_str()).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "entity_input".into(),
+                rows.iter()
+                    .map(|r| r.entity_input.as_str())
+                    .collect::<Vec<_>>(),
+            ),
             Column::new("entity_code".into(), entities.code.clone()),
             Column::new("entity_name".into(), entities.name.clone()),
             Column::new("entity_kind".into(), entities.kind.clone()),
-            Column::new("year".into(), rows.iter().map(|r| r.year).collect::<Vec<_>>()),
-            Column::new("group".into(), rows.iter().map(|r| r.group.clone()).collect::<Vec<_>>()),
-            Column::new("value_input".into(), rows.iter().map(|r| r.value_input.as_str()).collect::<Vec<_>>()),
-            Column::new("value".into(), rows.iter().map(|r| r.value).collect::<Vec<_>>()),
+            Column::new(
+                "year".into(),
+                rows.iter().map(|r| r.year).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "group".into(),
+                rows.iter().map(|r| r.group.clone()).collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "value_input".into(),
+                rows.iter()
+                    .map(|r| r.value_input.as_str())
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "value".into(),
+                rows.iter().map(|r| r.value).collect::<Vec<_>>(),
+            ),
             Column::new("currency".into(), currency),
             Column::new("_basis".into(), basis_text),
             Column::new("_flags_pre".into(), flags_pre),
@@ -133,34 +172,74 @@ pub fn run_adjust(
 
     // Both tracks, built as expressions; the factors they name are collected in `needs`.
     let mut needs: BTreeSet<FactorNeed> = BTreeSet::new();
-    let start_unit = if whole_table_in_base { Unit::Base } else { Unit::Local };
-    let start_state = TrackState { unit: start_unit, prices: Prices::RowYear, per: None };
+    let start_unit = if whole_table_in_base {
+        Unit::Base
+    } else {
+        Unit::Local
+    };
+    let start_state = TrackState {
+        unit: start_unit,
+        prices: Prices::RowYear,
+        per: None,
+    };
     let mut batches: Vec<Vec<Expr>> = Vec::new();
     let mut stage_columns: Vec<String> = Vec::new();
     let mut extra_columns: Vec<String> = Vec::new();
     let mut start = col("value");
     {
-        let mut ctx = StepContext { settings: &settings.step_settings, track: Track::Adjusted, needs: &mut needs, deflator_used: None };
+        let mut ctx = StepContext {
+            settings: &settings.step_settings,
+            track: Track::Adjusted,
+            needs: &mut needs,
+            deflator_used: None,
+        };
         if start_unit == Unit::Local && check_currency {
             // A figure in the base currency goes back to local currency at its year's market
             // rate; a figure in a third currency cannot be converted with this entity's factors.
             let local = if any_base {
                 when(col("_basis").eq(lit("base")))
-                    .then(col("value") * ctx.factor(crate::reference::Kind::Fx, adjust::At::RowYear))
+                    .then(
+                        col("value") * ctx.factor(crate::reference::Kind::Fx, adjust::At::RowYear),
+                    )
                     .otherwise(col("value"))
             } else {
                 col("value")
             };
-            let lcu = when(col("_basis").eq(lit("mismatch"))).then(lit(NULL).cast(DataType::Float64)).otherwise(local);
+            let lcu = when(col("_basis").eq(lit("mismatch")))
+                .then(lit(NULL).cast(DataType::Float64))
+                .otherwise(local);
             batches.push(vec![lcu.alias("value_lcu")]);
             stage_columns.push("value_lcu".into());
             start = col("value_lcu");
         }
     }
-    let (adjusted, deflator_used) = build_track(&settings.steps, start.clone(), start_state, settings, &mut needs, Track::Adjusted, &mut batches, &mut stage_columns, &mut extra_columns)?;
+    let (adjusted, deflator_used) = build_track(
+        &settings.steps,
+        start.clone(),
+        start_state,
+        settings,
+        &mut needs,
+        Track::Adjusted,
+        &mut batches,
+        &mut stage_columns,
+        &mut extra_columns,
+    )?;
     let baseline_steps = adjust::baseline_steps(&settings.steps);
-    let (baseline, _) = build_track(&baseline_steps, start, start_state, settings, &mut needs, Track::Baseline, &mut batches, &mut Vec::new(), &mut Vec::new())?;
-    batches.push(vec![adjusted.alias("value_adjusted"), baseline.alias("value_baseline")]);
+    let (baseline, _) = build_track(
+        &baseline_steps,
+        start,
+        start_state,
+        settings,
+        &mut needs,
+        Track::Baseline,
+        &mut batches,
+        &mut Vec::new(),
+        &mut Vec::new(),
+    )?;
+    batches.push(vec![
+        adjusted.alias("value_adjusted"),
+        baseline.alias("value_baseline"),
+    ]);
 
     // Factors, joined once per distinct entity and year.
     let lookup = attach::lookup_frame(
@@ -182,18 +261,37 @@ pub fn run_adjust(
     for batch in batches {
         lf = lf.with_columns(batch);
     }
-    let ranks = rank::rank_columns(settings.order, col("_rank_eligible"), &[col("group"), col("year")])
-        .map_err(Error::engine("ranking"))?;
+    let ranks = rank::rank_columns(
+        settings.order,
+        col("_rank_eligible"),
+        &[col("group"), col("year")],
+    )
+    .map_err(Error::engine("ranking"))?;
     lf = lf.with_columns(ranks).with_column(rank::shift_column());
-    let not_ranked = when(col("rank_adjusted").is_null()).then(lit(flags::NOT_RANKED)).otherwise(lit(NULL).cast(DataType::String));
+    let not_ranked = when(col("rank_adjusted").is_null())
+        .then(lit(flags::NOT_RANKED))
+        .otherwise(lit(NULL).cast(DataType::String));
     lf = lf.with_column(
-        concat_str([col("_flags_pre"), col("_factor_flags"), not_ranked], ";", true)
-            .fill_null(lit(""))
-            .alias("flags"),
+        concat_str(
+            [col("_flags_pre"), col("_factor_flags"), not_ranked],
+            ";",
+            true,
+        )
+        .fill_null(lit(""))
+        .alias("flags"),
     );
 
     let mut order: Vec<String> = [
-        "row_id", "entity_input", "entity_code", "entity_name", "entity_kind", "year", "group", "value_input", "value", "currency",
+        "row_id",
+        "entity_input",
+        "entity_code",
+        "entity_name",
+        "entity_kind",
+        "year",
+        "group",
+        "value_input",
+        "value",
+        "currency",
     ]
     .iter()
     .map(|s| s.to_string())
@@ -205,9 +303,16 @@ pub fn run_adjust(
     }
     order.extend(extra_columns.iter().cloned());
     order.extend(
-        ["value_baseline", "value_adjusted", "rank_baseline", "rank_adjusted", "rank_shift", "flags"]
-            .iter()
-            .map(|s| s.to_string()),
+        [
+            "value_baseline",
+            "value_adjusted",
+            "rank_baseline",
+            "rank_adjusted",
+            "rank_shift",
+            "flags",
+        ]
+        .iter()
+        .map(|s| s.to_string()),
     );
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
     let frame = lf
@@ -221,7 +326,14 @@ pub fn run_adjust(
             ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
         )));
     }
-    let summary = summarize(&frame, &ingested, settings, &baseline_steps, deflator_used, references)?;
+    let summary = summarize(
+        &frame,
+        &ingested,
+        settings,
+        &baseline_steps,
+        deflator_used,
+        references,
+    )?;
     Ok(AdjustOutput { frame, summary })
 }
 
@@ -237,7 +349,12 @@ fn build_track(
     stage_columns: &mut Vec<String>,
     extra_columns: &mut Vec<String>,
 ) -> Result<(Expr, Option<adjust::Deflator>)> {
-    let mut ctx = StepContext { settings: &settings.step_settings, track, needs, deflator_used: None };
+    let mut ctx = StepContext {
+        settings: &settings.step_settings,
+        track,
+        needs,
+        deflator_used: None,
+    };
     let mut state = start_state;
     let mut current = start;
     for step in steps {
@@ -276,7 +393,10 @@ fn summarize(
     deflator_used: Option<adjust::Deflator>,
     references: Option<&References>,
 ) -> Result<RunSummary> {
-    let flag_column = frame.column("flags").and_then(|c| c.str().cloned()).map_err(Error::engine("counting flags"))?;
+    let flag_column = frame
+        .column("flags")
+        .and_then(|c| c.str().cloned())
+        .map_err(Error::engine("counting flags"))?;
     let mut flag_counts: BTreeMap<String, usize> = BTreeMap::new();
     let mut rows_flagged = 0;
     for value in flag_column.iter().flatten() {
@@ -295,7 +415,8 @@ fn summarize(
     let mut method_notes = Vec::new();
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
     let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
-    let starts_in_base = settings.ingest.currency_code.as_deref() == Some(settings.step_settings.base_currency.as_str());
+    let starts_in_base = settings.ingest.currency_code.as_deref()
+        == Some(settings.step_settings.base_currency.as_str());
     let base_year = settings.step_settings.base_year;
     if let Some(deflator) = deflator_used {
         let year = base_year.unwrap_or_default();
@@ -318,14 +439,23 @@ fn summarize(
         });
     }
     if names.contains(&"per-capita") {
-        method_notes.push(format!("per capita: per {} people", settings.step_settings.per));
+        method_notes.push(format!(
+            "per capita: per {} people",
+            settings.step_settings.per
+        ));
     }
     let mut notes = ingested.notes.clone();
-    if settings.ingest.currency_code.is_none() && settings.ingest.roles.currency.is_none() && needs_currency(&settings.steps) {
+    if settings.ingest.currency_code.is_none()
+        && settings.ingest.roles.currency.is_none()
+        && needs_currency(&settings.steps)
+    {
         notes.push("currency: no --currency or --currency-code given, so each figure is taken to be in its entity's own currency (the unit of its reference tables)".into());
     }
     if settings.nearest_year > 0 {
-        notes.push(format!("factors may come from up to {} year(s) away (--nearest-year); such rows are flagged", settings.nearest_year));
+        notes.push(format!(
+            "factors may come from up to {} year(s) away (--nearest-year); such rows are flagged",
+            settings.nearest_year
+        ));
     }
     Ok(RunSummary {
         input: ingested.file.clone(),
@@ -334,7 +464,10 @@ fn summarize(
         rows_flagged,
         flag_counts,
         steps: names.iter().map(|s| s.to_string()).collect(),
-        baseline_steps: baseline_steps.iter().map(|s| s.name().to_string()).collect(),
+        baseline_steps: baseline_steps
+            .iter()
+            .map(|s| s.name().to_string())
+            .collect(),
         notes,
         method_notes,
         references: references.map(|r| r.describe()).unwrap_or_default(),

@@ -61,7 +61,14 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
     };
     let ingest = ingest_options(&args.columns)?;
     let settings = pipeline_settings(args, steps, ingest, references.as_ref());
-    Ok(AdjustPlan { input_bytes, input_label, settings, resolver, references, output })
+    Ok(AdjustPlan {
+        input_bytes,
+        input_label,
+        settings,
+        resolver,
+        references,
+        output,
+    })
 }
 
 /// The pipeline settings, with the base currency and income basis taken from the references.
@@ -75,7 +82,10 @@ pub fn pipeline_settings(
         .and_then(|r| r.get(Kind::Ppp).or(r.get(Kind::Fx)))
         .map(|t| t.resource.base_currency.clone())
         .unwrap_or_else(|| "USD".into());
-    let income_basis = references.and_then(|r| r.get(Kind::Income)).map(|t| t.resource.basis).unwrap_or(Basis::Lcu);
+    let income_basis = references
+        .and_then(|r| r.get(Kind::Income))
+        .map(|t| t.resource.basis)
+        .unwrap_or(Basis::Lcu);
     PipelineSettings {
         ingest,
         steps,
@@ -102,10 +112,16 @@ pub fn parse_steps(names: &[String]) -> Result<Vec<&'static dyn Step>> {
             continue;
         }
         let step = adjust::find_step(name).ok_or_else(|| {
-            Error::usage(format!("unknown step \"{name}\""), format!("use steps from: {}", adjust::step_names()))
+            Error::usage(
+                format!("unknown step \"{name}\""),
+                format!("use steps from: {}", adjust::step_names()),
+            )
         })?;
         if steps.iter().any(|s| s.name() == step.name()) {
-            return Err(Error::usage(format!("step {name} is listed twice"), "list each step once"));
+            return Err(Error::usage(
+                format!("step {name} is listed twice"),
+                "list each step once",
+            ));
         }
         steps.push(step);
     }
@@ -114,7 +130,10 @@ pub fn parse_steps(names: &[String]) -> Result<Vec<&'static dyn Step>> {
 
 pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -> Result<()> {
     if steps.iter().any(|s| s.name() == "deflate") && base_year.is_none() {
-        return Err(Error::usage("step deflate needs a base year", "pass --base-year YYYY (for example --base-year 2023)"));
+        return Err(Error::usage(
+            "step deflate needs a base year",
+            "pass --base-year YYYY (for example --base-year 2023)",
+        ));
     }
     if let Some(i) = steps.iter().position(|s| s.name() == "per-income") {
         if i + 1 != steps.len() {
@@ -132,14 +151,25 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
         None => None,
         Some("tab") | Some("\\t") | Some("\t") => Some(b'\t'),
         Some(d) if d.len() == 1 && d.is_ascii() => Some(d.as_bytes()[0]),
-        Some(d) => return Err(Error::usage(format!("--delimiter \"{d}\" is not one character"), "pass one character such as ; or | or the word tab")),
+        Some(d) => {
+            return Err(Error::usage(
+                format!("--delimiter \"{d}\" is not one character"),
+                "pass one character such as ; or | or the word tab",
+            ))
+        }
     };
     let value_multiplier = match columns.value_multiplier.as_deref() {
         None => None,
         Some(text) => {
-            let m = Decimal::from_str(&text.replace([',', '_'], "")).ok().filter(|m| *m > Decimal::ZERO).ok_or_else(|| {
-                Error::usage(format!("--value-multiplier \"{text}\" is not a positive number"), "pass a number such as 1000 or 1000000")
-            })?;
+            let m = Decimal::from_str(&text.replace([',', '_'], ""))
+                .ok()
+                .filter(|m| *m > Decimal::ZERO)
+                .ok_or_else(|| {
+                    Error::usage(
+                        format!("--value-multiplier \"{text}\" is not a positive number"),
+                        "pass a number such as 1000 or 1000000",
+                    )
+                })?;
             Some(m)
         }
     };
@@ -162,9 +192,14 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
             currency: columns.currency.clone(),
             layout,
         },
-        currency_code: columns.currency_code.as_ref().map(|c| c.trim().to_uppercase()),
+        currency_code: columns
+            .currency_code
+            .as_ref()
+            .map(|c| c.trim().to_uppercase()),
         value_multiplier,
-        number_style: NumberStyle { decimal_comma: columns.decimal_comma },
+        number_style: NumberStyle {
+            decimal_comma: columns.decimal_comma,
+        },
         lenient: columns.lenient,
     })
 }
@@ -178,17 +213,29 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
     };
     let rounding = match (args.decimals, args.sig) {
         (Some(d), _) => Rounding::Decimals(d),
-        (None, Some(0)) => return Err(Error::usage("--sig 0 keeps no digit", "pass --sig 1 or more")),
+        (None, Some(0)) => {
+            return Err(Error::usage(
+                "--sig 0 keeps no digit",
+                "pass --sig 1 or more",
+            ))
+        }
         (None, Some(s)) => Rounding::Significant(s),
         (None, None) => Rounding::Full,
     };
-    Ok(OutputPlan { format, path: args.output.clone(), rounding, quiet: args.quiet })
+    Ok(OutputPlan {
+        format,
+        path: args.output.clone(),
+        rounding,
+        quiet: args.quiet,
+    })
 }
 
 fn read_input(input: &str) -> Result<(Vec<u8>, String)> {
     if input == "-" {
         let mut bytes = Vec::new();
-        std::io::stdin().read_to_end(&mut bytes).map_err(|e| Error::io("standard input", "read", e))?;
+        std::io::stdin()
+            .read_to_end(&mut bytes)
+            .map_err(|e| Error::io("standard input", "read", e))?;
         return Ok((bytes, "<stdin>".into()));
     }
     let path = Path::new(input);
@@ -206,7 +253,12 @@ fn load_refs(dir: &Path, resolver: &mut Resolver) -> Result<References> {
 }
 
 /// The output may not replace the input, a reference table or an alias file.
-fn refuse_overwrite(output: &Path, input: &str, refs: Option<&Path>, aliases: &[PathBuf]) -> Result<()> {
+fn refuse_overwrite(
+    output: &Path,
+    input: &str,
+    refs: Option<&Path>,
+    aliases: &[PathBuf],
+) -> Result<()> {
     let out = match output.canonicalize() {
         Ok(p) => p,
         Err(_) => return Ok(()),
@@ -223,11 +275,13 @@ fn refuse_overwrite(output: &Path, input: &str, refs: Option<&Path>, aliases: &[
     for path in protected {
         if path.canonicalize().ok().as_ref() == Some(&out) {
             return Err(Error::usage(
-                format!("the output {} would overwrite an input file", output.display()),
+                format!(
+                    "the output {} would overwrite an input file",
+                    output.display()
+                ),
                 "write the output to a new file",
             ));
         }
     }
     Ok(())
 }
-

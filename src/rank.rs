@@ -23,12 +23,23 @@ pub fn rank_columns(order: Order, eligible: Expr, partition: &[Expr]) -> PolarsR
     let rankable = eligible
         .and(col("value_adjusted").is_not_null())
         .and(col("value_baseline").is_not_null());
-    let options = RankOptions { method: RankMethod::Min, descending: order == Order::Desc };
-    let rank_of = |column: &str| -> PolarsResult<Expr> {
-        let masked = when(rankable.clone()).then(col(column)).otherwise(lit(NULL).cast(DataType::Float64));
-        Ok(masked.rank(options, None).over(partition)?.cast(DataType::Int64))
+    let options = RankOptions {
+        method: RankMethod::Min,
+        descending: order == Order::Desc,
     };
-    Ok(vec![rank_of("value_baseline")?.alias("rank_baseline"), rank_of("value_adjusted")?.alias("rank_adjusted")])
+    let rank_of = |column: &str| -> PolarsResult<Expr> {
+        let masked = when(rankable.clone())
+            .then(col(column))
+            .otherwise(lit(NULL).cast(DataType::Float64));
+        Ok(masked
+            .rank(options, None)
+            .over(partition)?
+            .cast(DataType::Int64))
+    };
+    Ok(vec![
+        rank_of("value_baseline")?.alias("rank_baseline"),
+        rank_of("value_adjusted")?.alias("rank_adjusted"),
+    ])
 }
 
 /// `rank_shift` = rank_baseline − rank_adjusted: positive means the row moved up.
@@ -40,18 +51,38 @@ pub fn shift_column() -> Expr {
 mod tests {
     use super::*;
 
-    fn ranks(values: &[Option<f64>], eligible: &[bool], groups: &[&str], order: Order) -> (Vec<Option<i64>>, Vec<Option<i64>>) {
+    fn ranks(
+        values: &[Option<f64>],
+        eligible: &[bool],
+        groups: &[&str],
+        order: Order,
+    ) -> (Vec<Option<i64>>, Vec<Option<i64>>) {
         let df = DataFrame::new_infer_height(vec![
             Column::new("value_baseline".into(), values.to_vec()),
-            Column::new("value_adjusted".into(), values.iter().map(|v| v.map(|x| -x)).collect::<Vec<_>>()),
+            Column::new(
+                "value_adjusted".into(),
+                values.iter().map(|v| v.map(|x| -x)).collect::<Vec<_>>(),
+            ),
             Column::new("ok".into(), eligible.to_vec()),
             Column::new("group".into(), groups.to_vec()),
         ])
         .unwrap();
         let mut exprs = rank_columns(order, col("ok"), &[col("group")]).unwrap();
         exprs.push(lit(0));
-        let out = df.lazy().with_columns(&exprs[..2]).with_column(shift_column()).collect().unwrap();
-        let get = |name: &str| out.column(name).unwrap().i64().unwrap().iter().collect::<Vec<_>>();
+        let out = df
+            .lazy()
+            .with_columns(&exprs[..2])
+            .with_column(shift_column())
+            .collect()
+            .unwrap();
+        let get = |name: &str| {
+            out.column(name)
+                .unwrap()
+                .i64()
+                .unwrap()
+                .iter()
+                .collect::<Vec<_>>()
+        };
         let shift = get("rank_shift");
         let baseline = get("rank_baseline");
         let adjusted = get("rank_adjusted");

@@ -4,7 +4,7 @@
 //! Never guesses: a name that matches nothing stops the run with every such name listed (and up
 //! to three suggestions each), unless `--allow-unresolved` keeps those rows flagged.
 
-use crate::entity::{EntityKind, Resolution, Resolver};
+use crate::entity::{Entity, EntityKind, Resolution, Resolver};
 use crate::error::{Error, Result, UnresolvedName};
 use crate::flags;
 use crate::ingest::Ingested;
@@ -48,8 +48,12 @@ pub struct ResolveOptions<'a> {
 }
 
 /// Resolves every row. Adds `unresolved`, `aggregate` and `currency_mismatch` flags to the rows.
-pub fn resolve_rows(ingested: &mut Ingested, resolver: &Resolver, options: &ResolveOptions) -> Result<(EntityColumns, Vec<InputBasis>)> {
-    let mut cache: HashMap<String, Option<(String, String, EntityKind, Option<String>)>> = HashMap::new();
+pub fn resolve_rows(
+    ingested: &mut Ingested,
+    resolver: &Resolver,
+    options: &ResolveOptions,
+) -> Result<(EntityColumns, Vec<InputBasis>)> {
+    let mut cache: HashMap<String, Option<Entity>> = HashMap::new();
     let mut unresolved: Vec<UnresolvedName> = Vec::new();
     let n = ingested.rows.len();
     let mut columns = EntityColumns {
@@ -63,19 +67,32 @@ pub fn resolve_rows(ingested: &mut Ingested, resolver: &Resolver, options: &Reso
         let found = cache
             .entry(row.entity_input.clone())
             .or_insert_with(|| match resolver.resolve(&row.entity_input) {
-                Resolution::Found(e) => Some((e.code.clone(), e.name.clone(), e.kind, e.currency.clone())),
+                Resolution::Found(entity) => Some(entity.clone()),
                 Resolution::Unresolved { suggestions } => {
-                    unresolved.push(UnresolvedName { text: row.entity_input.clone(), lines: Vec::new(), suggestions });
+                    unresolved.push(UnresolvedName {
+                        text: row.entity_input.clone(),
+                        lines: Vec::new(),
+                        suggestions,
+                    });
                     None
                 }
             })
             .clone();
         match found {
-            Some((code, name, kind, currency)) => {
+            Some(Entity {
+                code,
+                name,
+                kind,
+                currency,
+            }) => {
                 if kind == EntityKind::Aggregate && !options.rank_aggregates {
                     row.flags.push(flags::AGGREGATE.into());
                 }
-                let basis = input_basis(row.currency.as_deref(), currency.as_deref(), options.base_currency);
+                let basis = input_basis(
+                    row.currency.as_deref(),
+                    currency.as_deref(),
+                    options.base_currency,
+                );
                 if basis == InputBasis::Mismatch {
                     row.flags.push(flags::CURRENCY_MISMATCH.into());
                 }
@@ -101,13 +118,20 @@ pub fn resolve_rows(ingested: &mut Ingested, resolver: &Resolver, options: &Reso
         }
     }
     if !unresolved.is_empty() && !options.allow_unresolved {
-        return Err(Error::Unresolved { file: ingested.file.clone(), names: unresolved });
+        return Err(Error::Unresolved {
+            file: ingested.file.clone(),
+            names: unresolved,
+        });
     }
     if !unresolved.is_empty() {
         ingested.notes.push(format!(
             "{} entity name(s) unresolved and kept flagged (--allow-unresolved): {}",
             unresolved.len(),
-            unresolved.iter().map(|u| format!("\"{}\"", u.text)).collect::<Vec<_>>().join(", ")
+            unresolved
+                .iter()
+                .map(|u| format!("\"{}\"", u.text))
+                .collect::<Vec<_>>()
+                .join(", ")
         ));
     }
     Ok((columns, bases))
@@ -134,10 +158,22 @@ mod tests {
     #[test]
     fn currency_basis_rules() {
         assert_eq!(input_basis(None, Some("EUR"), "USD"), InputBasis::Local);
-        assert_eq!(input_basis(Some("EUR"), Some("EUR"), "USD"), InputBasis::Local);
-        assert_eq!(input_basis(Some("USD"), Some("EUR"), "USD"), InputBasis::Base);
-        assert_eq!(input_basis(Some("USD"), Some("USD"), "USD"), InputBasis::Local);
-        assert_eq!(input_basis(Some("GBP"), Some("EUR"), "USD"), InputBasis::Mismatch);
+        assert_eq!(
+            input_basis(Some("EUR"), Some("EUR"), "USD"),
+            InputBasis::Local
+        );
+        assert_eq!(
+            input_basis(Some("USD"), Some("EUR"), "USD"),
+            InputBasis::Base
+        );
+        assert_eq!(
+            input_basis(Some("USD"), Some("USD"), "USD"),
+            InputBasis::Local
+        );
+        assert_eq!(
+            input_basis(Some("GBP"), Some("EUR"), "USD"),
+            InputBasis::Mismatch
+        );
         assert_eq!(input_basis(Some("XQA"), None, "USD"), InputBasis::Local);
     }
 }

@@ -31,16 +31,27 @@ impl Step for Deflate {
 
     fn apply(&self, value: Expr, state: &mut TrackState, ctx: &mut StepContext) -> Result<Expr> {
         if ctx.settings.base_year.is_none() {
-            return Err(Error::usage("step deflate needs a base year", "pass --base-year YYYY"));
+            return Err(Error::usage(
+                "step deflate needs a base year",
+                "pass --base-year YYYY",
+            ));
         }
         if state.prices == Prices::BaseYear {
-            return Err(misplaced("deflate", "the value is already in base-year prices", "list deflate once"));
+            return Err(misplaced(
+                "deflate",
+                "the value is already in base-year prices",
+                "list deflate once",
+            ));
         }
         let natural = match state.unit {
             Unit::Local => Deflator::Own,
             Unit::Base | Unit::Intl => Deflator::BaseCurrency,
             Unit::Ratio => {
-                return Err(misplaced("deflate", "the value is a ratio of income, which has no price base", "leave deflate out"))
+                return Err(misplaced(
+                    "deflate",
+                    "the value is a ratio of income, which has no price base",
+                    "leave deflate out",
+                ))
             }
         };
         let chosen = ctx.settings.deflator.unwrap_or(natural);
@@ -60,9 +71,12 @@ impl Step for Deflate {
         }
         ctx.deflator_used = Some(chosen);
         let ratio = match chosen {
-            Deflator::Own => ctx.factor(Kind::Cpi, At::BaseYear) / ctx.factor(Kind::Cpi, At::RowYear),
+            Deflator::Own => {
+                ctx.factor(Kind::Cpi, At::BaseYear) / ctx.factor(Kind::Cpi, At::RowYear)
+            }
             Deflator::BaseCurrency => {
-                ctx.base_currency_factor(Kind::Cpi, At::BaseYear) / ctx.base_currency_factor(Kind::Cpi, At::RowYear)
+                ctx.base_currency_factor(Kind::Cpi, At::BaseYear)
+                    / ctx.base_currency_factor(Kind::Cpi, At::RowYear)
             }
         };
         state.prices = Prices::BaseYear;
@@ -72,7 +86,10 @@ impl Step for Deflate {
     fn extra_columns(&self, state_before: &TrackState, ctx: &mut StepContext) -> Vec<Expr> {
         let ratio = match state_before.unit {
             Unit::Local => ctx.factor(Kind::Cpi, At::BaseYear) / ctx.factor(Kind::Cpi, At::RowYear),
-            _ => ctx.base_currency_factor(Kind::Cpi, At::BaseYear) / ctx.base_currency_factor(Kind::Cpi, At::RowYear),
+            _ => {
+                ctx.base_currency_factor(Kind::Cpi, At::BaseYear)
+                    / ctx.base_currency_factor(Kind::Cpi, At::RowYear)
+            }
         };
         vec![ratio.alias("cpi_ratio")]
     }

@@ -37,7 +37,13 @@ impl Step for Market {
                     "put market before ppp, or leave one of them out",
                 ))
             }
-            Unit::Ratio => return Err(misplaced("market", "the value is a ratio of income", "put per-income last")),
+            Unit::Ratio => {
+                return Err(misplaced(
+                    "market",
+                    "the value is a ratio of income",
+                    "put per-income last",
+                ))
+            }
         };
         state.unit = Unit::Base;
         Ok(out)

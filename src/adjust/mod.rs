@@ -80,7 +80,11 @@ pub struct FactorNeed {
 
 impl FactorNeed {
     pub fn entity(kind: Kind, at: At) -> Self {
-        FactorNeed { kind, at, whose: Whose::Entity }
+        FactorNeed {
+            kind,
+            at,
+            whose: Whose::Entity,
+        }
     }
 
     /// Column prefix: `fx`, `fx_base`, `base_cpi`, `base_cpi_base`.
@@ -170,7 +174,11 @@ impl StepContext<'_> {
     }
 
     pub fn base_currency_factor(&mut self, kind: Kind, at: At) -> Expr {
-        let need = FactorNeed { kind, at, whose: Whose::BaseCurrency };
+        let need = FactorNeed {
+            kind,
+            at,
+            whose: Whose::BaseCurrency,
+        };
         self.needs.insert(need);
         need.col()
     }
@@ -203,7 +211,13 @@ pub trait Step: Sync {
 }
 
 /// Every step, in the order the methods note lists them.
-pub static STEPS: &[&dyn Step] = &[&market::Market, &ppp::Ppp, &deflate::Deflate, &per_capita::PerCapita, &per_income::PerIncome];
+pub static STEPS: &[&dyn Step] = &[
+    &market::Market,
+    &ppp::Ppp,
+    &deflate::Deflate,
+    &per_capita::PerCapita,
+    &per_income::PerIncome,
+];
 
 pub fn find_step(name: &str) -> Option<&'static dyn Step> {
     STEPS.iter().copied().find(|s| s.name() == name)
@@ -211,14 +225,25 @@ pub fn find_step(name: &str) -> Option<&'static dyn Step> {
 
 /// The names of all steps, for messages.
 pub fn step_names() -> String {
-    STEPS.iter().map(|s| s.name()).collect::<Vec<_>>().join(", ")
+    STEPS
+        .iter()
+        .map(|s| s.name())
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// The `--steps` help text, generated from the registry.
 pub fn steps_help() -> String {
-    let mut text = String::from("Adjustment steps, applied in the order given (comma-separated):\n");
+    let mut text =
+        String::from("Adjustment steps, applied in the order given (comma-separated):\n");
     for step in STEPS {
-        text.push_str(&format!("  {:<11} {}\n  {:<11} = {}\n", step.name(), step.summary(), "", step.formula()));
+        text.push_str(&format!(
+            "  {:<11} {}\n  {:<11} = {}\n",
+            step.name(),
+            step.summary(),
+            "",
+            step.formula()
+        ));
     }
     text
 }
@@ -257,17 +282,27 @@ mod tests {
         columns.dedup();
         assert_eq!(columns.len(), STEPS.len(), "stage columns must be unique");
         for step in STEPS {
-            assert!(!step.summary().is_empty() && !step.formula().is_empty(), "{}", step.name());
+            assert!(
+                !step.summary().is_empty() && !step.formula().is_empty(),
+                "{}",
+                step.name()
+            );
             assert!(step.column().starts_with("value_"), "{}", step.name());
         }
     }
 
     #[test]
     fn baseline_replaces_ppp_by_market() {
-        let steps: Vec<&'static dyn Step> = ["deflate", "ppp", "per-capita"].iter().map(|n| find_step(n).unwrap()).collect();
+        let steps: Vec<&'static dyn Step> = ["deflate", "ppp", "per-capita"]
+            .iter()
+            .map(|n| find_step(n).unwrap())
+            .collect();
         let names: Vec<&str> = baseline_steps(&steps).iter().map(|s| s.name()).collect();
         assert_eq!(names, vec!["deflate", "market", "per-capita"]);
-        let steps: Vec<&'static dyn Step> = ["market", "ppp"].iter().map(|n| find_step(n).unwrap()).collect();
+        let steps: Vec<&'static dyn Step> = ["market", "ppp"]
+            .iter()
+            .map(|n| find_step(n).unwrap())
+            .collect();
         let names: Vec<&str> = baseline_steps(&steps).iter().map(|s| s.name()).collect();
         assert_eq!(names, vec!["market"]);
     }
@@ -280,7 +315,11 @@ mod tests {
         let need = FactorNeed::entity(Kind::Fx, At::RowYear);
         assert_eq!(need.missing_flag(), "no_fx");
         assert_eq!(need.year_differs_flag(2019), "fx_year_differs:2019");
-        let need = FactorNeed { kind: Kind::Cpi, at: At::RowYear, whose: Whose::BaseCurrency };
+        let need = FactorNeed {
+            kind: Kind::Cpi,
+            at: At::RowYear,
+            whose: Whose::BaseCurrency,
+        };
         assert_eq!(need.used_column(), "base_cpi_used");
     }
 }

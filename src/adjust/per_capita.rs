@@ -27,10 +27,18 @@ impl Step for PerCapita {
 
     fn apply(&self, value: Expr, state: &mut TrackState, ctx: &mut StepContext) -> Result<Expr> {
         if state.unit == Unit::Ratio {
-            return Err(misplaced("per-capita", "the value is already a ratio of income per capita", "put per-capita before per-income"));
+            return Err(misplaced(
+                "per-capita",
+                "the value is already a ratio of income per capita",
+                "put per-capita before per-income",
+            ));
         }
         if state.per.is_some() {
-            return Err(misplaced("per-capita", "the value is already per capita", "list per-capita once"));
+            return Err(misplaced(
+                "per-capita",
+                "the value is already per capita",
+                "list per-capita once",
+            ));
         }
         let per = ctx.settings.per;
         state.per = Some(per);

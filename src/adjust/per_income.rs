@@ -47,7 +47,13 @@ impl Step for PerIncome {
             Unit::Local => value,
             Unit::Base => value * ctx.factor(Kind::Fx, At::RowYear),
             Unit::Intl => value * ctx.factor(Kind::Ppp, At::RowYear),
-            Unit::Ratio => return Err(misplaced("per-income", "the value is already a ratio of income", "list per-income once")),
+            Unit::Ratio => {
+                return Err(misplaced(
+                    "per-income",
+                    "the value is already a ratio of income",
+                    "list per-income once",
+                ))
+            }
         };
         let income = ctx.factor(Kind::Income, At::RowYear);
         let income_local = match ctx.settings.income_basis {

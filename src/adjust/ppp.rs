@@ -33,8 +33,20 @@ impl Step for Ppp {
         let out = match state.unit {
             Unit::Local => value / ctx.factor(Kind::Ppp, at),
             Unit::Base => value * ctx.factor(Kind::Fx, at) / ctx.factor(Kind::Ppp, at),
-            Unit::Intl => return Err(misplaced("ppp", "the value is already in international dollars", "list ppp once")),
-            Unit::Ratio => return Err(misplaced("ppp", "the value is a ratio of income", "put per-income last")),
+            Unit::Intl => {
+                return Err(misplaced(
+                    "ppp",
+                    "the value is already in international dollars",
+                    "list ppp once",
+                ))
+            }
+            Unit::Ratio => {
+                return Err(misplaced(
+                    "ppp",
+                    "the value is a ratio of income",
+                    "put per-income last",
+                ))
+            }
         };
         state.unit = Unit::Intl;
         Ok(out)

@@ -39,7 +39,6 @@
 
 // Every fallible function here returns the crate's shared error type, whose size is set by
 // error.rs for the whole crate; boxing it in this module alone would buy nothing.
-#![allow(clippy::result_large_err)]
 
 pub mod aliases;
 mod normalize;

@@ -61,7 +61,10 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
         if had_errors {
             return Err(Error::bad_input(
                 Location::file(file),
-                format!("a {} byte-order mark followed by invalid bytes", encoding.name()),
+                format!(
+                    "a {} byte-order mark followed by invalid bytes",
+                    encoding.name()
+                ),
                 format!("text in {}", encoding.name()),
                 "re-save the file as UTF-8",
             ));
@@ -72,13 +75,17 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
         });
     }
     match std::str::from_utf8(bytes) {
-        Ok(text) => Ok(Decoded { text: text.to_string(), description: "UTF-8".into() }),
+        Ok(text) => Ok(Decoded {
+            text: text.to_string(),
+            description: "UTF-8".into(),
+        }),
         Err(_) => {
             let (text, _, _) = WINDOWS_1252.decode(bytes);
             Ok(Decoded {
                 text: text.into_owned(),
-                description: "windows-1252 (the file is not valid UTF-8; pass --encoding to choose another)"
-                    .into(),
+                description:
+                    "windows-1252 (the file is not valid UTF-8; pass --encoding to choose another)"
+                        .into(),
             })
         }
     }

@@ -31,7 +31,11 @@ pub struct Roles {
 #[derive(Debug, Clone)]
 pub enum Shape {
     /// One row per figure: a value column and a year column (or one year for the table).
-    Long { value: usize, value_detected: bool, year: YearSource },
+    Long {
+        value: usize,
+        value_detected: bool,
+        year: YearSource,
+    },
     /// One column per year: (column index, year).
     Wide { year_columns: Vec<(usize, i32)> },
 }
@@ -54,9 +58,21 @@ pub struct RoleFlags {
     pub layout: LayoutChoice,
 }
 
-const ENTITY_WORDS: &[&str] = &["country", "economy", "entity", "iso", "nation", "ref_area", "geo", "location"];
+const ENTITY_WORDS: &[&str] = &[
+    "country", "economy", "entity", "iso", "nation", "ref_area", "geo", "location",
+];
 const CODE_WORDS: &[&str] = &["code", "iso", "alpha"];
-const VALUE_NAMES: &[&str] = &["value", "obs_value", "amount", "figure", "fee", "price", "wage", "count", "total"];
+const VALUE_NAMES: &[&str] = &[
+    "value",
+    "obs_value",
+    "amount",
+    "figure",
+    "fee",
+    "price",
+    "wage",
+    "count",
+    "total",
+];
 const YEAR_NAMES: &[&str] = &["year", "time", "time_period", "period"];
 
 /// Reads a header as a year column: `2019`, ` 2019 `, `2019 [YR2019]`.
@@ -96,15 +112,25 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
             true
         }
         LayoutChoice::Long => false,
-        LayoutChoice::Auto => !year_columns.is_empty() && flags.year.is_none() && flags.value.is_none(),
+        LayoutChoice::Auto => {
+            !year_columns.is_empty() && flags.year.is_none() && flags.value.is_none()
+        }
     };
 
     let mut taken: Vec<usize> = Vec::new();
     if wide {
         taken.extend(year_columns.iter().map(|(i, _)| *i));
     }
-    let group = flags.group.as_deref().map(|g| find("--group", g)).transpose()?;
-    let currency = flags.currency.as_deref().map(|c| find("--currency", c)).transpose()?;
+    let group = flags
+        .group
+        .as_deref()
+        .map(|g| find("--group", g))
+        .transpose()?;
+    let currency = flags
+        .currency
+        .as_deref()
+        .map(|c| find("--currency", c))
+        .transpose()?;
     taken.extend(group);
     taken.extend(currency);
 
@@ -117,21 +143,26 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
     let shape = if wide {
         Shape::Wide { year_columns }
     } else {
-        let year = match (&flags.year, flags.year_value) {
-            (Some(name), _) => YearSource::Column { index: find("--year", name)?, detected: false },
-            (None, Some(year)) => YearSource::Fixed(year),
-            (None, None) => match position_named(headers, YEAR_NAMES, &taken) {
-                Some(index) => YearSource::Column { index, detected: true },
-                None => {
-                    return Err(Error::bad_input(
+        let year =
+            match (&flags.year, flags.year_value) {
+                (Some(name), _) => YearSource::Column {
+                    index: find("--year", name)?,
+                    detected: false,
+                },
+                (None, Some(year)) => YearSource::Fixed(year),
+                (None, None) => match position_named(headers, YEAR_NAMES, &taken) {
+                    Some(index) => YearSource::Column {
+                        index,
+                        detected: true,
+                    },
+                    None => return Err(Error::bad_input(
                         Location::line(file, 1),
                         format!("no year column among {}", list(headers)),
                         "a column named year (or one column per year, such as 2019, 2020)",
                         "pass --year COL, or --year-value YYYY when the whole table is one year",
-                    ))
-                }
-            },
-        };
+                    )),
+                },
+            };
         if let YearSource::Column { index, .. } = year {
             taken.push(index);
         }
@@ -140,7 +171,11 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
             None => (detect_value(headers, &taken, file)?, true),
         };
         taken.push(value);
-        Shape::Long { value, value_detected, year }
+        Shape::Long {
+            value,
+            value_detected,
+            year,
+        }
     };
     let ignored = headers
         .iter()
@@ -148,7 +183,14 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
         .filter(|(i, _)| !taken.contains(i))
         .map(|(_, h)| h.clone())
         .collect();
-    Ok(Roles { entity, entity_detected, group, currency, shape, ignored })
+    Ok(Roles {
+        entity,
+        entity_detected,
+        group,
+        currency,
+        shape,
+        ignored,
+    })
 }
 
 fn find_column(headers: &[String], name: &str, flag: &str, file: &str) -> Result<usize> {
@@ -156,7 +198,10 @@ fn find_column(headers: &[String], name: &str, flag: &str, file: &str) -> Result
         return Ok(i);
     }
     let wanted = name.trim().to_lowercase();
-    if let Some(i) = headers.iter().position(|h| h.trim().to_lowercase() == wanted) {
+    if let Some(i) = headers
+        .iter()
+        .position(|h| h.trim().to_lowercase() == wanted)
+    {
         return Ok(i);
     }
     Err(Error::bad_input(
@@ -185,7 +230,10 @@ fn detect_entity(headers: &[String], taken: &[usize], file: &str) -> Result<usiz
     coded.or(candidates.first().copied()).ok_or_else(|| {
         Error::bad_input(
             Location::line(file, 1),
-            format!("no column header names a country, economy, entity or ISO code among {}", list(headers)),
+            format!(
+                "no column header names a country, economy, entity or ISO code among {}",
+                list(headers)
+            ),
             "a column of country names or ISO 3166 codes",
             "pass --entity COL",
         )
@@ -264,32 +312,69 @@ mod tests {
 
     #[test]
     fn wide_table_is_detected_and_code_column_preferred() {
-        let r = roles("Country Name,Country Code,2019,2020\nFrance,FRA,1,2\n", RoleFlags::default()).unwrap();
+        let r = roles(
+            "Country Name,Country Code,2019,2020\nFrance,FRA,1,2\n",
+            RoleFlags::default(),
+        )
+        .unwrap();
         assert_eq!(r.entity, 1);
         assert!(r.entity_detected);
-        assert!(matches!(r.shape, Shape::Wide { ref year_columns } if year_columns == &vec![(2, 2019), (3, 2020)]));
+        assert!(
+            matches!(r.shape, Shape::Wide { ref year_columns } if year_columns == &vec![(2, 2019), (3, 2020)])
+        );
         assert_eq!(r.ignored, vec!["Country Name".to_string()]);
     }
 
     #[test]
     fn long_table_roles_by_name_and_by_flag() {
         let r = roles("country,year,value\nFrance,2020,1\n", RoleFlags::default()).unwrap();
-        assert!(matches!(r.shape, Shape::Long { value: 2, year: YearSource::Column { index: 1, .. }, .. }));
-        let flags = RoleFlags { entity: Some("place".into()), value: Some("fee".into()), year_value: Some(2021), ..Default::default() };
+        assert!(matches!(
+            r.shape,
+            Shape::Long {
+                value: 2,
+                year: YearSource::Column { index: 1, .. },
+                ..
+            }
+        ));
+        let flags = RoleFlags {
+            entity: Some("place".into()),
+            value: Some("fee".into()),
+            year_value: Some(2021),
+            ..Default::default()
+        };
         let r = roles("place,fee,note\nFrance,1,x\n", flags).unwrap();
-        assert!(matches!(r.shape, Shape::Long { value: 1, year: YearSource::Fixed(2021), .. }));
+        assert!(matches!(
+            r.shape,
+            Shape::Long {
+                value: 1,
+                year: YearSource::Fixed(2021),
+                ..
+            }
+        ));
         assert_eq!(r.ignored, vec!["note".to_string()]);
     }
 
     #[test]
     fn missing_roles_are_errors_that_say_which_flag_to_pass() {
-        let err = roles("name,a,b\nx,1,2\n", RoleFlags::default()).unwrap_err().to_string();
+        let err = roles("name,a,b\nx,1,2\n", RoleFlags::default())
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("--entity"), "{err}");
-        let err = roles("country,a,b\nx,1,2\n", RoleFlags::default()).unwrap_err().to_string();
+        let err = roles("country,a,b\nx,1,2\n", RoleFlags::default())
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("--year"), "{err}");
-        let flags = RoleFlags { entity: Some("nope".into()), ..Default::default() };
-        let err = roles("country,year,value\nx,1,2\n", flags).unwrap_err().to_string();
-        assert!(err.contains("\"nope\"") && err.contains("\"country\""), "{err}");
+        let flags = RoleFlags {
+            entity: Some("nope".into()),
+            ..Default::default()
+        };
+        let err = roles("country,year,value\nx,1,2\n", flags)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("\"nope\"") && err.contains("\"country\""),
+            "{err}"
+        );
     }
 
     #[test]

@@ -72,7 +72,11 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     let entity_column = table.headers[roles.entity].clone();
     notes.push(format!(
         "entity column: \"{entity_column}\"{}",
-        if roles.entity_detected { " (detected from its header; --entity to choose another)" } else { "" }
+        if roles.entity_detected {
+            " (detected from its header; --entity to choose another)"
+        } else {
+            ""
+        }
     ));
     match &roles.shape {
         Shape::Wide { year_columns } => notes.push(format!(
@@ -81,7 +85,11 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             year_columns.iter().map(|(_, y)| *y).min().unwrap_or(0),
             year_columns.iter().map(|(_, y)| *y).max().unwrap_or(0)
         )),
-        Shape::Long { value, value_detected, year } => {
+        Shape::Long {
+            value,
+            value_detected,
+            year,
+        } => {
             let year_text = match year {
                 YearSource::Column { index, detected } => format!(
                     "year column \"{}\"{}",
@@ -101,28 +109,42 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         notes.push(format!("columns not used: {}", roles.ignored.join(", ")));
     }
     if let Some(m) = options.value_multiplier {
-        notes.push(format!("every value multiplied by {m} (--value-multiplier) before any step"));
+        notes.push(format!(
+            "every value multiplied by {m} (--value-multiplier) before any step"
+        ));
     }
 
     let currency_code = match &options.currency_code {
         Some(code) => Some(checked_currency(code, None, file)?),
         None => None,
     };
-    let reader = RowReader { file, options, currency_code: currency_code.as_deref() };
+    let reader = RowReader {
+        file,
+        options,
+        currency_code: currency_code.as_deref(),
+    };
     let mut rows = Vec::new();
     for (index, record) in table.records.iter().enumerate() {
         let data_row = index + 1;
         let entity_input = record.cells[roles.entity].clone();
-        let group = roles.group.map(|g| record.cells[g].trim().to_string()).filter(|g| !g.is_empty());
-        let currency_cell = roles.currency.map(|c| (table.headers[c].as_str(), record.cells[c].as_str()));
+        let group = roles
+            .group
+            .map(|g| record.cells[g].trim().to_string())
+            .filter(|g| !g.is_empty());
+        let currency_cell = roles
+            .currency
+            .map(|c| (table.headers[c].as_str(), record.cells[c].as_str()));
         match &roles.shape {
             Shape::Long { value, year, .. } => {
                 let mut row_flags = Vec::new();
                 let year = match year {
                     YearSource::Fixed(y) => Some(*y),
-                    YearSource::Column { index, .. } => {
-                        reader.year(&record.cells[*index], record.line, &table.headers[*index], &mut row_flags)?
-                    }
+                    YearSource::Column { index, .. } => reader.year(
+                        &record.cells[*index],
+                        record.line,
+                        &table.headers[*index],
+                        &mut row_flags,
+                    )?,
                 };
                 rows.push(reader.row(
                     data_row.to_string(),
@@ -153,7 +175,13 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             }
         }
     }
-    Ok(Ingested { rows, file: file.to_string(), notes, entity_column, has_group: roles.group.is_some() })
+    Ok(Ingested {
+        rows,
+        file: file.to_string(),
+        notes,
+        entity_column,
+        has_group: roles.group.is_some(),
+    })
 }
 
 struct RowReader<'a> {
@@ -238,7 +266,13 @@ impl RowReader<'_> {
         })
     }
 
-    fn year(&self, cell: &str, line: usize, column: &str, row_flags: &mut Vec<String>) -> Result<Option<i32>> {
+    fn year(
+        &self,
+        cell: &str,
+        line: usize,
+        column: &str,
+        row_flags: &mut Vec<String>,
+    ) -> Result<Option<i32>> {
         match layout::parse_year_cell(cell) {
             Ok(Some(year)) => Ok(Some(year)),
             Ok(None) => {
@@ -286,7 +320,11 @@ mod tests {
 
     #[test]
     fn wide_table_melts_into_one_row_per_figure_with_ids() {
-        let out = run("country,2019,2020\nFrance,\"1,200\",..\nChile,3*,4\n", IngestOptions::default()).unwrap();
+        let out = run(
+            "country,2019,2020\nFrance,\"1,200\",..\nChile,3*,4\n",
+            IngestOptions::default(),
+        )
+        .unwrap();
         let ids: Vec<&str> = out.rows.iter().map(|r| r.row_id.as_str()).collect();
         assert_eq!(ids, vec!["1:2019", "1:2020", "2:2019", "2:2020"]);
         assert_eq!(out.rows[0].value, Some(1200.0));
@@ -298,9 +336,17 @@ mod tests {
 
     #[test]
     fn bad_cell_is_an_error_unless_lenient() {
-        let err = run("country,year,value\nFrance,2020,abc\n", IngestOptions::default()).unwrap_err().to_string();
+        let err = run(
+            "country,year,value\nFrance,2020,abc\n",
+            IngestOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
         assert!(err.contains("t.csv, line 2, column \"value\""), "{err}");
-        let lenient = IngestOptions { lenient: true, ..Default::default() };
+        let lenient = IngestOptions {
+            lenient: true,
+            ..Default::default()
+        };
         let out = run("country,year,value\nFrance,2020,abc\n", lenient).unwrap();
         assert_eq!(out.rows.len(), 1);
         assert_eq!(out.rows[0].flags, vec!["unparsed".to_string()]);
@@ -308,19 +354,34 @@ mod tests {
 
     #[test]
     fn multiplier_is_exact() {
-        let options = IngestOptions { value_multiplier: Some(Decimal::from(1_000_000)), ..Default::default() };
+        let options = IngestOptions {
+            value_multiplier: Some(Decimal::from(1_000_000)),
+            ..Default::default()
+        };
         let out = run("country,year,value\nFrance,2020,0.1\n", options).unwrap();
         assert_eq!(out.rows[0].value, Some(100_000.0));
     }
 
     #[test]
     fn currency_codes_are_checked() {
-        let flags = RoleFlags { currency: Some("cur".into()), ..Default::default() };
-        let options = IngestOptions { roles: flags, ..Default::default() };
-        let out = run("country,year,value,cur\nFrance,2020,1,eur\nChile,2020,1,\n", options.clone()).unwrap();
+        let flags = RoleFlags {
+            currency: Some("cur".into()),
+            ..Default::default()
+        };
+        let options = IngestOptions {
+            roles: flags,
+            ..Default::default()
+        };
+        let out = run(
+            "country,year,value,cur\nFrance,2020,1,eur\nChile,2020,1,\n",
+            options.clone(),
+        )
+        .unwrap();
         assert_eq!(out.rows[0].currency.as_deref(), Some("EUR"));
         assert_eq!(out.rows[1].currency, None);
-        let err = run("country,year,value,cur\nFrance,2020,1,EUX\n", options).unwrap_err().to_string();
+        let err = run("country,year,value,cur\nFrance,2020,1,EUX\n", options)
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("ISO 4217"), "{err}");
     }
 }

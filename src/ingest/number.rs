@@ -54,7 +54,9 @@ const CURRENCY_SIGNS: &[&str] = &[
 const STATUS_LETTERS: &str = "bcdefnprsuz";
 
 /// Footnote symbols removed from the end of a cell.
-const FOOTNOTE_SYMBOLS: &[char] = &['*', '†', '‡', '§', '#', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹', '⁰'];
+const FOOTNOTE_SYMBOLS: &[char] = &[
+    '*', '†', '‡', '§', '#', '¹', '²', '³', '⁴', '⁵', '⁶', '⁷', '⁸', '⁹', '⁰',
+];
 
 /// Reads one cell.
 pub fn parse_cell(text: &str, style: NumberStyle) -> Result<Cell, NumberError> {
@@ -90,11 +92,16 @@ pub fn to_f64(value: Decimal) -> f64 {
 }
 
 fn error(reason: impl Into<String>, hint: impl Into<String>) -> NumberError {
-    NumberError { reason: reason.into(), hint: hint.into() }
+    NumberError {
+        reason: reason.into(),
+        hint: hint.into(),
+    }
 }
 
 fn trim_spaces(text: &str) -> &str {
-    text.trim_matches(|c: char| c.is_whitespace() || c == '\u{a0}' || c == '\u{202f}' || c == '\u{2009}')
+    text.trim_matches(|c: char| {
+        c.is_whitespace() || c == '\u{a0}' || c == '\u{202f}' || c == '\u{2009}'
+    })
 }
 
 fn is_missing_mark(text: &str) -> bool {
@@ -190,7 +197,10 @@ fn parse_amount(body: &str, style: NumberStyle) -> Result<Decimal, NumberError> 
     }
 
     if s.is_empty() {
-        return Err(error("has a sign but no digits", "a number such as 1,234.5"));
+        return Err(error(
+            "has a sign but no digits",
+            "a number such as 1,234.5",
+        ));
     }
     let lower = s.to_lowercase();
     if lower == "nan" || lower.starts_with("inf") {
@@ -210,11 +220,18 @@ fn parse_amount(body: &str, style: NumberStyle) -> Result<Decimal, NumberError> 
         })?
     } else {
         Decimal::from_str(&plain).map_err(|_| {
-            error("is not a number", "a number such as 1,234.5 (or 1.234,5 with --decimal-comma)")
+            error(
+                "is not a number",
+                "a number such as 1,234.5 (or 1.234,5 with --decimal-comma)",
+            )
         })?
     };
     let value = if negative { -value } else { value };
-    Ok(if value.is_zero() { Decimal::ZERO } else { value.normalize() })
+    Ok(if value.is_zero() {
+        Decimal::ZERO
+    } else {
+        value.normalize()
+    })
 }
 
 /// Removes one currency sign or ISO 4217-looking code before or after the amount; two signs are
@@ -261,7 +278,11 @@ fn strip_currency(s: &str) -> Result<String, NumberError> {
 /// threes (1,234,567) or the Indian lakh pattern (12,34,567). Spaces, narrow spaces and
 /// apostrophes (Swiss style) also separate thousands.
 fn remove_grouping(s: &str, style: NumberStyle) -> Result<String, NumberError> {
-    let (group_sep, decimal_sep) = if style.decimal_comma { ('.', ',') } else { (',', '.') };
+    let (group_sep, decimal_sep) = if style.decimal_comma {
+        ('.', ',')
+    } else {
+        (',', '.')
+    };
     let mut cleaned = String::with_capacity(s.len());
     for c in s.chars() {
         match c {
@@ -293,7 +314,10 @@ fn remove_grouping(s: &str, style: NumberStyle) -> Result<String, NumberError> {
         plain.push_str(fraction);
     }
     plain.push_str(exponent);
-    if !plain.chars().all(|c| c.is_ascii_digit() || matches!(c, '.' | 'e' | 'E' | '-' | '+')) {
+    if !plain
+        .chars()
+        .all(|c| c.is_ascii_digit() || matches!(c, '.' | 'e' | 'E' | '-' | '+'))
+    {
         return Err(error(
             "is not a number",
             "a number such as 1,234.5; remove words and units from the cell, or pass --lenient to keep the row flagged `unparsed`",
@@ -303,7 +327,9 @@ fn remove_grouping(s: &str, style: NumberStyle) -> Result<String, NumberError> {
 }
 
 fn valid_grouping(groups: &[&str]) -> bool {
-    let all_digits = groups.iter().all(|g| !g.is_empty() && g.bytes().all(|b| b.is_ascii_digit()));
+    let all_digits = groups
+        .iter()
+        .all(|g| !g.is_empty() && g.bytes().all(|b| b.is_ascii_digit()));
     if !all_digits || groups.len() < 2 || groups[0].len() > 3 {
         return false;
     }
@@ -342,7 +368,12 @@ mod tests {
     }
 
     fn comma(text: &str) -> Decimal {
-        match parse_cell(text, NumberStyle { decimal_comma: true }) {
+        match parse_cell(
+            text,
+            NumberStyle {
+                decimal_comma: true,
+            },
+        ) {
             Ok(Cell::Number { value, .. }) => value,
             other => panic!("{text:?} gave {other:?}"),
         }
@@ -395,14 +426,19 @@ mod tests {
 
     #[test]
     fn footnote_marks_are_removed_and_reported() {
-        for text in ["1,234.5*", "12.3e", "12.3 p", "12.3 (e)", "7†", "7[1]", "7²", "12.3bp"] {
+        for text in [
+            "1,234.5*", "12.3e", "12.3 p", "12.3 (e)", "7†", "7[1]", "7²", "12.3bp",
+        ] {
             match parse_cell(text, NumberStyle::default()) {
                 Ok(Cell::Number { footnote: true, .. }) => {}
                 other => panic!("{text:?} gave {other:?}"),
             }
         }
         assert_eq!(num("1,234.5*"), dec("1234.5"));
-        assert!(parse_cell("12k", NumberStyle::default()).is_err(), "k may be a magnitude");
+        assert!(
+            parse_cell("12k", NumberStyle::default()).is_err(),
+            "k may be a magnitude"
+        );
     }
 
     #[test]
@@ -415,7 +451,11 @@ mod tests {
     #[test]
     fn missing_marks_are_missing_not_errors() {
         for text in ["", "  ", "-", "–", "—", "..", "n/a", "NA", "N/A", "…"] {
-            assert_eq!(parse_cell(text, NumberStyle::default()), Ok(Cell::Missing), "{text:?}");
+            assert_eq!(
+                parse_cell(text, NumberStyle::default()),
+                Ok(Cell::Missing),
+                "{text:?}"
+            );
         }
     }
 

@@ -25,7 +25,11 @@ const CANDIDATES: &[u8] = b",\t;|";
 /// Picks the delimiter that splits the first lines into the same number of fields, preferring
 /// the one that splits the header most. Quoted text is skipped.
 pub fn sniff_delimiter(text: &str) -> u8 {
-    let lines: Vec<&str> = text.lines().filter(|l| !l.trim().is_empty()).take(20).collect();
+    let lines: Vec<&str> = text
+        .lines()
+        .filter(|l| !l.trim().is_empty())
+        .take(20)
+        .collect();
     let Some(header) = lines.first() else {
         return b',';
     };
@@ -35,7 +39,10 @@ pub fn sniff_delimiter(text: &str) -> u8 {
         if in_header == 0 {
             continue;
         }
-        let agreeing = lines.iter().filter(|l| count_outside_quotes(l, candidate) == in_header).count();
+        let agreeing = lines
+            .iter()
+            .filter(|l| count_outside_quotes(l, candidate) == in_header)
+            .count();
         if (agreeing, in_header) > (best.1, best.2) {
             best = (candidate, agreeing, in_header);
         }
@@ -103,20 +110,35 @@ pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
                 "fix the line (a stray delimiter or a missing quote is the usual cause), or pass --delimiter if the wrong one was detected",
             ));
         }
-        records.push(TextRecord { line, cells: record.iter().map(str::to_string).collect() });
+        records.push(TextRecord {
+            line,
+            cells: record.iter().map(str::to_string).collect(),
+        });
     }
-    Ok(TextTable { headers, records, delimiter })
+    Ok(TextTable {
+        headers,
+        records,
+        delimiter,
+    })
 }
 
 fn clean_headers(record: &csv::StringRecord, file: &str) -> Result<Vec<String>> {
     let mut headers: Vec<String> = Vec::with_capacity(record.len());
     for (i, raw) in record.iter().enumerate() {
         let name = raw.trim().trim_start_matches('\u{feff}').to_string();
-        let name = if name.is_empty() { format!("column_{}", i + 1) } else { name };
+        let name = if name.is_empty() {
+            format!("column_{}", i + 1)
+        } else {
+            name
+        };
         if let Some(first) = headers.iter().position(|h| h == &name) {
             return Err(Error::bad_input(
                 Location::line(file, 1),
-                format!("the header names column {} and column {} both \"{name}\"", first + 1, i + 1),
+                format!(
+                    "the header names column {} and column {} both \"{name}\"",
+                    first + 1,
+                    i + 1
+                ),
                 "a header with a different name for every column",
                 "rename one of the columns",
             ));
@@ -161,9 +183,13 @@ mod tests {
 
     #[test]
     fn ragged_and_duplicate_headers_are_errors_with_lines() {
-        let err = read_table("a,b\n1,2\n3\n", b',', "t.csv").unwrap_err().to_string();
+        let err = read_table("a,b\n1,2\n3\n", b',', "t.csv")
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("t.csv, line 3"), "{err}");
-        let err = read_table("a,a\n1,2\n", b',', "t.csv").unwrap_err().to_string();
+        let err = read_table("a,a\n1,2\n", b',', "t.csv")
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("both \"a\""), "{err}");
         let err = read_table("", b',', "t.csv").unwrap_err().to_string();
         assert!(err.contains("empty"), "{err}");

@@ -19,7 +19,13 @@ pub enum Kind {
 }
 
 impl Kind {
-    pub const ALL: [Kind; 5] = [Kind::Fx, Kind::Ppp, Kind::Cpi, Kind::Population, Kind::Income];
+    pub const ALL: [Kind; 5] = [
+        Kind::Fx,
+        Kind::Ppp,
+        Kind::Cpi,
+        Kind::Population,
+        Kind::Income,
+    ];
 
     pub fn as_str(self) -> &'static str {
         match self {
@@ -33,7 +39,9 @@ impl Kind {
 
     pub fn describe(self) -> &'static str {
         match self {
-            Kind::Fx => "market exchange rate, local currency units per base-currency unit (annual average)",
+            Kind::Fx => {
+                "market exchange rate, local currency units per base-currency unit (annual average)"
+            }
             Kind::Ppp => "purchasing-power parity, local currency units per international dollar",
             Kind::Cpi => "consumer price index (any base; only ratios are used)",
             Kind::Population => "population (persons, times the table's multiplier)",
@@ -147,8 +155,20 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
                 fix.to_string(),
             )
         };
-        let name = r.name.clone().ok_or_else(|| fail("a resource without a name".into(), "a \"name\"", "name every resource"))?;
-        let path = r.path.clone().ok_or_else(|| fail("a resource without a path".into(), "a \"path\" to a CSV file", "add the path"))?;
+        let name = r.name.clone().ok_or_else(|| {
+            fail(
+                "a resource without a name".into(),
+                "a \"name\"",
+                "name every resource",
+            )
+        })?;
+        let path = r.path.clone().ok_or_else(|| {
+            fail(
+                "a resource without a path".into(),
+                "a \"path\" to a CSV file",
+                "add the path",
+            )
+        })?;
         let kind_text = r.kind.clone().unwrap_or_default();
         let kind = Kind::parse(&kind_text).ok_or_else(|| {
             fail(
@@ -159,21 +179,41 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
         })?;
         let multiplier = r.multiplier.unwrap_or(1.0);
         if !(multiplier.is_finite() && multiplier > 0.0) {
-            return Err(fail(format!("multiplier {multiplier}"), "a positive multiplier such as 1000", "fix \"multiplier\""));
+            return Err(fail(
+                format!("multiplier {multiplier}"),
+                "a positive multiplier such as 1000",
+                "fix \"multiplier\"",
+            ));
         }
         let layout = match r.layout.as_deref() {
             None => LayoutChoice::Auto,
             Some("long") => LayoutChoice::Long,
             Some("wide") => LayoutChoice::Wide,
-            Some(other) => return Err(fail(format!("layout \"{other}\""), "long or wide", "fix \"layout\" or leave it out")),
+            Some(other) => {
+                return Err(fail(
+                    format!("layout \"{other}\""),
+                    "long or wide",
+                    "fix \"layout\" or leave it out",
+                ))
+            }
         };
         let basis = match r.basis.as_deref() {
             None | Some("lcu") => Basis::Lcu,
             Some("usd") | Some("base") => Basis::Base,
             Some("intl") | Some("ppp") => Basis::Intl,
-            Some(other) => return Err(fail(format!("basis \"{other}\""), "lcu, usd or intl", "fix \"basis\"")),
+            Some(other) => {
+                return Err(fail(
+                    format!("basis \"{other}\""),
+                    "lcu, usd or intl",
+                    "fix \"basis\"",
+                ))
+            }
         };
-        let base_currency = r.base_currency.clone().unwrap_or_else(|| "USD".into()).to_uppercase();
+        let base_currency = r
+            .base_currency
+            .clone()
+            .unwrap_or_else(|| "USD".into())
+            .to_uppercase();
         let vintage = r.vintage.as_ref().map(|v| match v {
             serde_json::Value::String(s) => s.clone(),
             other => other.to_string(),
@@ -198,13 +238,23 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
         if let Some(b) = resources[..i].iter().find(|b| b.kind == a.kind) {
             return Err(Error::bad_input(
                 Location::file(file),
-                format!("two resources of kind {}: \"{}\" and \"{}\"", a.kind.as_str(), b.name, a.name),
+                format!(
+                    "two resources of kind {}: \"{}\" and \"{}\"",
+                    a.kind.as_str(),
+                    b.name,
+                    a.name
+                ),
                 "at most one table of each kind in a catalog",
                 "keep one of them in this catalog (put the other in a folder of its own)",
             ));
         }
     }
-    Ok(Catalog { name: raw.name, title: raw.title, aliases: raw.aliases, resources })
+    Ok(Catalog {
+        name: raw.name,
+        title: raw.title,
+        aliases: raw.aliases,
+        resources,
+    })
 }
 
 #[cfg(test)]
@@ -225,9 +275,16 @@ mod tests {
     #[test]
     fn unknown_kind_and_bad_json_are_errors_that_say_where() {
         let json = r#"{"resources":[{"name":"x","path":"x.csv","kind":"gdp"}]}"#;
-        let err = parse_catalog(json.as_bytes(), "dp.json").unwrap_err().to_string();
-        assert!(err.contains("dp.json (resource x)") && err.contains("unknown kind \"gdp\""), "{err}");
-        let err = parse_catalog(b"{\"resources\": [\n,]}", "dp.json").unwrap_err().to_string();
+        let err = parse_catalog(json.as_bytes(), "dp.json")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("dp.json (resource x)") && err.contains("unknown kind \"gdp\""),
+            "{err}"
+        );
+        let err = parse_catalog(b"{\"resources\": [\n,]}", "dp.json")
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("dp.json, line 2"), "{err}");
     }
 

@@ -21,7 +21,10 @@ pub struct TableCoverage {
     pub error: Option<String>,
 }
 
-pub fn survey(source: &dyn FileSource, resolver: &Resolver) -> Result<(String, Vec<TableCoverage>)> {
+pub fn survey(
+    source: &dyn FileSource,
+    resolver: &Resolver,
+) -> Result<(String, Vec<TableCoverage>)> {
     let catalog_file = source.label(CATALOG_FILE);
     let catalog = catalog::parse_catalog(&source.read(CATALOG_FILE)?, &catalog_file)?;
     let mut resolver = resolver.clone();
@@ -67,7 +70,9 @@ fn coverage_of(t: &RefTable) -> TableCoverage {
     let warnings = t
         .unresolved
         .iter()
-        .map(|(name, line)| format!("\"{name}\" (line {line}) matches no country or aggregate; skipped"))
+        .map(|(name, line)| {
+            format!("\"{name}\" (line {line}) matches no country or aggregate; skipped")
+        })
         .collect();
     TableCoverage {
         resource: t.resource.clone(),
@@ -83,19 +88,38 @@ fn coverage_of(t: &RefTable) -> TableCoverage {
 /// The listing as text for a terminal.
 pub fn render(title: &str, tables: &[TableCoverage]) -> String {
     let mut builder = tabled::builder::Builder::default();
-    builder.push_record(["kind", "name", "unit", "vintage", "source", "entities", "years", "gaps", "status"]);
+    builder.push_record([
+        "kind", "name", "unit", "vintage", "source", "entities", "years", "gaps", "status",
+    ]);
     for t in tables {
         let r = &t.resource;
         builder.push_record([
             r.kind.as_str().to_string(),
             r.name.clone(),
-            if r.multiplier != 1.0 { format!("{} (x{})", r.unit, r.multiplier) } else { r.unit.clone() },
+            if r.multiplier != 1.0 {
+                format!("{} (x{})", r.unit, r.multiplier)
+            } else {
+                r.unit.clone()
+            },
             r.vintage.clone().unwrap_or_else(|| "-".into()),
-            r.sources.first().map(|s| s.title.clone()).unwrap_or_else(|| "-".into()),
+            r.sources
+                .first()
+                .map(|s| s.title.clone())
+                .unwrap_or_else(|| "-".into()),
             t.entities.to_string(),
-            t.years.map(|(a, b)| format!("{a}-{b}")).unwrap_or_else(|| "-".into()),
-            t.gaps.iter().map(|(_, m)| m.len()).sum::<usize>().to_string(),
-            if t.error.is_some() { "ERROR".into() } else { "ok".into() },
+            t.years
+                .map(|(a, b)| format!("{a}-{b}"))
+                .unwrap_or_else(|| "-".into()),
+            t.gaps
+                .iter()
+                .map(|(_, m)| m.len())
+                .sum::<usize>()
+                .to_string(),
+            if t.error.is_some() {
+                "ERROR".into()
+            } else {
+                "ok".into()
+            },
         ]);
     }
     let mut table = builder.build();
@@ -103,7 +127,10 @@ pub fn render(title: &str, tables: &[TableCoverage]) -> String {
     let mut out = format!("Reference catalog: {title}\n{table}\n");
     for t in tables {
         if let Some(error) = &t.error {
-            out.push_str(&format!("\nERROR in {} ({}):\n{error}\n", t.resource.name, t.file));
+            out.push_str(&format!(
+                "\nERROR in {} ({}):\n{error}\n",
+                t.resource.name, t.file
+            ));
         }
         if !t.gaps.is_empty() {
             let listed: Vec<String> = t
@@ -112,13 +139,29 @@ pub fn render(title: &str, tables: &[TableCoverage]) -> String {
                 .take(10)
                 .map(|(code, years)| format!("{code} {}", compact_years(years)))
                 .collect();
-            let more = if t.gaps.len() > 10 { format!("; and {} more entities", t.gaps.len() - 10) } else { String::new() };
-            out.push_str(&format!("\ngaps in {}: {}{more}\n", t.resource.name, listed.join("; ")));
+            let more = if t.gaps.len() > 10 {
+                format!("; and {} more entities", t.gaps.len() - 10)
+            } else {
+                String::new()
+            };
+            out.push_str(&format!(
+                "\ngaps in {}: {}{more}\n",
+                t.resource.name,
+                listed.join("; ")
+            ));
         }
         if !t.warnings.is_empty() {
             let shown: Vec<&str> = t.warnings.iter().take(5).map(String::as_str).collect();
-            let more = if t.warnings.len() > 5 { format!(" (and {} more)", t.warnings.len() - 5) } else { String::new() };
-            out.push_str(&format!("\nwarnings in {}: {}{more}\n", t.resource.name, shown.join("; ")));
+            let more = if t.warnings.len() > 5 {
+                format!(" (and {} more)", t.warnings.len() - 5)
+            } else {
+                String::new()
+            };
+            out.push_str(&format!(
+                "\nwarnings in {}: {}{more}\n",
+                t.resource.name,
+                shown.join("; ")
+            ));
         }
     }
     out
@@ -135,7 +178,11 @@ pub fn compact_years(years: &[i32]) -> String {
             i += 1;
             end = years[i];
         }
-        parts.push(if start == end { start.to_string() } else { format!("{start}-{end}") });
+        parts.push(if start == end {
+            start.to_string()
+        } else {
+            format!("{start}-{end}")
+        });
         i += 1;
     }
     parts.join(", ")

@@ -17,7 +17,11 @@ pub use table::{Factor, RefTable};
 pub const CATALOG_FILE: &str = "datapackage.json";
 
 /// Adds the alias files a catalog declares (its `aliases` property) to the resolver.
-pub fn add_catalog_aliases(catalog: &Catalog, source: &dyn FileSource, resolver: &mut Resolver) -> Result<()> {
+pub fn add_catalog_aliases(
+    catalog: &Catalog,
+    source: &dyn FileSource,
+    resolver: &mut Resolver,
+) -> Result<()> {
     for path in &catalog.aliases {
         let bytes = source.read(path)?;
         resolver.add_alias_text(&String::from_utf8_lossy(&bytes), &source.label(path))?;
@@ -44,13 +48,25 @@ impl References {
             .iter()
             .map(|t| {
                 let r = &t.resource;
-                let source = r.sources.first().map(|s| s.title.as_str()).unwrap_or("no source given");
+                let source = r
+                    .sources
+                    .first()
+                    .map(|s| s.title.as_str())
+                    .unwrap_or("no source given");
                 format!(
                     "{} \"{}\" ({}{}), vintage {}, source: {source}",
                     r.kind.as_str(),
                     r.name,
-                    if r.unit.is_empty() { "unit not stated" } else { &r.unit },
-                    if r.multiplier != 1.0 { format!(", x{}", r.multiplier) } else { String::new() },
+                    if r.unit.is_empty() {
+                        "unit not stated"
+                    } else {
+                        &r.unit
+                    },
+                    if r.multiplier != 1.0 {
+                        format!(", x{}", r.multiplier)
+                    } else {
+                        String::new()
+                    },
                     r.vintage.as_deref().unwrap_or("not stated"),
                 )
             })
@@ -88,5 +104,9 @@ pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<Referenc
         let bytes = source.read(&resource.path)?;
         tables.push(table::load_table(&bytes, &file, resource, resolver)?);
     }
-    Ok(References { catalog, catalog_file, tables })
+    Ok(References {
+        catalog,
+        catalog_file,
+        tables,
+    })
 }

@@ -44,7 +44,10 @@ impl RefTable {
         for distance in 1..=tolerance as i32 {
             for candidate in [year - distance, year + distance] {
                 if let Some(&value) = series.get(&candidate) {
-                    return Some(Factor { value, year: candidate });
+                    return Some(Factor {
+                        value,
+                        year: candidate,
+                    });
                 }
             }
         }
@@ -53,12 +56,21 @@ impl RefTable {
 
     pub fn years(&self) -> Option<(i32, i32)> {
         let min = self.series.values().filter_map(|s| s.keys().next()).min()?;
-        let max = self.series.values().filter_map(|s| s.keys().next_back()).max()?;
+        let max = self
+            .series
+            .values()
+            .filter_map(|s| s.keys().next_back())
+            .max()?;
         Some((*min, *max))
     }
 }
 
-pub fn load_table(bytes: &[u8], file: &str, resource: &Resource, resolver: &Resolver) -> Result<RefTable> {
+pub fn load_table(
+    bytes: &[u8],
+    file: &str,
+    resource: &Resource,
+    resolver: &Resolver,
+) -> Result<RefTable> {
     let decoded = encoding::decode(bytes, None, file)?;
     let delimiter = table::sniff_delimiter(&decoded.text);
     let text_table = table::read_table(&decoded.text, delimiter, file)?;
@@ -84,7 +96,9 @@ pub fn load_table(bytes: &[u8], file: &str, resource: &Resource, resolver: &Reso
             Resolution::Found(entity) => entity.code.clone(),
             Resolution::Unresolved { .. } => {
                 if !loaded.unresolved.iter().any(|(n, _)| n == entity_text) {
-                    loaded.unresolved.push((entity_text.to_string(), record.line));
+                    loaded
+                        .unresolved
+                        .push((entity_text.to_string(), record.line));
                 }
                 continue;
             }
@@ -142,7 +156,11 @@ pub fn load_table(bytes: &[u8], file: &str, resource: &Resource, resolver: &Reso
                     "remove the duplicate, or check whether two names in the table mean the same country",
                 ));
             }
-            loaded.series.entry(code.clone()).or_default().insert(year, value * resource.multiplier);
+            loaded
+                .series
+                .entry(code.clone())
+                .or_default()
+                .insert(year, value * resource.multiplier);
             loaded.rows_read += 1;
         }
     }
@@ -151,5 +169,8 @@ pub fn load_table(bytes: &[u8], file: &str, resource: &Resource, resolver: &Reso
 
 fn kind_must_be_positive(kind: Kind) -> bool {
     // Every kind divides or scales a figure; zero or negative factors have no meaning here.
-    matches!(kind, Kind::Fx | Kind::Ppp | Kind::Cpi | Kind::Population | Kind::Income)
+    matches!(
+        kind,
+        Kind::Fx | Kind::Ppp | Kind::Cpi | Kind::Population | Kind::Income
+    )
 }

@@ -56,14 +56,20 @@ pub fn format_number(value: f64, rounding: Rounding, grouping: bool) -> String {
 /// 2.675 and not as the binary 2.67499999...
 fn to_decimal(value: f64) -> Option<Decimal> {
     let text = format!("{value}");
-    Decimal::from_str(&text).ok().or_else(|| Decimal::from_f64(value))
+    Decimal::from_str(&text)
+        .ok()
+        .or_else(|| Decimal::from_f64(value))
 }
 
 fn round_dp(value: f64, dp: u32) -> String {
     match to_decimal(value) {
         Some(d) => {
             let rounded = d.round_dp_with_strategy(dp, RoundingStrategy::MidpointNearestEven);
-            let rounded = if rounded.is_zero() { Decimal::ZERO } else { rounded };
+            let rounded = if rounded.is_zero() {
+                Decimal::ZERO
+            } else {
+                rounded
+            };
             format!("{:.*}", dp as usize, rounded)
         }
         // Beyond Decimal's range: f64's own formatting, which rounds half to even as well.
@@ -85,7 +91,8 @@ fn round_sig(value: f64, sig: u32) -> String {
             Some(d) => d.round_dp_with_strategy(0, RoundingStrategy::MidpointNearestEven),
             None => return format!("{value:.0}"),
         };
-        let whole: f64 = rust_decimal::prelude::ToPrimitive::to_f64(&rounded).unwrap_or(value) * scale;
+        let whole: f64 =
+            rust_decimal::prelude::ToPrimitive::to_f64(&rounded).unwrap_or(value) * scale;
         format!("{whole:.0}")
     }
 }
@@ -113,7 +120,12 @@ fn group_thousands(text: &str) -> String {
 }
 
 /// A column as text cells (empty for null).
-pub fn column_texts(frame: &DataFrame, name: &str, rounding: Rounding, grouping: bool) -> Vec<String> {
+pub fn column_texts(
+    frame: &DataFrame,
+    name: &str,
+    rounding: Rounding,
+    grouping: bool,
+) -> Vec<String> {
     let Ok(column) = frame.column(name) else {
         return vec![String::new(); frame.height()];
     };
@@ -121,7 +133,14 @@ pub fn column_texts(frame: &DataFrame, name: &str, rounding: Rounding, grouping:
     match series.dtype() {
         DataType::Float64 => series
             .f64()
-            .map(|ca| ca.iter().map(|v| v.map(|x| format_number(x, rounding, grouping)).unwrap_or_default()).collect())
+            .map(|ca| {
+                ca.iter()
+                    .map(|v| {
+                        v.map(|x| format_number(x, rounding, grouping))
+                            .unwrap_or_default()
+                    })
+                    .collect()
+            })
             .unwrap_or_default(),
         DataType::String => series
             .str()
@@ -177,14 +196,23 @@ mod tests {
 
     #[test]
     fn significant_digits() {
-        assert_eq!(format_number(123456.0, Rounding::Significant(3), false), "123000");
-        assert_eq!(format_number(0.0012345, Rounding::Significant(3), false), "0.00123");
+        assert_eq!(
+            format_number(123456.0, Rounding::Significant(3), false),
+            "123000"
+        );
+        assert_eq!(
+            format_number(0.0012345, Rounding::Significant(3), false),
+            "0.00123"
+        );
         assert_eq!(format_number(1.0, Rounding::Significant(2), false), "1.0");
     }
 
     #[test]
     fn reading_rule_and_grouping() {
-        assert_eq!(format_number(1234567.4, Rounding::Reading, true), "1,234,567");
+        assert_eq!(
+            format_number(1234567.4, Rounding::Reading, true),
+            "1,234,567"
+        );
         assert_eq!(format_number(12.346, Rounding::Reading, true), "12.35");
         assert_eq!(format_number(2.675, Rounding::Decimals(2), false), "2.68");
         assert_eq!(format_number(0.012345, Rounding::Reading, true), "0.0123");

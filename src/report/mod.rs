@@ -43,7 +43,12 @@ impl Format {
 }
 
 /// Renders the frame in `format`.
-pub fn render(frame: &DataFrame, summary: &RunSummary, format: Format, rounding: Rounding) -> Result<String> {
+pub fn render(
+    frame: &DataFrame,
+    summary: &RunSummary,
+    format: Format,
+    rounding: Rounding,
+) -> Result<String> {
     Ok(match format {
         Format::Table => render_table(frame, summary, reader_rounding(rounding)),
         Format::Md => render_markdown(frame, summary, reader_rounding(rounding)),
@@ -60,21 +65,51 @@ fn reader_rounding(rounding: Rounding) -> Rounding {
 }
 
 pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
-    let names: Vec<String> = frame.get_column_names().iter().map(|n| n.to_string()).collect();
-    let columns: Vec<Vec<String>> = names.iter().map(|n| column_texts(frame, n, rounding, false)).collect();
-    let mut writer = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
-    let io_error = |e: csv::Error| Error::io("the csv output", "write", std::io::Error::other(e.to_string()));
+    let names: Vec<String> = frame
+        .get_column_names()
+        .iter()
+        .map(|n| n.to_string())
+        .collect();
+    let columns: Vec<Vec<String>> = names
+        .iter()
+        .map(|n| column_texts(frame, n, rounding, false))
+        .collect();
+    let mut writer = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new());
+    let io_error = |e: csv::Error| {
+        Error::io(
+            "the csv output",
+            "write",
+            std::io::Error::other(e.to_string()),
+        )
+    };
     writer.write_record(&names).map_err(io_error)?;
     for row in 0..frame.height() {
-        writer.write_record(columns.iter().map(|c| c[row].as_str())).map_err(io_error)?;
+        writer
+            .write_record(columns.iter().map(|c| c[row].as_str()))
+            .map_err(io_error)?;
     }
-    let bytes = writer.into_inner().map_err(|e| Error::io("the csv output", "write", std::io::Error::other(e.to_string())))?;
+    let bytes = writer.into_inner().map_err(|e| {
+        Error::io(
+            "the csv output",
+            "write",
+            std::io::Error::other(e.to_string()),
+        )
+    })?;
     Ok(String::from_utf8_lossy(&bytes).into_owned())
 }
 
 pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> Result<String> {
-    let names: Vec<String> = frame.get_column_names().iter().map(|n| n.to_string()).collect();
-    let columns: Vec<Vec<serde_json::Value>> = names.iter().map(|n| column_json(frame, n, rounding)).collect();
+    let names: Vec<String> = frame
+        .get_column_names()
+        .iter()
+        .map(|n| n.to_string())
+        .collect();
+    let columns: Vec<Vec<serde_json::Value>> = names
+        .iter()
+        .map(|n| column_json(frame, n, rounding))
+        .collect();
     let mut out = String::from("{\n  \"metadata\": ");
     let metadata = serde_json::json!({
         "tool": "levelfield",
@@ -85,13 +120,13 @@ pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) 
     out.push_str(",\n  \"rows\": [");
     for row in 0..frame.height() {
         out.push_str(if row == 0 { "\n    {" } else { ",\n    {" });
-        for (i, name) in names.iter().enumerate() {
+        for (i, (name, cells)) in names.iter().zip(&columns).enumerate() {
             if i > 0 {
                 out.push_str(", ");
             }
             out.push_str(&serde_json::to_string(name).unwrap_or_default());
             out.push_str(": ");
-            out.push_str(&serde_json::to_string(&columns[i][row]).unwrap_or_default());
+            out.push_str(&serde_json::to_string(&cells[row]).unwrap_or_default());
         }
         out.push('}');
     }
@@ -101,7 +136,10 @@ pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) 
 
 /// The columns a reader sees, with their headers.
 fn reader_rows(frame: &DataFrame, rounding: Rounding) -> (Vec<&'static str>, Vec<Vec<String>>) {
-    let has_group = frame.column("group").map(|c| c.null_count() < c.len()).unwrap_or(false);
+    let has_group = frame
+        .column("group")
+        .map(|c| c.null_count() < c.len())
+        .unwrap_or(false);
     let names = column_texts(frame, "entity_name", rounding, true);
     let inputs = column_texts(frame, "entity_input", rounding, true);
     let years = column_texts(frame, "year", rounding, true);
@@ -117,10 +155,22 @@ fn reader_rows(frame: &DataFrame, rounding: Rounding) -> (Vec<&'static str>, Vec
     if has_group {
         header.push("group");
     }
-    header.extend(["as given", "baseline", "adjusted", "rank before", "rank after", "shift", "flags"]);
+    header.extend([
+        "as given",
+        "baseline",
+        "adjusted",
+        "rank before",
+        "rank after",
+        "shift",
+        "flags",
+    ]);
     let rows = (0..frame.height())
         .map(|i| {
-            let entity = if names[i].is_empty() { inputs[i].clone() } else { names[i].clone() };
+            let entity = if names[i].is_empty() {
+                inputs[i].clone()
+            } else {
+                names[i].clone()
+            };
             let mut row = vec![entity, years[i].clone()];
             if has_group {
                 row.push(groups[i].clone());
@@ -160,7 +210,10 @@ pub fn render_table(frame: &DataFrame, summary: &RunSummary, rounding: Rounding)
     let mut table = builder.build();
     let numeric_from = header.iter().position(|h| *h == "as given").unwrap_or(2);
     table.with(Style::sharp());
-    table.modify(Columns::new(numeric_from..numeric_from + 5), Alignment::right());
+    table.modify(
+        Columns::new(numeric_from..numeric_from + 5),
+        Alignment::right(),
+    );
     let mut out = table.to_string();
     out.push('\n');
     out.push_str(&summary::units_line(summary));
@@ -173,7 +226,11 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
     let numeric_from = header.iter().position(|h| *h == "as given").unwrap_or(2);
     let mut out = format!("| {} |\n|", header.join(" | "));
     for i in 0..header.len() {
-        out.push_str(if i >= numeric_from && i < numeric_from + 5 { "---:|" } else { "---|" });
+        out.push_str(if i >= numeric_from && i < numeric_from + 5 {
+            "---:|"
+        } else {
+            "---|"
+        });
     }
     out.push('\n');
     for row in rows {
@@ -190,16 +247,30 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
 /// failure never leaves a half-written file and an earlier output stays intact.
 pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
     if path.is_dir() {
-        return Err(Error::io(path.display(), "write the output", std::io::Error::other("this path is a folder; give a file name")));
+        return Err(Error::io(
+            path.display(),
+            "write the output",
+            std::io::Error::other("this path is a folder; give a file name"),
+        ));
     }
     let dir = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => std::path::PathBuf::from("."),
     };
-    let mut temp = tempfile::NamedTempFile::new_in(&dir).map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
-    temp.write_all(text.as_bytes()).map_err(|e| Error::io(path.display(), "write the output", e))?;
-    temp.as_file().sync_all().map_err(|e| Error::io(path.display(), "write the output", e))?;
-    temp.persist(path).map_err(|e| Error::io(path.display(), "move the finished output into place", e.error))?;
+    let mut temp = tempfile::NamedTempFile::new_in(&dir)
+        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
+    temp.write_all(text.as_bytes())
+        .map_err(|e| Error::io(path.display(), "write the output", e))?;
+    temp.as_file()
+        .sync_all()
+        .map_err(|e| Error::io(path.display(), "write the output", e))?;
+    temp.persist(path).map_err(|e| {
+        Error::io(
+            path.display(),
+            "move the finished output into place",
+            e.error,
+        )
+    })?;
     Ok(())
 }
 
@@ -223,6 +294,10 @@ mod tests {
         write_atomically(&path, "b\n").unwrap();
         assert_eq!(std::fs::read_to_string(&path).unwrap(), "b\n");
         assert!(write_atomically(dir.path(), "x").is_err());
-        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1, "no temporary file left behind");
+        assert_eq!(
+            std::fs::read_dir(dir.path()).unwrap().count(),
+            1,
+            "no temporary file left behind"
+        );
     }
 }

@@ -17,7 +17,11 @@ pub fn describe_track(steps: &[&str], settings: &StepSettings, starts_in_base: b
             "market" => currency = format!("{} at market rates", settings.base_currency),
             "ppp" => currency = "international dollars (PPP)".to_string(),
             "deflate" => parts.push(format!("{} prices", settings.base_year.unwrap_or_default())),
-            "per-capita" => parts.push(if settings.per == 1 { "per person".into() } else { format!("per {} people", settings.per) }),
+            "per-capita" => parts.push(if settings.per == 1 {
+                "per person".into()
+            } else {
+                format!("per {} people", settings.per)
+            }),
             "per-income" => {
                 return match settings.income_as {
                     IncomeAs::Share => "share of a year's income per capita (0.05 = 5%)".into(),
@@ -36,7 +40,10 @@ pub fn describe_track(steps: &[&str], settings: &StepSettings, starts_in_base: b
 }
 
 pub fn units_line(summary: &RunSummary) -> String {
-    format!("baseline: {}; adjusted: {}", summary.baseline_unit, summary.adjusted_unit)
+    format!(
+        "baseline: {}; adjusted: {}",
+        summary.baseline_unit, summary.adjusted_unit
+    )
 }
 
 /// The summary for stderr.
@@ -48,10 +55,21 @@ pub fn render(summary: &RunSummary) -> String {
     for note in &summary.notes {
         out.push_str(&format!("  {note}\n"));
     }
-    let steps = if summary.steps.is_empty() { "none (values ranked as given)".to_string() } else { summary.steps.join(" → ") };
+    let steps = if summary.steps.is_empty() {
+        "none (values ranked as given)".to_string()
+    } else {
+        summary.steps.join(" → ")
+    };
     out.push_str(&format!("  steps (adjusted): {steps}\n"));
     if !summary.steps.is_empty() {
-        out.push_str(&format!("  steps (baseline): {}\n", if summary.baseline_steps.is_empty() { "none".into() } else { summary.baseline_steps.join(" → ") }));
+        out.push_str(&format!(
+            "  steps (baseline): {}\n",
+            if summary.baseline_steps.is_empty() {
+                "none".into()
+            } else {
+                summary.baseline_steps.join(" → ")
+            }
+        ));
     }
     for note in &summary.method_notes {
         out.push_str(&format!("  method: {note}\n"));
@@ -60,7 +78,11 @@ pub fn render(summary: &RunSummary) -> String {
         out.push_str(&format!("  reference: {reference}\n"));
     }
     if !summary.flag_counts.is_empty() {
-        let counts: Vec<String> = summary.flag_counts.iter().map(|(f, n)| format!("{f} {n}")).collect();
+        let counts: Vec<String> = summary
+            .flag_counts
+            .iter()
+            .map(|(f, n)| format!("{f} {n}"))
+            .collect();
         out.push_str(&format!("  flags: {}\n", counts.join(", ")));
     }
     for warning in &summary.warnings {

@@ -6,11 +6,24 @@ use crate::setup;
 #[test]
 fn unresolved_names_are_listed_with_suggestions_and_never_guessed() {
     let env = setup();
-    let input = env.write("in.csv", "country,year,value\nFrnace,2020,1\nAtlantis,2020,2\nFrance,2020,3\nAtlantis,2021,4\n");
+    let input = env.write(
+        "in.csv",
+        "country,year,value\nFrnace,2020,1\nAtlantis,2020,2\nFrance,2020,3\nAtlantis,2021,4\n",
+    );
     let run = env.run(&["adjust", &input]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.contains("\"Frnace\" (line 2): did you mean France"), "{}", run.stderr);
-    assert!(run.stderr.contains("\"Atlantis\" (line 3, 5): no close match"), "{}", run.stderr);
+    assert!(
+        run.stderr
+            .contains("\"Frnace\" (line 2): did you mean France"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stderr
+            .contains("\"Atlantis\" (line 3, 5): no close match"),
+        "{}",
+        run.stderr
+    );
     assert!(run.stderr.contains("--allow-unresolved"));
     assert!(run.stdout.is_empty(), "no half output");
 
@@ -20,7 +33,10 @@ fn unresolved_names_are_listed_with_suggestions_and_never_guessed() {
     assert_eq!(rows.len(), 4, "rows in = rows out");
     assert_eq!(rows[0]["entity_code"], "");
     assert!(rows[0]["flags"].contains("unresolved"));
-    assert_eq!(rows[2]["rank_adjusted"], "1", "only resolved rows are ranked");
+    assert_eq!(
+        rows[2]["rank_adjusted"], "1",
+        "only resolved rows are ranked"
+    );
 }
 
 #[test]
@@ -29,8 +45,16 @@ fn a_bad_number_names_file_line_and_column_unless_lenient() {
     let input = env.write("in.csv", "country,2020,2021\nFrance,1,2\nChile,3,three\n");
     let run = env.run(&["adjust", &input]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.contains("in.csv, line 3, column \"2021\""), "{}", run.stderr);
-    assert!(run.stderr.contains("expected:") && run.stderr.contains("what to do:"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("in.csv, line 3, column \"2021\""),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stderr.contains("expected:") && run.stderr.contains("what to do:"),
+        "{}",
+        run.stderr
+    );
     let run = env.run(&["adjust", &input, "--lenient", "--format", "csv"]);
     assert_eq!(run.code, 0);
     let rows = run.rows();
@@ -54,7 +78,14 @@ fn decimal_comma_tables_need_the_flag() {
 fn usage_errors_say_what_to_do() {
     let env = setup();
     let input = env.write("in.csv", "country,year,value\nFrance,2020,1\n");
-    let run = env.run(&["adjust", &input, "--steps", "deflate", "--refs", &env.data("published")]);
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--steps",
+        "deflate",
+        "--refs",
+        &env.data("published"),
+    ]);
     assert_eq!(run.code, 2);
     assert!(run.stderr.contains("--base-year"), "{}", run.stderr);
     let run = env.run(&["adjust", &input, "--steps", "ppp"]);
@@ -63,7 +94,14 @@ fn usage_errors_say_what_to_do() {
     let run = env.run(&["adjust", &input, "--steps", "pp"]);
     assert_eq!(run.code, 2);
     assert!(run.stderr.contains("unknown step \"pp\""), "{}", run.stderr);
-    let run = env.run(&["adjust", &input, "--steps", "per-capita", "--refs", &env.data("published")]);
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--steps",
+        "per-capita",
+        "--refs",
+        &env.data("published"),
+    ]);
     assert_eq!(run.code, 2);
     assert!(run.stderr.contains("population"), "{}", run.stderr);
     let run = env.run(&["adjust", "missing.csv"]);
@@ -79,16 +117,37 @@ fn broken_reference_tables_are_errors_naming_file_and_line() {
     let env = setup();
     let refs = env.path("refs");
     std::fs::create_dir(&refs).unwrap();
-    std::fs::write(refs.join("datapackage.json"), r#"{"resources":[{"name":"p","path":"ppp.csv","kind":"ppp"}]}"#).unwrap();
-    std::fs::write(refs.join("ppp.csv"), "country,year,value\nFrance,2020,0.7\nFrance,2020,0.8\n").unwrap();
+    std::fs::write(
+        refs.join("datapackage.json"),
+        r#"{"resources":[{"name":"p","path":"ppp.csv","kind":"ppp"}]}"#,
+    )
+    .unwrap();
+    std::fs::write(
+        refs.join("ppp.csv"),
+        "country,year,value\nFrance,2020,0.7\nFrance,2020,0.8\n",
+    )
+    .unwrap();
     let input = env.write("in.csv", "country,year,value\nFrance,2020,1\n");
     let refs_arg = refs.display().to_string();
     let run = env.run(&["adjust", &input, "--refs", &refs_arg, "--steps", "ppp"]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.contains("ppp.csv, line 3") && run.stderr.contains("line 2"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("ppp.csv, line 3") && run.stderr.contains("line 2"),
+        "{}",
+        run.stderr
+    );
 
-    std::fs::write(refs.join("ppp.csv"), "country,year,value\nFrance,2020,-0.7\n").unwrap();
+    std::fs::write(
+        refs.join("ppp.csv"),
+        "country,year,value\nFrance,2020,-0.7\n",
+    )
+    .unwrap();
     let run = env.run(&["adjust", &input, "--refs", &refs_arg, "--steps", "ppp"]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.contains("ppp.csv, line 2, column \"value\"") && run.stderr.contains("not positive"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("ppp.csv, line 2, column \"value\"")
+            && run.stderr.contains("not positive"),
+        "{}",
+        run.stderr
+    );
 }

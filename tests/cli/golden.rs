@@ -9,7 +9,9 @@ fn demo_prints_the_comparison_table() {
     let run = env.run(&["demo"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     assert!(run.stdout.starts_with("INVENTED DATA"));
-    assert!(run.stderr.contains("reproduce with: levelfield demo --extract"));
+    assert!(run
+        .stderr
+        .contains("reproduce with: levelfield demo --extract"));
     assert_golden("demo-table.txt", &run.stdout);
 }
 
@@ -32,4 +34,23 @@ fn help_texts() {
     let env = setup();
     assert_golden("help.txt", &env.run(&["--help"]).stdout);
     assert_golden("adjust-help.txt", &env.run(&["adjust", "--help"]).stdout);
+}
+
+#[test]
+fn readme_methods_list_every_step_formula() {
+    let readme =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md")).unwrap();
+    for step in levelfield::adjust::STEPS {
+        assert!(
+            readme.contains(step.formula()),
+            "README lacks the formula of {}: {}",
+            step.name(),
+            step.formula()
+        );
+        assert!(
+            readme.contains(&format!("`{}`", step.name())),
+            "README lacks step {}",
+            step.name()
+        );
+    }
 }

@@ -32,19 +32,30 @@ impl Run {
             .records()
             .map(|r| {
                 let r = r.expect("csv record");
-                headers.iter().zip(r.iter()).map(|(h, v)| (h.to_string(), v.to_string())).collect()
+                headers
+                    .iter()
+                    .zip(r.iter())
+                    .map(|(h, v)| (h.to_string(), v.to_string()))
+                    .collect()
             })
             .collect()
     }
 }
 
 pub fn setup() -> Env {
-    Env { dir: tempfile::tempdir().expect("temp dir"), repo: PathBuf::from(env!("CARGO_MANIFEST_DIR")) }
+    Env {
+        dir: tempfile::tempdir().expect("temp dir"),
+        repo: PathBuf::from(env!("CARGO_MANIFEST_DIR")),
+    }
 }
 
 impl Env {
     pub fn data(&self, name: &str) -> String {
-        self.repo.join("tests/data").join(name).display().to_string()
+        self.repo
+            .join("tests/data")
+            .join(name)
+            .display()
+            .to_string()
     }
 
     pub fn write(&self, name: &str, text: &str) -> String {
@@ -73,10 +84,18 @@ impl Env {
         use std::io::Write;
         let mut command = Command::new(env!("CARGO_BIN_EXE_levelfield"));
         command.args(args).current_dir(cwd);
-        command.stdin(std::process::Stdio::piped()).stdout(std::process::Stdio::piped()).stderr(std::process::Stdio::piped());
+        command
+            .stdin(std::process::Stdio::piped())
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped());
         let mut child = command.spawn().expect("run levelfield");
         if let Some(text) = stdin {
-            child.stdin.take().unwrap().write_all(text.as_bytes()).unwrap();
+            child
+                .stdin
+                .take()
+                .unwrap()
+                .write_all(text.as_bytes())
+                .unwrap();
         } else {
             drop(child.stdin.take());
         }
@@ -91,21 +110,37 @@ impl Env {
 
 /// Compares `actual` with a golden file, or rewrites it when LEVELFIELD_UPDATE_GOLDEN is set.
 pub fn assert_golden(name: &str, actual: &str) {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/golden").join(name);
+    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/golden")
+        .join(name);
     if std::env::var_os("LEVELFIELD_UPDATE_GOLDEN").is_some() {
         std::fs::write(&path, actual).expect("write golden file");
         return;
     }
-    let expected = std::fs::read_to_string(&path)
-        .unwrap_or_else(|_| panic!("missing golden file {}; run LEVELFIELD_UPDATE_GOLDEN=1 cargo test", path.display()));
-    assert_eq!(actual, expected, "output differs from {}; if the change is intended, rerun with LEVELFIELD_UPDATE_GOLDEN=1", path.display());
+    let expected = std::fs::read_to_string(&path).unwrap_or_else(|_| {
+        panic!(
+            "missing golden file {}; run LEVELFIELD_UPDATE_GOLDEN=1 cargo test",
+            path.display()
+        )
+    });
+    assert_eq!(
+        actual,
+        expected,
+        "output differs from {}; if the change is intended, rerun with LEVELFIELD_UPDATE_GOLDEN=1",
+        path.display()
+    );
 }
 
 pub fn num(row: &HashMap<String, String>, column: &str) -> f64 {
-    row[column].parse::<f64>().unwrap_or_else(|_| panic!("{column} = {:?} is not a number", row[column]))
+    row[column]
+        .parse::<f64>()
+        .unwrap_or_else(|_| panic!("{column} = {:?} is not a number", row[column]))
 }
 
 /// Standard competition ranks of `values` (largest first), computed independently of the tool.
 pub fn competition_ranks(values: &[f64]) -> Vec<i64> {
-    values.iter().map(|v| 1 + values.iter().filter(|w| *w > v).count() as i64).collect()
+    values
+        .iter()
+        .map(|v| 1 + values.iter().filter(|w| *w > v).count() as i64)
+        .collect()
 }

@@ -10,14 +10,33 @@ fn cpi_rebasing_matches_bls_cpi_u() {
     // of 2023 (same source, from memory).
     let env = setup();
     let input = env.write("usd.csv", "country,year,value\nUnited States,2015,100\nUnited States,2000,100\nUSA,2020,100\nUS,2023,100\n");
-    let run = env.run(&["adjust", &input, "--refs", &env.data("published"), "--steps", "deflate", "--base-year", "2023", "--format", "csv"]);
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &env.data("published"),
+        "--steps",
+        "deflate",
+        "--base-year",
+        "2023",
+        "--format",
+        "csv",
+    ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let rows = run.rows();
     assert_eq!(rows.len(), 4);
-    assert!((num(&rows[0], "value_real") - 128.56).abs() < 0.005, "{}", rows[0]["value_real"]);
+    assert!(
+        (num(&rows[0], "value_real") - 128.56).abs() < 0.005,
+        "{}",
+        rows[0]["value_real"]
+    );
     assert!((num(&rows[1], "value_real") - 100.0 * 304.702 / 172.2).abs() < 1e-9);
     assert!((num(&rows[2], "value_real") - 100.0 * 304.702 / 258.811).abs() < 1e-9);
-    assert_eq!(num(&rows[3], "value_real"), 100.0, "the base year maps to itself");
+    assert_eq!(
+        num(&rows[3], "value_real"),
+        100.0,
+        "the base year maps to itself"
+    );
     assert_eq!(rows[0]["cpi_year"], "2015");
     assert_eq!(rows[0]["cpi_base_year"], "2023");
     assert!(rows.iter().all(|r| r["entity_code"] == "USA"));
@@ -31,8 +50,20 @@ fn ppp_conversion_matches_the_oecd_worked_example() {
     // The price level index of the base country is 100 by construction (World Bank, price level
     // ratio of PPP conversion factor to market exchange rate).
     let env = setup();
-    let input = env.write("prices.csv", "country,year,price\nFrance,2020,2.30\nUnited States,2020,2.00\n");
-    let run = env.run(&["adjust", &input, "--refs", &env.data("published"), "--steps", "ppp", "--format", "csv"]);
+    let input = env.write(
+        "prices.csv",
+        "country,year,price\nFrance,2020,2.30\nUnited States,2020,2.00\n",
+    );
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &env.data("published"),
+        "--steps",
+        "ppp",
+        "--format",
+        "csv",
+    ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let rows = run.rows();
     assert!((num(&rows[0], "value_intl") - 2.00).abs() < 1e-12);
@@ -56,9 +87,27 @@ fn usd_input_is_taken_back_to_local_currency_before_ppp() {
     // with the OECD worked example's PPP.
     let env = setup();
     let input = env.write("usd.csv", "country,year,price\nFrance,2020,2.5\n");
-    let run = env.run(&["adjust", &input, "--refs", &env.data("published"), "--steps", "ppp", "--currency-code", "USD", "--format", "csv"]);
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &env.data("published"),
+        "--steps",
+        "ppp",
+        "--currency-code",
+        "USD",
+        "--format",
+        "csv",
+    ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let rows = run.rows();
-    assert!((num(&rows[0], "value_intl") - 2.0).abs() < 1e-12, "{:?}", rows[0]);
-    assert!((num(&rows[0], "value_baseline") - 2.5).abs() < 1e-12, "market conversion of USD is the identity");
+    assert!(
+        (num(&rows[0], "value_intl") - 2.0).abs() < 1e-12,
+        "{:?}",
+        rows[0]
+    );
+    assert!(
+        (num(&rows[0], "value_baseline") - 2.5).abs() < 1e-12,
+        "market conversion of USD is the identity"
+    );
 }

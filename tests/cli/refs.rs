@@ -9,7 +9,11 @@ fn lists_tables_with_coverage_and_gaps() {
     assert_eq!(run.code, 0, "{}", run.stderr);
     assert!(run.stdout.contains("fixture-ppp"));
     assert!(run.stdout.contains("2020-2023"));
-    assert!(run.stdout.contains("gaps in fixture-ppp: VNM 2023"), "{}", run.stdout);
+    assert!(
+        run.stdout.contains("gaps in fixture-ppp: VNM 2023"),
+        "{}",
+        run.stdout
+    );
 }
 
 #[test]
