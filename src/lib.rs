@@ -30,6 +30,7 @@ pub mod reference;
 pub mod report;
 pub mod resolve;
 pub mod source;
+pub mod uncertainty;
 
 use cli::{Cli, Command};
 use error::Result;

@@ -1,0 +1,85 @@
+//! The margin of a lead between two shares of the same sample.
+//!
+//! For shares p1 and p2 from one simple random sample of n, the lead p1 − p2 has variance
+//! (p1 + p2 − (p1 − p2)²)/n, because the two counts are multinomial and negatively correlated
+//! (the standard multinomial result; common practice in survey reporting). A lead smaller than
+//! its margin is a statistical tie.
+
+use crate::uncertainty::moe::{se_of_share, Level};
+
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Lead {
+    pub lead: f64,
+    pub margin: f64,
+    pub margin_first: f64,
+    pub margin_second: f64,
+    pub beyond_margin: bool,
+}
+
+/// Shares as fractions (0.48), sample size n.
+pub fn lead(p1: f64, p2: f64, n: f64, level: Level) -> Lead {
+    let difference = p1 - p2;
+    let margin = level.z() * ((p1 + p2 - difference * difference) / n).sqrt();
+    Lead {
+        lead: difference,
+        margin,
+        margin_first: level.z() * se_of_share(p1, n),
+        margin_second: level.z() * se_of_share(p2, n),
+        beyond_margin: difference.abs() > margin,
+    }
+}
+
+/// The result in words, with shares and margins in percentage points.
+pub fn describe(first: &str, second: &str, p1: f64, p2: f64, n: f64, level: Level) -> String {
+    let l = lead(p1, p2, n, level);
+    let points = |x: f64| format!("{:.1}", x * 100.0);
+    let verdict = if l.beyond_margin {
+        format!(
+            "the lead is larger than its margin at {}% confidence",
+            level.percent()
+        )
+    } else {
+        format!(
+            "the lead is within its margin at {}% confidence: a statistical tie",
+            level.percent()
+        )
+    };
+    format!(
+        "{first} {} (±{}), {second} {} (±{}), n = {n}\nlead: {} points, margin of the lead: ±{} points\n{verdict}\n",
+        points(p1),
+        points(l.margin_first),
+        points(p2),
+        points(l.margin_second),
+        points(l.lead),
+        points(l.margin),
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn one_share_of_a_thousand_at_95() {
+        // n = 1,000, p = 0.5 at 95%: ±3.1 points (common practice: survey organisations quote ±3).
+        let l = lead(0.5, 0.0, 1000.0, Level::P95);
+        assert!(
+            (l.margin_first * 100.0 - 3.1).abs() < 0.05,
+            "{}",
+            l.margin_first
+        );
+    }
+
+    #[test]
+    fn a_four_point_lead_in_a_thousand_is_a_tie() {
+        // 48 versus 44 with n = 1,000 at 95%: margin of the lead about ±5.9 points, so a tie
+        // (the multinomial formula above; common practice).
+        let l = lead(0.48, 0.44, 1000.0, Level::P95);
+        assert!((l.margin * 100.0 - 5.9).abs() < 0.05, "{}", l.margin);
+        assert!(!l.beyond_margin);
+        let text = describe("A", "B", 0.48, 0.44, 1000.0, Level::P95);
+        assert!(text.contains("a statistical tie"), "{text}");
+        let wide = lead(0.55, 0.35, 1000.0, Level::P95);
+        assert!(wide.beyond_margin);
+    }
+}
