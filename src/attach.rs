@@ -68,6 +68,8 @@ pub fn lookup_frame(
                 )
             })?),
         };
+        let with_se = table.has_margins() && need.whose == Whose::Entity;
+        let mut ses: Vec<Option<f64>> = Vec::with_capacity(if with_se { n } else { 0 });
         let mut used: Vec<Option<f64>> = Vec::with_capacity(n);
         let mut years: Vec<Option<i32>> = Vec::with_capacity(n);
         for (i, (code, row_year)) in keys.iter().enumerate() {
@@ -81,11 +83,18 @@ pub fn lookup_frame(
                     if factor.year != year {
                         flags[i].push(need.year_differs_flag(factor.year));
                     }
+                    if with_se {
+                        // A factor without a stated margin is taken as exact.
+                        ses.push(Some(table.se_of(entity, factor.year).unwrap_or(0.0)));
+                    }
                     used.push(Some(factor.value));
                     years.push(Some(factor.year));
                 }
                 None => {
                     flags[i].push(need.missing_flag());
+                    if with_se {
+                        ses.push(None);
+                    }
                     used.push(None);
                     years.push(None);
                 }
@@ -93,6 +102,9 @@ pub fn lookup_frame(
         }
         columns.push(Column::new(need.used_column().into(), used));
         columns.push(Column::new(need.year_column().into(), years));
+        if with_se {
+            columns.push(Column::new(need.se_column().into(), ses));
+        }
     }
     let joined: Vec<Option<String>> = flags
         .into_iter()

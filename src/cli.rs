@@ -5,6 +5,8 @@ use crate::adjust::{self, Deflator, IncomeAs};
 use crate::ingest::encoding::EncodingChoice;
 use crate::rank::Order;
 use crate::report::Format;
+use crate::uncertainty::intervals::Adjustment;
+use crate::uncertainty::moe::Level;
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
 
@@ -30,6 +32,35 @@ pub enum Command {
     Refs(RefsArgs),
     /// Run the bundled, invented scenario end to end and print the comparison.
     Demo(DemoArgs),
+    /// Is a lead between two shares of one poll larger than its margin of error?
+    Lead(LeadArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct LeadArgs {
+    /// The first share (percent unless --share-unit fraction).
+    #[arg(value_name = "SHARE1")]
+    pub first: f64,
+
+    /// The second share.
+    #[arg(value_name = "SHARE2")]
+    pub second: f64,
+
+    /// The sample size.
+    #[arg(long, short = 'n', value_name = "N")]
+    pub n: f64,
+
+    /// Confidence level.
+    #[arg(long, value_enum, default_value_t = Level::P95)]
+    pub level: Level,
+
+    /// Names of the two, comma-separated.
+    #[arg(long, value_name = "A,B", default_value = "first,second")]
+    pub names: String,
+
+    /// Shares are percentages (48) or fractions (0.48).
+    #[arg(long, value_enum, default_value_t = ShareUnit::Percent)]
+    pub share_unit: ShareUnit,
 }
 
 #[derive(Debug, Args)]
@@ -93,7 +124,101 @@ pub struct AdjustArgs {
     pub columns: ColumnArgs,
 
     #[command(flatten)]
+    pub uncertainty: UncertaintyArgs,
+
+    #[command(flatten)]
     pub output: OutputArgs,
+}
+
+#[derive(Debug, Args, Clone)]
+pub struct UncertaintyArgs {
+    /// Column of margins of error of the figures (needs --moe-level).
+    #[arg(long, value_name = "COL", help_heading = "Uncertainty", conflicts_with_all = ["se", "ci_low", "sample_size"])]
+    pub moe: Option<String>,
+
+    /// Column of standard errors of the figures.
+    #[arg(long, value_name = "COL", help_heading = "Uncertainty", conflicts_with_all = ["ci_low", "sample_size"])]
+    pub se: Option<String>,
+
+    /// Column of lower confidence bounds (with --ci-high and --moe-level).
+    #[arg(
+        long,
+        value_name = "COL",
+        help_heading = "Uncertainty",
+        requires = "ci_high",
+        conflicts_with = "sample_size"
+    )]
+    pub ci_low: Option<String>,
+
+    /// Column of upper confidence bounds (with --ci-low and --moe-level).
+    #[arg(
+        long,
+        value_name = "COL",
+        help_heading = "Uncertainty",
+        requires = "ci_low"
+    )]
+    pub ci_high: Option<String>,
+
+    /// Column of survey sample sizes: the figures are shares and their margins come from p and n.
+    #[arg(long, value_name = "COL", help_heading = "Uncertainty")]
+    pub sample_size: Option<String>,
+
+    /// Confidence level of the given margins or bounds, and of the margins written out
+    /// (default 90 for --se and --sample-size).
+    #[arg(long, value_enum, help_heading = "Uncertainty")]
+    pub moe_level: Option<Level>,
+
+    /// Shares for --sample-size are percentages (48) or fractions (0.48).
+    #[arg(long, value_enum, default_value_t = ShareUnit::Percent, help_heading = "Uncertainty")]
+    pub share_unit: ShareUnit,
+
+    /// The figures count people within the population: per-capita margins use the proportion
+    /// formula instead of the ratio formula.
+    #[arg(long, help_heading = "Uncertainty")]
+    pub proportion: bool,
+
+    /// Rank intervals: joint (a confidence region for the whole ranking) or simulate (per-entity
+    /// percentiles of simulated ranks; narrower, not joint).
+    #[arg(long, value_enum, default_value_t = IntervalKind::Joint, help_heading = "Uncertainty")]
+    pub rank_intervals: IntervalKind,
+
+    /// How joint intervals are widened for K entities.
+    #[arg(long, value_enum, default_value_t = Adjustment::Independence, help_heading = "Uncertainty")]
+    pub joint_adjustment: Adjustment,
+
+    /// Number of simulated rankings for --rank-intervals simulate.
+    #[arg(
+        long,
+        default_value_t = 2000,
+        value_name = "N",
+        help_heading = "Uncertainty"
+    )]
+    pub draws: usize,
+
+    /// Seed of the simulation (the same seed gives the same intervals).
+    #[arg(
+        long,
+        default_value_t = 1,
+        value_name = "S",
+        help_heading = "Uncertainty"
+    )]
+    pub seed: u64,
+}
+
+/// How shares are written for --sample-size.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, serde::Serialize)]
+pub enum ShareUnit {
+    #[default]
+    Percent,
+    Fraction,
+}
+
+/// Which rank intervals to compute.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, serde::Serialize)]
+pub enum IntervalKind {
+    #[default]
+    Joint,
+    Simulate,
 }
 
 #[derive(Debug, Args, Clone, Default)]
@@ -214,6 +339,10 @@ pub struct DemoArgs {
     /// Write the demo's input, alias file and reference tables into DIR, to rerun with `adjust`.
     #[arg(long, value_name = "DIR")]
     pub extract: Option<PathBuf>,
+
+    /// Run the second scenario: survey estimates with margins of error, rank intervals and ties.
+    #[arg(long)]
+    pub margins: bool,
 
     #[command(flatten)]
     pub output: OutputArgs,

@@ -67,7 +67,8 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
     plan::check_step_options(&steps, adjust.base_year)?;
     let mut resolver = Resolver::builtin();
     let references = reference::load(&DEMO_REFERENCES, &mut resolver)?;
-    let ingest = plan::ingest_options(&adjust.columns)?;
+    let mut ingest = plan::ingest_options(&adjust.columns)?;
+    ingest.margins = plan::margin_spec(&adjust.uncertainty)?;
     let settings = plan::pipeline_settings(&adjust, steps, ingest, Some(&references));
     Ok(plan::AdjustPlan {
         input_bytes: DEMO_INPUT.as_bytes().to_vec(),

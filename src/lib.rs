@@ -30,6 +30,7 @@ pub mod reference;
 pub mod report;
 pub mod resolve;
 pub mod source;
+pub mod tracks;
 pub mod uncertainty;
 
 use cli::{Cli, Command};
@@ -68,6 +69,10 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             })
         }
         Command::Demo(args) => demo::run(&args),
+        Command::Lead(args) => {
+            print!("{}", plan::describe_lead(&args)?);
+            Ok(Outcome::Ok)
+        }
     }
 }
 

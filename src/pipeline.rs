@@ -5,9 +5,7 @@
 //! Everything after the canonical frame is one polars lazy plan, so large inputs are joined,
 //! adjusted and ranked by the engine, not row by row.
 
-use crate::adjust::{
-    self, FactorNeed, Prices, Step, StepContext, StepSettings, Track, TrackState, Unit,
-};
+use crate::adjust::{self, Step, StepSettings, Unit};
 use crate::attach::{self, AttachSettings};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
@@ -17,8 +15,10 @@ use crate::rank::{self, Order};
 use crate::reference::References;
 use crate::report::summary::describe_track;
 use crate::resolve::{self, InputBasis, ResolveOptions};
+use crate::tracks::{self, TrackPlan, TrackStart};
+use crate::uncertainty::ranking::{self, IntervalSettings};
 use polars::prelude::*;
-use std::collections::{BTreeMap, BTreeSet, HashSet};
+use std::collections::{BTreeMap, HashSet};
 
 /// What the pipeline needs beyond the input bytes.
 #[derive(Debug, Clone)]
@@ -30,6 +30,8 @@ pub struct PipelineSettings {
     pub allow_unresolved: bool,
     pub rank_aggregates: bool,
     pub order: Order,
+    /// Rank intervals and margins, when the figures or the factors carry uncertainty.
+    pub intervals: Option<IntervalSettings>,
 }
 
 impl std::fmt::Debug for dyn Step {
@@ -166,80 +168,33 @@ pub fn run_adjust(
             Column::new("_basis".into(), basis_text),
             Column::new("_flags_pre".into(), flags_pre),
             Column::new("_rank_eligible".into(), eligible),
+            Column::new("_se".into(), rows.iter().map(|r| r.se).collect::<Vec<_>>()),
         ],
     )
     .map_err(Error::engine("building the input frame"))?;
 
     // Both tracks, built as expressions; the factors they name are collected in `needs`.
-    let mut needs: BTreeSet<FactorNeed> = BTreeSet::new();
     let start_unit = if whole_table_in_base {
         Unit::Base
     } else {
         Unit::Local
     };
-    let start_state = TrackState {
-        unit: start_unit,
-        prices: Prices::RowYear,
-        per: None,
-    };
-    let mut batches: Vec<Vec<Expr>> = Vec::new();
-    let mut stage_columns: Vec<String> = Vec::new();
-    let mut extra_columns: Vec<String> = Vec::new();
-    let mut start = col("value");
-    {
-        let mut ctx = StepContext {
-            settings: &settings.step_settings,
-            track: Track::Adjusted,
-            needs: &mut needs,
-            deflator_used: None,
-        };
-        if start_unit == Unit::Local && check_currency {
-            // A figure in the base currency goes back to local currency at its year's market
-            // rate; a figure in a third currency cannot be converted with this entity's factors.
-            let local = if any_base {
-                when(col("_basis").eq(lit("base")))
-                    .then(
-                        col("value") * ctx.factor(crate::reference::Kind::Fx, adjust::At::RowYear),
-                    )
-                    .otherwise(col("value"))
-            } else {
-                col("value")
-            };
-            let lcu = when(col("_basis").eq(lit("mismatch")))
-                .then(lit(NULL).cast(DataType::Float64))
-                .otherwise(local);
-            batches.push(vec![lcu.alias("value_lcu")]);
-            stage_columns.push("value_lcu".into());
-            start = col("value_lcu");
-        }
-    }
-    let (adjusted, deflator_used) = build_track(
-        &settings.steps,
-        start.clone(),
-        start_state,
+    let TrackPlan {
+        batches,
+        stage_columns,
+        extra_columns,
+        needs,
+        deflator_used,
+        baseline_steps,
+    } = tracks::plan_tracks(
         settings,
-        &mut needs,
-        Track::Adjusted,
-        &mut batches,
-        &mut stage_columns,
-        &mut extra_columns,
+        &TrackStart {
+            unit: start_unit,
+            to_local: check_currency,
+            any_base,
+            with_se: settings.intervals.is_some(),
+        },
     )?;
-    let baseline_steps = adjust::baseline_steps(&settings.steps);
-    let (baseline, _) = build_track(
-        &baseline_steps,
-        start,
-        start_state,
-        settings,
-        &mut needs,
-        Track::Baseline,
-        &mut batches,
-        &mut Vec::new(),
-        &mut Vec::new(),
-    )?;
-    batches.push(vec![
-        adjusted.alias("value_adjusted"),
-        baseline.alias("value_baseline"),
-    ]);
 
     // Factors, joined once per distinct entity and year.
     let lookup = attach::lookup_frame(
@@ -297,23 +252,23 @@ pub fn run_adjust(
     .map(|s| s.to_string())
     .collect();
     order.extend(stage_columns.iter().cloned());
+    let uncertain = &settings.step_settings.uncertain_factors;
     for need in &needs {
         order.push(need.used_column());
+        if uncertain.contains(&need.kind) && need.whose == adjust::Whose::Entity {
+            order.push(need.se_column());
+        }
         order.push(need.year_column());
     }
     order.extend(extra_columns.iter().cloned());
-    order.extend(
-        [
-            "value_baseline",
-            "value_adjusted",
-            "rank_baseline",
-            "rank_adjusted",
-            "rank_shift",
-            "flags",
-        ]
-        .iter()
-        .map(|s| s.to_string()),
-    );
+    order.extend(["value_baseline", "value_adjusted"].map(String::from));
+    if settings.intervals.is_some() {
+        order.extend(["moe_baseline", "moe_adjusted", "ci_low", "ci_high"].map(String::from));
+    }
+    order.extend(["rank_baseline", "rank_adjusted", "rank_shift", "flags"].map(String::from));
+    if settings.intervals.is_some() {
+        order.extend(["_se_baseline", "_se_adjusted"].map(String::from));
+    }
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
     let frame = lf
         .sort(["_ord"], SortMultipleOptions::default())
@@ -321,6 +276,10 @@ pub fn run_adjust(
         .collect()
         .map_err(Error::engine("adjusting and ranking"))?;
 
+    let frame = match &settings.intervals {
+        Some(intervals) => finish_intervals(frame, intervals)?,
+        None => frame,
+    };
     if frame.height() != rows_in {
         return Err(Error::engine("checking that no row was lost")(polars_err!(
             ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
@@ -337,52 +296,35 @@ pub fn run_adjust(
     Ok(AdjustOutput { frame, summary })
 }
 
-#[allow(clippy::too_many_arguments)]
-fn build_track(
-    steps: &[&'static dyn Step],
-    start: Expr,
-    start_state: TrackState,
-    settings: &PipelineSettings,
-    needs: &mut BTreeSet<FactorNeed>,
-    track: Track,
-    batches: &mut Vec<Vec<Expr>>,
-    stage_columns: &mut Vec<String>,
-    extra_columns: &mut Vec<String>,
-) -> Result<(Expr, Option<adjust::Deflator>)> {
-    let mut ctx = StepContext {
-        settings: &settings.step_settings,
-        track,
-        needs,
-        deflator_used: None,
-    };
-    let mut state = start_state;
-    let mut current = start;
-    for step in steps {
-        let before = state;
-        let next = step.apply(current, &mut state, &mut ctx)?;
-        if track == Track::Adjusted {
-            let mut batch = vec![next.alias(step.column())];
-            for extra in step.extra_columns(&before, &mut ctx) {
-                if let Some(name) = expr_name(&extra) {
-                    extra_columns.push(name);
-                }
-                batch.push(extra);
-            }
-            batches.push(batch);
-            stage_columns.push(step.column().to_string());
-            current = col(step.column());
-        } else {
-            current = next;
-        }
-    }
-    Ok((current, ctx.deflator_used))
-}
-
-fn expr_name(expr: &Expr) -> Option<String> {
-    match expr {
-        Expr::Alias(_, name) => Some(name.to_string()),
-        _ => None,
-    }
+/// Adds rank intervals and ties, then puts the columns in their documented order.
+fn finish_intervals(frame: DataFrame, intervals: &IntervalSettings) -> Result<DataFrame> {
+    let frame = ranking::add_intervals(frame, intervals)?;
+    let mut names: Vec<String> = frame
+        .get_column_names()
+        .iter()
+        .map(|n| n.to_string())
+        .filter(|n| {
+            !n.starts_with('_')
+                && n != "flags"
+                && !n.starts_with("rank_baseline_")
+                && !n.starts_with("rank_adjusted_")
+                && n != "tied_with"
+        })
+        .collect();
+    names.extend(
+        [
+            "rank_baseline_low",
+            "rank_baseline_high",
+            "rank_adjusted_low",
+            "rank_adjusted_high",
+            "tied_with",
+            "flags",
+        ]
+        .map(String::from),
+    );
+    frame
+        .select(names)
+        .map_err(Error::engine("ordering the output columns"))
 }
 
 fn summarize(
@@ -437,6 +379,13 @@ fn summarize(
             ),
             _ => "PPP conversion at current PPPs: each figure at its own year's PPP".to_string(),
         });
+    }
+    if let Some(intervals) = &settings.intervals {
+        method_notes.push(format!(
+            "margins at {}% carried through every step (scaled by exact factors; ratio formulas for uncertain population or income: ACS General Handbook, ch. 8)",
+            intervals.level.percent()
+        ));
+        method_notes.push(intervals.describe());
     }
     if names.contains(&"per-capita") {
         method_notes.push(format!(

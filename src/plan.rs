@@ -3,10 +3,13 @@
 //! and validated, and the output is decided, all before any adjustment runs.
 
 use crate::adjust::{self, Step, StepSettings};
-use crate::cli::{AdjustArgs, ColumnArgs, OutputArgs};
+use crate::cli::{
+    AdjustArgs, ColumnArgs, IntervalKind, LeadArgs, OutputArgs, ShareUnit, UncertaintyArgs,
+};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::ingest::layout::{LayoutChoice, RoleFlags};
+use crate::ingest::margins::MarginSpec;
 use crate::ingest::number::NumberStyle;
 use crate::ingest::IngestOptions;
 use crate::pipeline::PipelineSettings;
@@ -14,6 +17,8 @@ use crate::reference::{self, Basis, Kind, References};
 use crate::report::format::Rounding;
 use crate::report::Format;
 use crate::source::{self, DiskDir};
+use crate::uncertainty::moe::Level;
+use crate::uncertainty::ranking::{IntervalMethod, IntervalSettings};
 use rust_decimal::Decimal;
 use std::io::{IsTerminal, Read};
 use std::path::{Path, PathBuf};
@@ -59,7 +64,8 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         Some(dir) => Some(load_refs(dir, &mut resolver)?),
         None => None,
     };
-    let ingest = ingest_options(&args.columns)?;
+    let mut ingest = ingest_options(&args.columns)?;
+    ingest.margins = margin_spec(&args.uncertainty)?;
     let settings = pipeline_settings(args, steps, ingest, references.as_ref());
     Ok(AdjustPlan {
         input_bytes,
@@ -86,6 +92,28 @@ pub fn pipeline_settings(
         .and_then(|r| r.get(Kind::Income))
         .map(|t| t.resource.basis)
         .unwrap_or(Basis::Lcu);
+    let uncertain_factors: std::collections::BTreeSet<Kind> = references
+        .map(|r| {
+            r.tables
+                .iter()
+                .filter(|t| t.has_margins())
+                .map(|t| t.resource.kind)
+                .collect()
+        })
+        .unwrap_or_default();
+    let u = &args.uncertainty;
+    let has_margins = ingest.margins != MarginSpec::None || !uncertain_factors.is_empty();
+    let intervals = has_margins.then(|| IntervalSettings {
+        level: u.moe_level.unwrap_or(Level::P90),
+        method: match u.rank_intervals {
+            IntervalKind::Joint => IntervalMethod::Joint(u.joint_adjustment),
+            IntervalKind::Simulate => IntervalMethod::Simulate {
+                draws: u.draws,
+                seed: u.seed,
+            },
+        },
+        order: args.order,
+    });
     PipelineSettings {
         ingest,
         steps,
@@ -96,12 +124,81 @@ pub fn pipeline_settings(
             income_as: args.income_as,
             income_basis,
             base_currency,
+            proportion: u.proportion,
+            uncertain_factors,
         },
         nearest_year: args.nearest_year,
         allow_unresolved: args.allow_unresolved,
         rank_aggregates: args.rank_aggregates,
         order: args.order,
+        intervals,
     }
+}
+
+/// The margin columns and level, checked: a margin without its level is refused.
+pub fn margin_spec(args: &UncertaintyArgs) -> Result<MarginSpec> {
+    let level_needed = |what: &str| {
+        Error::usage(
+            format!("{what} needs the confidence level it was stated at"),
+            "pass --moe-level 90, 95 or 99 (ACS and many agencies publish 90% margins; check the source's notes)",
+        )
+    };
+    Ok(
+        match (
+            &args.moe,
+            &args.se,
+            &args.ci_low,
+            &args.ci_high,
+            &args.sample_size,
+        ) {
+            (Some(column), ..) => MarginSpec::Moe {
+                column: column.clone(),
+                level: args.moe_level.ok_or_else(|| level_needed("--moe"))?,
+            },
+            (None, Some(column), ..) => MarginSpec::Se {
+                column: column.clone(),
+            },
+            (None, None, Some(low), Some(high), _) => MarginSpec::Ci {
+                low: low.clone(),
+                high: high.clone(),
+                level: args
+                    .moe_level
+                    .ok_or_else(|| level_needed("--ci-low/--ci-high"))?,
+            },
+            (None, None, None, None, Some(column)) => MarginSpec::SampleSize {
+                column: column.clone(),
+                percent: args.share_unit == ShareUnit::Percent,
+            },
+            _ => MarginSpec::None,
+        },
+    )
+}
+
+/// `levelfield lead`: the margin of a lead between two shares of one sample, in words.
+pub fn describe_lead(args: &LeadArgs) -> Result<String> {
+    let scale = if args.share_unit == ShareUnit::Percent {
+        100.0
+    } else {
+        1.0
+    };
+    let (p1, p2) = (args.first / scale, args.second / scale);
+    if !(0.0..=1.0).contains(&p1) || !(0.0..=1.0).contains(&p2) || p1 + p2 > 1.0 + 1e-9 {
+        return Err(Error::usage(
+            format!("shares {} and {} are not two parts of one whole", args.first, args.second),
+            "give two shares between 0 and 100 (or 0 and 1 with --share-unit fraction) that add up to at most 100",
+        ));
+    }
+    if !(args.n.is_finite() && args.n >= 1.0) {
+        return Err(Error::usage(
+            format!("sample size {} is not a count", args.n),
+            "pass -n with the number of respondents",
+        ));
+    }
+    let names: Vec<&str> = args.names.splitn(2, ',').map(str::trim).collect();
+    let (a, b) = (names[0], names.get(1).copied().unwrap_or("second"));
+    Ok(crate::uncertainty::poll::describe(
+        a, b, p1, p2, args.n, args.level,
+    ))
 }
 
 pub fn parse_steps(names: &[String]) -> Result<Vec<&'static dyn Step>> {
@@ -191,6 +288,7 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
             group: columns.group.clone(),
             currency: columns.currency.clone(),
             layout,
+            reserved: Vec::new(),
         },
         currency_code: columns
             .currency_code
@@ -201,6 +299,7 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
             decimal_comma: columns.decimal_comma,
         },
         lenient: columns.lenient,
+        margins: MarginSpec::None,
     })
 }
 

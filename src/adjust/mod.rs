@@ -104,6 +104,10 @@ impl FactorNeed {
         format!("{}_used", self.prefix())
     }
 
+    pub fn se_column(&self) -> String {
+        format!("{}_se", self.prefix())
+    }
+
     pub fn year_column(&self) -> String {
         format!("{}_year", self.prefix())
     }
@@ -154,6 +158,10 @@ pub struct StepSettings {
     pub income_as: IncomeAs,
     pub income_basis: Basis,
     pub base_currency: String,
+    /// Per-capita figures are proportions (people within the population).
+    pub proportion: bool,
+    /// Kinds whose reference tables carry standard errors (`<prefix>_se` columns).
+    pub uncertain_factors: BTreeSet<Kind>,
 }
 
 /// What a step sees while it is applied.
@@ -171,6 +179,16 @@ impl StepContext<'_> {
         let need = FactorNeed::entity(kind, at);
         self.needs.insert(need);
         need.col()
+    }
+
+    /// The standard error column of a factor, when its reference table carries one.
+    pub fn factor_se(&mut self, kind: Kind, at: At) -> Option<Expr> {
+        if !self.settings.uncertain_factors.contains(&kind) {
+            return None;
+        }
+        let need = FactorNeed::entity(kind, at);
+        self.needs.insert(need);
+        Some(col(need.se_column()))
     }
 
     pub fn base_currency_factor(&mut self, kind: Kind, at: At) -> Expr {
@@ -208,6 +226,36 @@ pub trait Step: Sync {
     fn extra_columns(&self, _state_before: &TrackState, _ctx: &mut StepContext) -> Vec<Expr> {
         Vec::new()
     }
+    /// The standard error after the step, given the value and its standard error before it.
+    /// By default the step multiplies by exact factors, so the error scales by the same factors
+    /// (ACS General Handbook, ch. 8: an estimate times a constant has its margin times it).
+    fn propagate(
+        &self,
+        _value_before: Expr,
+        se_before: Expr,
+        state_before: &TrackState,
+        ctx: &mut StepContext,
+    ) -> Result<Expr> {
+        let mut state = *state_before;
+        self.apply(se_before, &mut state, ctx)
+    }
+}
+
+/// Standard error of X / Y with an uncertain Y: (1/Y)·sqrt(SE_X² + (X/Y)²·SE_Y²); for a proportion
+/// (X a subset of Y) the minus form, falling back to the ratio form when the value under the root
+/// is negative (U.S. Census Bureau, ACS General Handbook 2018/2020, ch. 8).
+pub fn ratio_se(x: Expr, se_x: Expr, y: Expr, se_y: Expr, proportion: bool) -> Expr {
+    let r = x / y.clone();
+    let ratio = (se_x.clone() * se_x.clone() + r.clone() * r.clone() * se_y.clone() * se_y.clone())
+        .sqrt()
+        / y.clone();
+    if !proportion {
+        return ratio;
+    }
+    let under = se_x.clone() * se_x - r.clone() * r * se_y.clone() * se_y;
+    when(under.clone().lt(lit(0.0)))
+        .then(ratio)
+        .otherwise(under.sqrt() / y)
 }
 
 /// Every step, in the order the methods note lists them.

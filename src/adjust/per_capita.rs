@@ -44,4 +44,31 @@ impl Step for PerCapita {
         state.per = Some(per);
         Ok(value / ctx.factor(Kind::Population, At::RowYear) * lit(per as f64))
     }
+
+    fn propagate(
+        &self,
+        value_before: Expr,
+        se_before: Expr,
+        _state_before: &TrackState,
+        ctx: &mut StepContext,
+    ) -> Result<Expr> {
+        let per = lit(ctx.settings.per as f64);
+        let population = ctx.factor(Kind::Population, At::RowYear);
+        let proportion = ctx.settings.proportion;
+        Ok(match ctx.factor_se(Kind::Population, At::RowYear) {
+            Some(se_population) => {
+                super::ratio_se(
+                    value_before,
+                    se_before,
+                    population,
+                    se_population,
+                    proportion,
+                ) * per
+            }
+            None if proportion => {
+                super::ratio_se(value_before, se_before, population, lit(0.0), true) * per
+            }
+            None => se_before / population * per,
+        })
+    }
 }

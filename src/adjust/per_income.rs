@@ -67,4 +67,37 @@ impl Step for PerIncome {
             IncomeAs::Days => numerator / (income_local / lit(365.0)),
         })
     }
+
+    fn propagate(
+        &self,
+        value_before: Expr,
+        se_before: Expr,
+        state_before: &TrackState,
+        ctx: &mut StepContext,
+    ) -> Result<Expr> {
+        let Some(income_se) = ctx.factor_se(Kind::Income, At::RowYear) else {
+            let mut state = *state_before;
+            return self.apply(se_before, &mut state, ctx);
+        };
+        // Both sides in local currency, as in `apply`; the conversions are exact factors.
+        let to_local = |x: Expr, unit: Unit, ctx: &mut StepContext| match unit {
+            Unit::Base => x * ctx.factor(Kind::Fx, At::RowYear),
+            Unit::Intl => x * ctx.factor(Kind::Ppp, At::RowYear),
+            _ => x,
+        };
+        let numerator = to_local(value_before, state_before.unit, ctx);
+        let numerator_se = to_local(se_before, state_before.unit, ctx);
+        let basis_unit = match ctx.settings.income_basis {
+            Basis::Lcu => Unit::Local,
+            Basis::Base => Unit::Base,
+            Basis::Intl => Unit::Intl,
+        };
+        let income = to_local(ctx.factor(Kind::Income, At::RowYear), basis_unit, ctx);
+        let income_se = to_local(income_se, basis_unit, ctx);
+        let share_se = super::ratio_se(numerator, numerator_se, income, income_se, false);
+        Ok(match ctx.settings.income_as {
+            IncomeAs::Share => share_se,
+            IncomeAs::Days => share_se * lit(365.0),
+        })
+    }
 }

@@ -24,6 +24,7 @@ pub struct Roles {
     pub entity_detected: bool,
     pub group: Option<usize>,
     pub currency: Option<usize>,
+    pub reserved: Vec<usize>,
     pub shape: Shape,
     pub ignored: Vec<String>,
 }
@@ -56,6 +57,8 @@ pub struct RoleFlags {
     pub group: Option<String>,
     pub currency: Option<String>,
     pub layout: LayoutChoice,
+    /// Columns used for something else (margins of error), kept out of detection.
+    pub reserved: Vec<String>,
 }
 
 const ENTITY_WORDS: &[&str] = &[
@@ -133,6 +136,12 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
         .transpose()?;
     taken.extend(group);
     taken.extend(currency);
+    let reserved = flags
+        .reserved
+        .iter()
+        .map(|r| find("--moe/--se/--ci-low/--ci-high/--sample-size", r))
+        .collect::<Result<Vec<_>>>()?;
+    taken.extend(reserved.iter().copied());
 
     let (entity, entity_detected) = match &flags.entity {
         Some(name) => (find("--entity", name)?, false),
@@ -188,6 +197,7 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
         entity_detected,
         group,
         currency,
+        reserved,
         shape,
         ignored,
     })

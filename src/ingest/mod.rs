@@ -7,6 +7,7 @@
 
 pub mod encoding;
 pub mod layout;
+pub mod margins;
 pub mod number;
 pub mod table;
 
@@ -27,6 +28,7 @@ pub struct IngestOptions {
     pub value_multiplier: Option<Decimal>,
     pub number_style: NumberStyle,
     pub lenient: bool,
+    pub margins: margins::MarginSpec,
 }
 
 /// One figure of the input.
@@ -39,6 +41,8 @@ pub struct CanonicalRow {
     pub group: Option<String>,
     pub value_input: String,
     pub value: Option<f64>,
+    /// Standard error of `value`, in its unit, when margins were given.
+    pub se: Option<f64>,
     pub currency: Option<String>,
     pub flags: Vec<String>,
 }
@@ -61,7 +65,15 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         None => table::sniff_delimiter(&decoded.text),
     };
     let table = table::read_table(&decoded.text, delimiter, file)?;
-    let roles = layout::assign_roles(&table, &options.roles, file)?;
+    let mut role_flags = options.roles.clone();
+    role_flags.reserved = options.margins.columns();
+    let roles = layout::assign_roles(&table, &role_flags, file)?;
+    if !role_flags.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
+        return Err(Error::usage(
+            "margins of error need a long table (one row per entity and year, with the margin beside the value)",
+            "reshape the table to long form, or pass --long with --year and --value",
+        ));
+    }
 
     let mut notes = vec![format!(
         "read {file}: {}, {} delimiter, {} data line(s)",
@@ -108,6 +120,9 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     if !roles.ignored.is_empty() {
         notes.push(format!("columns not used: {}", roles.ignored.join(", ")));
     }
+    if let Some(text) = options.margins.describe() {
+        notes.push(format!("uncertainty: {text}"));
+    }
     if let Some(m) = options.value_multiplier {
         notes.push(format!(
             "every value multiplied by {m} (--value-multiplier) before any step"
@@ -146,7 +161,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                         &mut row_flags,
                     )?,
                 };
-                rows.push(reader.row(
+                let mut row = reader.row(
                     data_row.to_string(),
                     record.line,
                     entity_input,
@@ -156,7 +171,25 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                     &table.headers[*value],
                     currency_cell,
                     row_flags,
-                )?);
+                )?;
+                let cells = margins::MarginCells {
+                    cells: roles
+                        .reserved
+                        .iter()
+                        .map(|&i| (table.headers[i].as_str(), record.cells[i].as_str()))
+                        .collect(),
+                };
+                let multiplier = options.value_multiplier.map(number::to_f64).unwrap_or(1.0);
+                row.se = margins::standard_error(
+                    &options.margins,
+                    row.value,
+                    &cells,
+                    multiplier,
+                    file,
+                    record.line,
+                    &mut row.flags,
+                )?;
+                rows.push(row);
             }
             Shape::Wide { year_columns } => {
                 for &(column, year) in year_columns {
@@ -261,6 +294,7 @@ impl RowReader<'_> {
             group,
             value_input: cell.to_string(),
             value,
+            se: None,
             currency,
             flags: row_flags,
         })

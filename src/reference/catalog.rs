@@ -91,6 +91,10 @@ pub struct Resource {
     pub year_field: Option<String>,
     pub value_field: Option<String>,
     pub basis: Basis,
+    /// Column of standard errors (long tables), or of margins at `moe_level`.
+    pub se_field: Option<String>,
+    pub moe_field: Option<String>,
+    pub moe_level: Option<u32>,
 }
 
 #[derive(Debug, Clone, serde::Serialize)]
@@ -130,6 +134,9 @@ struct RawResource {
     year_field: Option<String>,
     value_field: Option<String>,
     basis: Option<String>,
+    se_field: Option<String>,
+    moe_field: Option<String>,
+    moe_level: Option<u32>,
 }
 
 /// Parses and checks a catalog; `file` names it in messages.
@@ -209,6 +216,22 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
                 ))
             }
         };
+        if r.moe_field.is_some() && !matches!(r.moe_level, Some(90 | 95 | 99)) {
+            return Err(fail(
+                "moe_field without a moe_level of 90, 95 or 99".into(),
+                "the confidence level the margins are stated at",
+                "add \"moe_level\": 90 (or 95, 99)",
+            ));
+        }
+        if (r.moe_field.is_some() || r.se_field.is_some())
+            && !matches!(kind, Kind::Population | Kind::Income)
+        {
+            return Err(fail(
+                format!("margins on a {} table", kind.as_str()),
+                "margins only on population and income tables (fx, ppp and cpi are treated as exact)",
+                "remove se_field / moe_field from this resource",
+            ));
+        }
         let base_currency = r
             .base_currency
             .clone()
@@ -232,6 +255,9 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
             year_field: r.year_field,
             value_field: r.value_field,
             basis,
+            se_field: r.se_field,
+            moe_field: r.moe_field,
+            moe_level: r.moe_level,
         });
     }
     for (i, a) in resources.iter().enumerate() {

@@ -20,6 +20,8 @@ pub struct RefTable {
     pub resource: Resource,
     pub file: String,
     pub series: HashMap<String, BTreeMap<i32, f64>>,
+    /// Standard errors of the factors, when the catalog names a margin column.
+    pub se: HashMap<(String, i32), f64>,
     /// Entity names in the table that resolve to nothing, with their first line.
     pub unresolved: Vec<(String, usize)>,
     pub rows_read: usize,
@@ -30,6 +32,17 @@ pub struct RefTable {
 pub struct Factor {
     pub value: f64,
     pub year: i32,
+}
+
+impl RefTable {
+    pub fn has_margins(&self) -> bool {
+        self.resource.se_field.is_some() || self.resource.moe_field.is_some()
+    }
+
+    /// The standard error of the factor of `code` in `year`.
+    pub fn se_of(&self, code: &str, year: i32) -> Option<f64> {
+        self.se.get(&(code.to_string(), year)).copied()
+    }
 }
 
 impl RefTable {
@@ -79,13 +92,28 @@ pub fn load_table(
         value: resource.value_field.clone(),
         year: resource.year_field.clone(),
         layout: resource.layout,
+        reserved: resource
+            .se_field
+            .iter()
+            .chain(resource.moe_field.iter())
+            .cloned()
+            .collect(),
         ..Default::default()
     };
     let roles = layout::assign_roles(&text_table, &flags, file)?;
+    if !roles.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
+        return Err(Error::bad_input(
+            Location::file(file),
+            "a margin column in a wide table",
+            "a long table (entity, year, value, margin) when the catalog names se_field or moe_field",
+            "reshape the table to long form, or remove the margin property from the catalog",
+        ));
+    }
     let mut loaded = RefTable {
         resource: resource.clone(),
         file: file.to_string(),
         series: HashMap::new(),
+        se: HashMap::new(),
         unresolved: Vec::new(),
         rows_read: 0,
     };
@@ -161,6 +189,24 @@ pub fn load_table(
                 .entry(code.clone())
                 .or_default()
                 .insert(year, value * resource.multiplier);
+            if let Some(&margin_column) = roles.reserved.first() {
+                let margin_cell = &record.cells[margin_column];
+                if let Ok(Cell::Number { value: margin, .. }) =
+                    number::parse_cell(margin_cell, NumberStyle::default())
+                {
+                    let margin = number::to_f64(margin) * resource.multiplier;
+                    let se = match (resource.moe_field.is_some(), resource.moe_level) {
+                        (true, Some(level)) => {
+                            margin
+                                / crate::uncertainty::normal::two_sided_critical(
+                                    level as f64 / 100.0,
+                                )
+                        }
+                        _ => margin,
+                    };
+                    loaded.se.insert((code.clone(), year), se);
+                }
+            }
             loaded.rows_read += 1;
         }
     }

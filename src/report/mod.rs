@@ -145,10 +145,52 @@ fn reader_rows(frame: &DataFrame, rounding: Rounding) -> (Vec<&'static str>, Vec
     let years = column_texts(frame, "year", rounding, true);
     let groups = column_texts(frame, "group", rounding, true);
     let given = column_texts(frame, "value_input", rounding, true);
-    let baseline = column_texts(frame, "value_baseline", rounding, true);
-    let adjusted = column_texts(frame, "value_adjusted", rounding, true);
-    let rank_b = column_texts(frame, "rank_baseline", rounding, false);
-    let rank_a = column_texts(frame, "rank_adjusted", rounding, false);
+    let uncertain = frame.column("moe_adjusted").is_ok();
+    let with_margin = |value: &str, margin: &str| -> Vec<String> {
+        let values = column_texts(frame, value, rounding, true);
+        if !uncertain {
+            return values;
+        }
+        let margins = column_texts(frame, margin, rounding, true);
+        values
+            .into_iter()
+            .zip(margins)
+            .map(|(v, m)| {
+                if v.is_empty() || m.is_empty() {
+                    v
+                } else {
+                    format!("{v} ± {m}")
+                }
+            })
+            .collect()
+    };
+    let with_range = |rank: &str, low: &str, high: &str| -> Vec<String> {
+        let ranks = column_texts(frame, rank, rounding, false);
+        if !uncertain {
+            return ranks;
+        }
+        let lows = column_texts(frame, low, rounding, false);
+        let highs = column_texts(frame, high, rounding, false);
+        (0..ranks.len())
+            .map(|i| match (ranks[i].is_empty(), lows[i] == highs[i]) {
+                (true, _) => String::new(),
+                (false, true) => format!("{} ({})", ranks[i], lows[i]),
+                (false, false) => format!("{} ({}–{})", ranks[i], lows[i], highs[i]),
+            })
+            .collect()
+    };
+    let baseline = with_margin("value_baseline", "moe_baseline");
+    let adjusted = with_margin("value_adjusted", "moe_adjusted");
+    let rank_b = with_range("rank_baseline", "rank_baseline_low", "rank_baseline_high");
+    let mut rank_a = with_range("rank_adjusted", "rank_adjusted_low", "rank_adjusted_high");
+    if uncertain {
+        let ties = column_texts(frame, "tied_with", rounding, false);
+        for (rank, tie) in rank_a.iter_mut().zip(ties) {
+            if !tie.is_empty() {
+                rank.push_str(" ≈");
+            }
+        }
+    }
     let shift = column_texts(frame, "rank_shift", rounding, false);
     let flags = column_texts(frame, "flags", rounding, false);
     let mut header = vec!["entity", "year"];
@@ -218,7 +260,18 @@ pub fn render_table(frame: &DataFrame, summary: &RunSummary, rounding: Rounding)
     out.push('\n');
     out.push_str(&summary::units_line(summary));
     out.push('\n');
+    out.push_str(&uncertainty_legend(frame));
     out
+}
+
+/// How to read margins, rank ranges and the tie mark, when they are shown.
+fn uncertainty_legend(frame: &DataFrame) -> String {
+    if frame.column("moe_adjusted").is_err() {
+        return String::new();
+    }
+    "± margin of error; rank (low–high): the ranks the entity could hold given every margin; \
+     ≈ not significantly different from a rank neighbour; a shift flagged within_uncertainty is not a finding\n"
+        .to_string()
 }
 
 pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> String {
@@ -240,6 +293,7 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
     out.push('\n');
     out.push_str(&summary::units_line(summary));
     out.push('\n');
+    out.push_str(&uncertainty_legend(frame));
     out
 }
 

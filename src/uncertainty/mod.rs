@@ -11,3 +11,4 @@ pub mod intervals;
 pub mod moe;
 pub mod normal;
 pub mod poll;
+pub mod ranking;
