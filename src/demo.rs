@@ -25,7 +25,21 @@ pub const DEMO_ARGS: &[&str] = &[
     "2023",
 ];
 
+/// The second scenario: survey estimates with margins of error (`levelfield demo --margins`).
+pub const DEMO_MARGIN_ARGS: &[&str] = &[
+    "demo/transit-spending-survey.csv",
+    "--refs",
+    "reference-tables",
+    "--steps",
+    "ppp",
+    "--moe",
+    "moe90",
+    "--moe-level",
+    "90",
+];
+
 pub const DEMO_INPUT: &str = include_str!("../demo/transit-pass-fees.csv");
+pub const DEMO_MARGIN_INPUT: &str = include_str!("../demo/transit-spending-survey.csv");
 
 pub static DEMO_REFERENCES: Embedded = Embedded {
     prefix: "reference-tables",
@@ -48,13 +62,22 @@ pub static DEMO_REFERENCES: Embedded = Embedded {
     ],
 };
 
+const MARGIN_BANNER: &str = "INVENTED DATA: twelve fictional countries, their made-up currencies and made-up reference tables.\n\
+Average monthly household spending on public transport, 2023, local currency, from an invented household survey\n\
+with 90% margins of error.\n";
+
 const BANNER: &str = "INVENTED DATA: twelve fictional countries, their made-up currencies and made-up reference tables.\n\
 Yearly fee for a standard adult public-transport pass in each capital, 2019 and 2023, local currency.\n";
 
 /// Builds the demo's plan from the embedded files.
 pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
+    let demo_args = if args.margins {
+        DEMO_MARGIN_ARGS
+    } else {
+        DEMO_ARGS
+    };
     let mut argv = vec!["levelfield", "adjust"];
-    argv.extend_from_slice(DEMO_ARGS);
+    argv.extend_from_slice(demo_args);
     let cli = Cli::try_parse_from(argv)
         .map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
     let Command::Adjust(adjust) = cli.command else {
@@ -71,8 +94,14 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
     ingest.margins = plan::margin_spec(&adjust.uncertainty)?;
     let settings = plan::pipeline_settings(&adjust, steps, ingest, Some(&references));
     Ok(plan::AdjustPlan {
-        input_bytes: DEMO_INPUT.as_bytes().to_vec(),
-        input_label: DEMO_ARGS[0].to_string(),
+        input_bytes: if args.margins {
+            DEMO_MARGIN_INPUT
+        } else {
+            DEMO_INPUT
+        }
+        .as_bytes()
+        .to_vec(),
+        input_label: demo_args[0].to_string(),
         settings,
         resolver,
         references: Some(references),
@@ -102,12 +131,12 @@ pub fn run(args: &DemoArgs) -> Result<Outcome> {
     }
     let plan = demo_plan(args)?;
     if plan.output.format == crate::report::Format::Table {
-        print!("{BANNER}");
+        print!("{}", if args.margins { MARGIN_BANNER } else { BANNER });
     }
     crate::execute(&plan)?;
     eprintln!(
         "reproduce with: levelfield demo --extract levelfield-demo && cd levelfield-demo && levelfield adjust {}",
-        DEMO_ARGS.join(" ")
+        if args.margins { DEMO_MARGIN_ARGS } else { DEMO_ARGS }.join(" ")
     );
     Ok(Outcome::Ok)
 }
@@ -123,6 +152,7 @@ pub fn extract(dir: &std::path::Path) -> Result<()> {
         crate::report::write_atomically(&path, text)
     };
     write("demo/transit-pass-fees.csv", DEMO_INPUT)?;
+    write("demo/transit-spending-survey.csv", DEMO_MARGIN_INPUT)?;
     for (name, text) in DEMO_REFERENCES.files {
         write(&format!("reference-tables/{name}"), text)?;
     }

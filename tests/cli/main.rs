@@ -7,6 +7,7 @@ mod errors;
 mod golden;
 mod published;
 mod refs;
+mod uncertainty;
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
