@@ -2,6 +2,7 @@
 //! (numbers, enums, conflicts); nothing touches a file until `plan` resolves them.
 
 use crate::adjust::{self, Deflator, IncomeAs};
+use crate::audit::Severity;
 use crate::ingest::encoding::EncodingChoice;
 use crate::rank::Order;
 use crate::report::Format;
@@ -34,6 +35,75 @@ pub enum Command {
     Demo(DemoArgs),
     /// Is a lead between two shares of one poll larger than its margin of error?
     Lead(LeadArgs),
+    /// Check a received table: recompute its claimed figures and explain each discrepancy.
+    Audit(Box<AuditArgs>),
+}
+
+#[derive(Debug, Args)]
+pub struct AuditArgs {
+    /// The table to check (CSV or TSV, long layout), or `-` for standard input.
+    #[arg(value_name = "INPUT")]
+    pub input: String,
+
+    /// Folder of reference tables described by a datapackage.json.
+    #[arg(long, value_name = "DIR")]
+    pub refs: PathBuf,
+
+    /// What a column claims, ROLE=COL (repeatable). Roles: usd, intl, real, per-capita, share,
+    /// change, rank. Without --claim, roles are suggested by header words and the report says so.
+    #[arg(long, value_name = "ROLE=COL")]
+    pub claim: Vec<String>,
+
+    /// Base year of `real` claims.
+    #[arg(long, value_name = "YYYY")]
+    pub base_year: Option<i32>,
+
+    /// Per-capita scale the table states: 1, 1000, 100000 or 1000000.
+    #[arg(long, default_value_t = 1, value_parser = parse_per, value_name = "N")]
+    pub per: u32,
+
+    /// Order of claimed ranks: desc means the largest value is rank 1.
+    #[arg(long, value_enum, default_value_t = Order::Desc)]
+    pub order: Order,
+
+    /// Exit with code 1 when a finding at or above this severity exists.
+    #[arg(long, value_enum, default_value_t = Severity::Error)]
+    pub fail_on: Severity,
+
+    /// Provenance columns, KEY=COL comma-separated: n (sample size), source, coverage.
+    #[arg(long, value_name = "n=COL,source=COL,coverage=COL")]
+    pub note_cols: Option<String>,
+
+    /// Samples smaller than this are reported as a caution.
+    #[arg(long, default_value_t = 100.0, value_name = "N")]
+    pub min_n: f64,
+
+    /// CSV of extra entity names and user-defined entities.
+    #[arg(long, value_name = "FILE")]
+    pub aliases: Vec<PathBuf>,
+
+    /// Keep rows whose entity matches nothing instead of stopping.
+    #[arg(long)]
+    pub allow_unresolved: bool,
+
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+
+    /// Report format: table (terminal), md (an editor's memo) or json.
+    #[arg(long, value_enum, default_value_t = AuditFormat::Table)]
+    pub format: AuditFormat,
+
+    /// Write the report to FILE (atomically) instead of standard output.
+    #[arg(short = 'o', long = "output", value_name = "FILE")]
+    pub output: Option<PathBuf>,
+}
+
+/// Formats of the audit report.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum AuditFormat {
+    Table,
+    Md,
+    Json,
 }
 
 #[derive(Debug, Args)]

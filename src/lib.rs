@@ -10,6 +10,9 @@
 //! - `attach`: reference factors per entity and year, with their years and flags
 //! - `adjust`: the registry of adjustment steps (market, ppp, deflate, per-capita, per-income)
 //! - `rank`: standard competition ranks and rank shifts
+//! - `uncertainty`: margins of error, rank intervals, ties, poll leads
+//! - `tracks`: both tracks as polars expressions, standard errors alongside
+//! - `audit`: recomputing a received table's claims and diagnosing discrepancies
 //! - `pipeline`: the adjust run from bytes to the output frame and its summary
 //! - `report`: terminal table, csv, md, json, atomic writes, the run summary
 //! - `demo`: the bundled invented scenario
@@ -17,6 +20,7 @@
 
 pub mod adjust;
 pub mod attach;
+pub mod audit;
 pub mod cli;
 pub mod demo;
 pub mod entity;
@@ -69,6 +73,30 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             })
         }
         Command::Demo(args) => demo::run(&args),
+        Command::Audit(args) => {
+            let plan = plan::resolve_audit(&args)?;
+            let report = audit::run_audit(
+                &plan.input_bytes,
+                &plan.input_label,
+                &plan.settings,
+                &plan.resolver,
+                &plan.references,
+            )?;
+            let text = match args.format {
+                cli::AuditFormat::Table => audit::report::render_text(&report),
+                cli::AuditFormat::Md => audit::report::render_markdown(&report),
+                cli::AuditFormat::Json => audit::report::render_json(&report),
+            };
+            match &args.output {
+                Some(path) => report::write_atomically(path, &text)?,
+                None => print!("{text}"),
+            }
+            Ok(if report.fails(args.fail_on) {
+                Outcome::Findings
+            } else {
+                Outcome::Ok
+            })
+        }
         Command::Lead(args) => {
             print!("{}", plan::describe_lead(&args)?);
             Ok(Outcome::Ok)

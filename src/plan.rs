@@ -135,6 +135,56 @@ pub fn pipeline_settings(
     }
 }
 
+/// A resolved audit: input read, aliases and references loaded, claims parsed.
+pub struct AuditPlan {
+    pub input_bytes: Vec<u8>,
+    pub input_label: String,
+    pub settings: crate::audit::AuditSettings,
+    pub resolver: Resolver,
+    pub references: References,
+}
+
+pub fn resolve_audit(args: &crate::cli::AuditArgs) -> Result<AuditPlan> {
+    let claims = args
+        .claim
+        .iter()
+        .map(|c| crate::audit::claims::parse_claim(c))
+        .collect::<Result<Vec<_>>>()?;
+    let notes = match &args.note_cols {
+        Some(text) => crate::audit::NoteColumns::parse(text)?,
+        None => crate::audit::NoteColumns::default(),
+    };
+    let (input_bytes, input_label) = read_input(&args.input)?;
+    if let Some(out) = &args.output {
+        refuse_overwrite(out, &args.input, Some(&args.refs), &args.aliases)?;
+    }
+    let mut resolver = Resolver::builtin();
+    for path in &args.aliases {
+        resolver.add_alias_file(path)?;
+    }
+    let references = load_refs(&args.refs, &mut resolver)?;
+    let mut ingest = ingest_options(&args.columns)?;
+    if ingest.roles.layout == LayoutChoice::Auto {
+        ingest.roles.layout = LayoutChoice::Long;
+    }
+    Ok(AuditPlan {
+        input_bytes,
+        input_label,
+        settings: crate::audit::AuditSettings {
+            ingest,
+            claims,
+            base_year: args.base_year,
+            per: args.per,
+            order: args.order,
+            notes,
+            min_n: args.min_n,
+            allow_unresolved: args.allow_unresolved,
+        },
+        resolver,
+        references,
+    })
+}
+
 /// The margin columns and level, checked: a margin without its level is refused.
 pub fn margin_spec(args: &UncertaintyArgs) -> Result<MarginSpec> {
     let level_needed = |what: &str| {
@@ -300,6 +350,7 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
         },
         lenient: columns.lenient,
         margins: MarginSpec::None,
+        extra_columns: Vec::new(),
     })
 }
 

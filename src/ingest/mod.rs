@@ -29,6 +29,8 @@ pub struct IngestOptions {
     pub number_style: NumberStyle,
     pub lenient: bool,
     pub margins: margins::MarginSpec,
+    /// Columns carried as text (the claimed figures of `audit`); they need a long table.
+    pub extra_columns: Vec<String>,
 }
 
 /// One figure of the input.
@@ -45,6 +47,8 @@ pub struct CanonicalRow {
     pub se: Option<f64>,
     pub currency: Option<String>,
     pub flags: Vec<String>,
+    /// The text of `IngestOptions::extra_columns`, in their order (long tables only).
+    pub extra: Vec<String>,
 }
 
 /// The rows and what was decided while reading them (for the run summary).
@@ -66,11 +70,15 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     };
     let table = table::read_table(&decoded.text, delimiter, file)?;
     let mut role_flags = options.roles.clone();
+    let margin_count = options.margins.columns().len();
     role_flags.reserved = options.margins.columns();
+    role_flags
+        .reserved
+        .extend(options.extra_columns.iter().cloned());
     let roles = layout::assign_roles(&table, &role_flags, file)?;
     if !role_flags.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
         return Err(Error::usage(
-            "margins of error need a long table (one row per entity and year, with the margin beside the value)",
+            "margin and claim columns need a long table (one row per entity and year, with the margin or claim beside the value)",
             "reshape the table to long form, or pass --long with --year and --value",
         ));
     }
@@ -173,8 +181,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                     row_flags,
                 )?;
                 let cells = margins::MarginCells {
-                    cells: roles
-                        .reserved
+                    cells: roles.reserved[..margin_count]
                         .iter()
                         .map(|&i| (table.headers[i].as_str(), record.cells[i].as_str()))
                         .collect(),
@@ -189,6 +196,10 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                     record.line,
                     &mut row.flags,
                 )?;
+                row.extra = roles.reserved[margin_count..]
+                    .iter()
+                    .map(|&i| record.cells[i].clone())
+                    .collect();
                 rows.push(row);
             }
             Shape::Wide { year_columns } => {
@@ -295,6 +306,7 @@ impl RowReader<'_> {
             value_input: cell.to_string(),
             value,
             se: None,
+            extra: Vec::new(),
             currency,
             flags: row_flags,
         })

@@ -3,6 +3,7 @@
 //! a runner; `LEVELFIELD_UPDATE_GOLDEN=1 cargo test` rewrites the golden files.
 
 mod adjust;
+mod audit;
 mod errors;
 mod golden;
 mod published;

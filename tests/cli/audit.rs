@@ -1,0 +1,255 @@
+//! `levelfield audit` on tables built from the demo scenario: a clean control (figures rounded
+//! to 0, 1 and 2 decimals) and a table with one of each known fault.
+
+use crate::{setup, Env, Run};
+
+const CLAIMS: &[&str] = &[
+    "--value",
+    "budget",
+    "--claim",
+    "intl=budget_intl",
+    "--claim",
+    "usd=budget_usd",
+    "--claim",
+    "per-capita=budget_per_1000",
+    "--per",
+    "1000",
+    "--claim",
+    "rank=rank_intl",
+];
+
+fn audit(env: &Env, file: &str, extra: &[&str]) -> Run {
+    let input = env.data(&format!("audit/{file}"));
+    let refs = env.repo.join("reference-tables").display().to_string();
+    let aliases = env.data("audit/aliases.csv");
+    let mut args = vec![
+        "audit",
+        input.as_str(),
+        "--refs",
+        refs.as_str(),
+        "--aliases",
+        aliases.as_str(),
+    ];
+    args.extend_from_slice(CLAIMS);
+    args.extend_from_slice(extra);
+    env.run(&args)
+}
+
+#[test]
+fn a_clean_table_has_no_findings_and_exits_zero() {
+    let env = setup();
+    let run = audit(&env, "clean.csv", &[]);
+    assert_eq!(run.code, 0, "{}{}", run.stdout, run.stderr);
+    assert!(
+        run.stdout
+            .contains("48 claimed figure(s) checked; 0 error(s), 0 warning(s), 0 caution(s)"),
+        "{}",
+        run.stdout
+    );
+    assert!(run.stdout.contains("No findings"));
+}
+
+#[test]
+fn every_planted_fault_is_found_with_its_cause_and_the_exit_code_is_one() {
+    let env = setup();
+    let run = audit(&env, "faulty.csv", &["--format", "json"]);
+    assert_eq!(run.code, 1, "{}", run.stderr);
+    let report: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    let findings = report["findings"].as_array().unwrap();
+    let cause_of = |entity: &str, check: &str| -> String {
+        findings
+            .iter()
+            .find(|f| f["entity"] == entity && f["check"] == check)
+            .map(|f| f["cause"].as_str().unwrap().to_string())
+            .unwrap_or_else(|| panic!("no {check} finding for {entity}: {findings:#?}"))
+    };
+    assert!(cause_of("Brenmark", "intl").contains("market exchange rate was used where a PPP"));
+    assert!(cause_of("Caldoria", "intl").contains("PPP of 2022 was used instead of 2023"));
+    assert!(cause_of("Dunmere", "per-capita")
+        .contains("per 100,000 people but the table says per 1,000"));
+    assert!(cause_of("Felmarch", "intl").contains("matches the recomputation for Gravonia"));
+    assert!(cause_of("Gravonia", "intl").contains("matches the recomputation for Felmarch"));
+    assert!(cause_of("Tessaly Sea", "rank").contains("aggregate but is ranked"));
+    // Rows without a planted fault have no claim finding.
+    for clean in [
+        "Arvelia",
+        "Eskaros",
+        "Hollenreach",
+        "Isperia",
+        "Korvath",
+        "Lunmoor",
+    ] {
+        assert!(
+            !findings.iter().any(|f| f["entity"] == clean),
+            "{clean}: {findings:#?}"
+        );
+    }
+    let text = audit(&env, "faulty.csv", &[]);
+    assert!(text.stdout.contains("ERROR ("), "{}", text.stdout);
+    let memo = audit(&env, "faulty.csv", &["--format", "md"]);
+    assert!(memo.stdout.starts_with("# Audit memo"), "{}", memo.stdout);
+    assert!(memo.stdout.contains("| line | entity | check |"));
+}
+
+/// A small reference folder: PPP 0.2 for France (a price level that multiplies rounding by 5),
+/// CPI for 2020 and 2023.
+fn small_refs(env: &Env) -> String {
+    let refs = env.path("refs");
+    std::fs::create_dir_all(&refs).unwrap();
+    std::fs::write(
+        refs.join("datapackage.json"),
+        r#"{"resources":[{"name":"p","path":"ppp.csv","kind":"ppp"},{"name":"c","path":"cpi.csv","kind":"cpi"}]}"#,
+    )
+    .unwrap();
+    std::fs::write(
+        refs.join("ppp.csv"),
+        "country,2019,2020\nFrance,0.2,0.2\nChile,400,420\n",
+    )
+    .unwrap();
+    std::fs::write(
+        refs.join("cpi.csv"),
+        "country,2020,2023\nFrance,100,120\nChile,100,130\n",
+    )
+    .unwrap();
+    refs.display().to_string()
+}
+
+#[test]
+fn rounding_tolerance_follows_both_the_claim_and_the_raw_figure() {
+    // A raw figure rounded to whole units (±0.5) divided by a PPP of 0.2 may honestly be off by
+    // 2.5 units, plus half a unit of the claim's own last digit (common practice in statistical
+    // publishing, no source).
+    let env = setup();
+    let refs = small_refs(&env);
+    let within = env.write(
+        "within.csv",
+        "country,year,value,intl\nFrance,2020,100,502.5\n",
+    );
+    let run = env.run(&["audit", &within, "--refs", &refs, "--claim", "intl=intl"]);
+    assert_eq!(run.code, 0, "{}", run.stdout);
+    let beyond = env.write(
+        "beyond.csv",
+        "country,year,value,intl\nFrance,2020,100,502.7\n",
+    );
+    let run = env.run(&["audit", &beyond, "--refs", &refs, "--claim", "intl=intl"]);
+    assert_eq!(run.code, 1, "{}", run.stdout);
+}
+
+#[test]
+fn nominal_as_real_points_as_percent_mixed_years_and_shares() {
+    let env = setup();
+    let refs = small_refs(&env);
+    // Real 2023 prices claimed, but the nominal figure was copied.
+    let real = env.write("real.csv", "country,year,value,real\nFrance,2020,100,100\n");
+    let run = env.run(&[
+        "audit",
+        &real,
+        "--refs",
+        &refs,
+        "--claim",
+        "real=real",
+        "--base-year",
+        "2023",
+    ]);
+    assert_eq!(run.code, 1);
+    assert!(
+        run.stdout.contains("nominal figures are labelled as real"),
+        "{}",
+        run.stdout
+    );
+    // A rate of 10% rising to 12%: +20% change, or +2 points mislabelled as percent.
+    let change = env.write(
+        "change.csv",
+        "country,year,value,change\nChile,2019,10,..\nChile,2020,12,2\n",
+    );
+    let run = env.run(&[
+        "audit",
+        &change,
+        "--refs",
+        &refs,
+        "--claim",
+        "change=change",
+    ]);
+    assert!(
+        run.stdout
+            .contains("percentage points are given as a percent change"),
+        "{}",
+        run.stdout
+    );
+    // A latest-year cross-section mixing 2019 and 2020, with shares that do not add to 100.
+    let mixed = env.write(
+        "mixed.csv",
+        "country,year,value,share\nFrance,2019,30,30\nChile,2020,70,60\n",
+    );
+    let run = env.run(&[
+        "audit",
+        &mixed,
+        "--refs",
+        &refs,
+        "--claim",
+        "share=share",
+        "--fail-on",
+        "warning",
+    ]);
+    assert_eq!(run.code, 1);
+    assert!(
+        run.stdout
+            .contains("mixes figures from different years (2019, 2020)"),
+        "{}",
+        run.stdout
+    );
+    assert!(
+        run.stdout.contains("add up to 90, not 100"),
+        "{}",
+        run.stdout
+    );
+}
+
+#[test]
+fn provenance_notes_are_cautions_and_only_fail_when_asked() {
+    let env = setup();
+    let refs = small_refs(&env);
+    let input = env.write(
+        "notes.csv",
+        "country,year,value,intl,n,source,scope\nFrance,2020,100,500,40,,capital city only\nChile,2020,4200,10,900,Survey A,national\n",
+    );
+    let args = [
+        "audit",
+        &input,
+        "--refs",
+        &refs,
+        "--claim",
+        "intl=intl",
+        "--note-cols",
+        "n=n,source=source,coverage=scope",
+    ];
+    let run = env.run(&args);
+    assert_eq!(run.code, 0, "{}", run.stdout);
+    assert!(run.stdout.contains("CAUTION (3)"), "{}", run.stdout);
+    assert!(run.stdout.contains("a sample of 40, below 100"));
+    assert!(run.stdout.contains("no source is given"));
+    assert!(run
+        .stdout
+        .contains("\"capital city only\" stands for the whole of France"));
+    let mut strict = args.to_vec();
+    strict.extend(["--fail-on", "caution"]);
+    assert_eq!(env.run(&strict).code, 1);
+}
+
+#[test]
+fn header_words_suggest_claims_and_the_report_says_so() {
+    let env = setup();
+    let refs = small_refs(&env);
+    let input = env.write(
+        "h.csv",
+        "country,year,value,Fee (PPP $)\nFrance,2020,100,500\n",
+    );
+    let run = env.run(&["audit", &input, "--refs", &refs, "--value", "value"]);
+    assert_eq!(run.code, 0, "{}{}", run.stdout, run.stderr);
+    assert!(
+        run.stdout
+            .contains("intl = \"Fee (PPP $)\" (assumed from the header"),
+        "{}",
+        run.stdout
+    );
+}
