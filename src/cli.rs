@@ -291,7 +291,7 @@ pub enum IntervalKind {
     Simulate,
 }
 
-#[derive(Debug, Args, Clone, Default)]
+#[derive(Debug, Args, Clone)]
 pub struct ColumnArgs {
     /// Column of entity names or codes (default: a header naming a country, economy, entity or ISO code).
     #[arg(long, value_name = "COL", help_heading = "Input columns")]
@@ -358,6 +358,15 @@ pub struct ColumnArgs {
     /// Keep cells that are not numbers as rows flagged `unparsed` instead of stopping.
     #[arg(long, help_heading = "Reading")]
     pub lenient: bool,
+
+    /// Refuse inputs larger than this many megabytes (the whole table is held in memory).
+    #[arg(
+        long,
+        default_value_t = 4096,
+        value_name = "MB",
+        help_heading = "Reading"
+    )]
+    pub max_input_mb: u64,
 }
 
 #[derive(Debug, Args, Clone, Default)]

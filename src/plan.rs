@@ -52,7 +52,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         ));
     }
     let output = resolve_output(&args.output)?;
-    let (input_bytes, input_label) = read_input(&args.input)?;
+    let (input_bytes, input_label) = read_input(&args.input, args.columns.max_input_mb)?;
     if let Some(out) = &output.path {
         refuse_overwrite(out, &args.input, args.refs.as_deref(), &args.aliases)?;
     }
@@ -154,7 +154,7 @@ pub fn resolve_audit(args: &crate::cli::AuditArgs) -> Result<AuditPlan> {
         Some(text) => crate::audit::NoteColumns::parse(text)?,
         None => crate::audit::NoteColumns::default(),
     };
-    let (input_bytes, input_label) = read_input(&args.input)?;
+    let (input_bytes, input_label) = read_input(&args.input, args.columns.max_input_mb)?;
     if let Some(out) = &args.output {
         refuse_overwrite(out, &args.input, Some(&args.refs), &args.aliases)?;
     }
@@ -380,15 +380,29 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
     })
 }
 
-fn read_input(input: &str) -> Result<(Vec<u8>, String)> {
+fn read_input(input: &str, max_mb: u64) -> Result<(Vec<u8>, String)> {
+    let limit = max_mb.saturating_mul(1024 * 1024);
+    let too_large = |label: &str| {
+        Error::usage(
+            format!("{label} is larger than {max_mb} MB (--max-input-mb)"),
+            "raise --max-input-mb if the machine has the memory, or split the table",
+        )
+    };
     if input == "-" {
         let mut bytes = Vec::new();
         std::io::stdin()
+            .take(limit + 1)
             .read_to_end(&mut bytes)
             .map_err(|e| Error::io("standard input", "read", e))?;
+        if bytes.len() as u64 > limit {
+            return Err(too_large("standard input"));
+        }
         return Ok((bytes, "<stdin>".into()));
     }
     let path = Path::new(input);
+    if std::fs::metadata(path).is_ok_and(|m| m.is_file() && m.len() > limit) {
+        return Err(too_large(input));
+    }
     Ok((source::read_file(path)?, input.to_string()))
 }
 

@@ -79,6 +79,21 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
             text: text.to_string(),
             description: "UTF-8".into(),
         }),
+        // Valid multi-byte UTF-8 before the bad byte means a damaged UTF-8 file, not a legacy
+        // encoding: reading it as Windows-1252 would garble every accented name.
+        Err(e) if has_multibyte_utf8(&bytes[..e.valid_up_to()]) => {
+            let line = bytes[..e.valid_up_to()]
+                .iter()
+                .filter(|&&b| b == b'\n')
+                .count()
+                + 1;
+            Err(Error::bad_input(
+                Location::line(file, line),
+                "bytes that are not valid UTF-8 in a file that is otherwise UTF-8",
+                "text in one encoding",
+                "re-save the file as UTF-8, or pass --encoding windows-1252 if it really is a legacy file",
+            ))
+        }
         Err(_) => {
             let (text, _, _) = WINDOWS_1252.decode(bytes);
             Ok(Decoded {
@@ -89,6 +104,10 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
             })
         }
     }
+}
+
+fn has_multibyte_utf8(valid: &[u8]) -> bool {
+    valid.iter().any(|&b| b >= 0x80)
 }
 
 fn strip_bom(text: String) -> String {

@@ -125,6 +125,16 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             ));
         }
     }
+    if table.records.is_empty() {
+        notes.push("the table has no data rows (only a header)".into());
+    }
+    if !table.skipped.is_empty() {
+        notes.push(format!(
+            "set aside {} line(s) that are not part of the table: {}",
+            table.skipped.len(),
+            table.skipped.join("; ")
+        ));
+    }
     if !roles.ignored.is_empty() {
         notes.push(format!("columns not used: {}", roles.ignored.join(", ")));
     }
@@ -276,12 +286,17 @@ impl RowReader<'_> {
                 None
             }
             Err(e) => {
+                let fix = if cell.contains('\n') {
+                    "the cell spans several lines: a quote is probably not closed on this line"
+                } else {
+                    "correct the cell, or pass --lenient to keep such rows flagged `unparsed`"
+                };
                 return Err(Error::bad_input(
                     Location::cell(self.file, line, column),
                     e.reason,
                     e.hint,
-                    "correct the cell, or pass --lenient to keep such rows flagged `unparsed`",
-                ))
+                    fix,
+                ));
             }
         };
         let currency = match currency_cell {

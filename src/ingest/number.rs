@@ -68,12 +68,15 @@ pub fn parse_cell(text: &str, style: NumberStyle) -> Result<Cell, NumberError> {
     let body = trim_spaces(body);
     if body.is_empty() {
         return Err(error(
-            format!("\"{text}\" holds only a footnote mark"),
+            format!(
+                "\"{}\" holds only a footnote mark",
+                crate::ingest::table::shorten(text)
+            ),
             "a number, or a missing-value mark such as .. or n/a",
         ));
     }
     let value = parse_amount(body, style).map_err(|mut e| {
-        e.reason = format!("\"{text}\" {}", e.reason);
+        e.reason = format!("\"{}\" {}", crate::ingest::table::shorten(text), e.reason);
         e
     })?;
     Ok(Cell::Number { value, footnote })

@@ -12,6 +12,8 @@ pub struct TextTable {
     pub headers: Vec<String>,
     pub records: Vec<TextRecord>,
     pub delimiter: u8,
+    /// Title lines above the header and note lines below the table, set aside.
+    pub skipped: Vec<String>,
 }
 
 #[derive(Debug, Clone)]
@@ -75,51 +77,157 @@ pub fn delimiter_name(delimiter: u8) -> &'static str {
 
 /// Parses the whole table. Every record must have as many fields as the header; a ragged
 /// record is an error naming its line, because a shifted cell would put a number under the
-/// wrong year.
+/// wrong year. Title lines above the header and note lines below the table (lines with at most
+/// one filled cell, as spreadsheet exports write them) are set aside and listed in `skipped`,
+/// never read as data.
 pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
+    if let Some(position) = text.find('\0') {
+        let line = text[..position].matches('\n').count() + 1;
+        return Err(Error::bad_input(
+            Location::line(file, line),
+            "a NUL byte: the file looks binary, or is UTF-16 without a byte-order mark",
+            "delimited text (CSV or TSV)",
+            "check that the right file was given; for UTF-16 without a byte-order mark pass --encoding utf-16le (or utf-16be)",
+        ));
+    }
     let mut reader = csv::ReaderBuilder::new()
         .delimiter(delimiter)
         .has_headers(false)
         .flexible(true)
         .from_reader(text.as_bytes());
-    let mut rows = reader.records();
-    let header_record = match rows.next() {
-        None => {
-            return Err(Error::bad_input(
-                Location::file(file),
-                "the file is empty",
-                "a header line naming the columns, then one line per figure",
-                "check that the right file was given",
-            ))
-        }
-        Some(result) => result.map_err(|e| csv_error(e, file))?,
-    };
-    let headers = clean_headers(&header_record, file)?;
-    let mut records = Vec::new();
-    for result in rows {
+    let mut all: Vec<(usize, csv::StringRecord)> = Vec::new();
+    let mut lines = LineCounter::new(text);
+    for result in reader.records() {
         let record = result.map_err(|e| csv_error(e, file))?;
-        let line = record.position().map(|p| p.line() as usize).unwrap_or(0);
-        if record.len() != headers.len() {
-            if record.len() == 1 && record.get(0).is_some_and(|c| c.trim().is_empty()) {
-                continue;
-            }
+        let line = record
+            .position()
+            .map(|p| lines.line_of(p.byte() as usize))
+            .unwrap_or(0);
+        all.push((line, record));
+    }
+    let filled = |r: &csv::StringRecord| r.iter().filter(|c| !c.trim().is_empty()).count();
+    // A line with one filled cell is a title or a note only if that cell is words, not a figure:
+    // a lone number is more likely a data line that lost its cells, and must stop the run.
+    let note_like = |r: &csv::StringRecord| {
+        filled(r) == 1
+            && r.iter().any(|c| {
+                c.trim()
+                    .chars()
+                    .any(|ch| ch.is_alphabetic() || "*†‡§#¹²³(".contains(ch))
+            })
+    };
+    let data_like = |r: &csv::StringRecord| filled(r) >= 2 || (filled(r) == 1 && !note_like(r));
+    let Some(header_index) = all
+        .iter()
+        .position(|(_, r)| filled(r) >= 2)
+        .or(if all.is_empty() { None } else { Some(0) })
+    else {
+        return Err(Error::bad_input(
+            Location::file(file),
+            "the file is empty",
+            "a header line naming the columns, then one line per figure",
+            "check that the right file was given",
+        ));
+    };
+    let mut skipped: Vec<String> = all[..header_index]
+        .iter()
+        .filter(|(_, r)| filled(r) > 0)
+        .map(|(line, r)| {
+            format!(
+                "line {line} above the header: \"{}\"",
+                shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
+            )
+        })
+        .collect();
+    let headers = clean_headers(&all[header_index].1, file)?;
+    let width = headers.len();
+    // The table ends at the last line with two or more filled cells; below it, only notes.
+    let last_data = all
+        .iter()
+        .rposition(|(_, r)| data_like(r))
+        .unwrap_or(header_index);
+    let mut records = Vec::new();
+    for (line, record) in &all[header_index + 1..=last_data.max(header_index)] {
+        if filled(record) == 0 {
+            continue;
+        }
+        let mut cells: Vec<String> = record.iter().map(str::to_string).collect();
+        // Spreadsheet exports pad lines with empty cells; only filled extra cells are an error.
+        while cells.len() > width && cells.last().is_some_and(|c| c.trim().is_empty()) {
+            cells.pop();
+        }
+        if cells.len() != width {
             return Err(Error::bad_input(
-                Location::line(file, line),
-                format!("{} field(s) on this line, but the header has {}", record.len(), headers.len()),
-                format!("{} fields separated by the {} delimiter", headers.len(), delimiter_name(delimiter)),
+                Location::line(file, *line),
+                format!("{} field(s) on this line, but the header has {width}", cells.len()),
+                format!("{width} fields separated by the {} delimiter", delimiter_name(delimiter)),
                 "fix the line (a stray delimiter or a missing quote is the usual cause), or pass --delimiter if the wrong one was detected",
             ));
         }
-        records.push(TextRecord {
-            line,
-            cells: record.iter().map(str::to_string).collect(),
-        });
+        records.push(TextRecord { line: *line, cells });
     }
+    skipped.extend(
+        all[last_data.max(header_index) + 1..]
+            .iter()
+            .filter(|(_, r)| filled(r) > 0)
+            .map(|(line, r)| {
+                format!(
+                    "line {line} below the table: \"{}\"",
+                    shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
+                )
+            }),
+    );
     Ok(TextTable {
         headers,
         records,
         delimiter,
+        skipped,
     })
+}
+
+/// Physical line numbers from byte offsets, counting `\n`, `\r\n` and lone `\r` breaks. The
+/// csv reader's own line count points at skipped blank lines before a record, so the line is
+/// taken where the record's first character is.
+struct LineCounter<'a> {
+    bytes: &'a [u8],
+    at: usize,
+    line: usize,
+}
+
+impl<'a> LineCounter<'a> {
+    fn new(text: &'a str) -> Self {
+        LineCounter {
+            bytes: text.as_bytes(),
+            at: 0,
+            line: 1,
+        }
+    }
+
+    fn line_of(&mut self, start: usize) -> usize {
+        let mut target = start.min(self.bytes.len());
+        while target < self.bytes.len() && matches!(self.bytes[target], b'\n' | b'\r') {
+            target += 1;
+        }
+        while self.at < target {
+            match self.bytes[self.at] {
+                b'\n' => self.line += 1,
+                b'\r' if self.bytes.get(self.at + 1) != Some(&b'\n') => self.line += 1,
+                _ => {}
+            }
+            self.at += 1;
+        }
+        self.line
+    }
+}
+
+/// A cell or line cut to a length that fits in a message.
+pub fn shorten(text: &str) -> String {
+    const MAX: usize = 60;
+    if text.chars().count() <= MAX {
+        text.to_string()
+    } else {
+        format!("{}…", text.chars().take(MAX).collect::<String>())
+    }
 }
 
 fn clean_headers(record: &csv::StringRecord, file: &str) -> Result<Vec<String>> {
@@ -179,6 +287,37 @@ mod tests {
         let table = read_table("a,b\n1,2\n\"multi\nline\",3\n4,5\n", b',', "t.csv").unwrap();
         let lines: Vec<usize> = table.records.iter().map(|r| r.line).collect();
         assert_eq!(lines, vec![2, 3, 5]);
+    }
+
+    #[test]
+    fn title_lines_above_and_notes_below_are_set_aside() {
+        let text = "Table 3: Fees\nInvented figures\n\ncountry,2020\nFrance,1\n\nSource: invented\n* estimate\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.headers, vec!["country", "2020"]);
+        assert_eq!(table.records.len(), 1);
+        assert_eq!(table.skipped.len(), 4, "{:?}", table.skipped);
+        assert!(table.skipped[3].contains("line 8 below the table"));
+        let padded =
+            read_table("country,2020,,\nFrance,1,,\nSource: x,,,\n", b',', "t.csv").unwrap();
+        assert_eq!(
+            (
+                padded.headers.len(),
+                padded.records.len(),
+                padded.skipped.len()
+            ),
+            (4, 1, 1)
+        );
+        let padded = read_table("country,2020\nFrance,1,,\nSource: x,,\n", b',', "t.csv").unwrap();
+        assert_eq!(padded.records.len(), 1);
+        assert_eq!(padded.skipped.len(), 1);
+    }
+
+    #[test]
+    fn nul_bytes_are_refused_with_their_line() {
+        let err = read_table("a,b\n1,\0\n", b',', "t.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains("line 2") && err.contains("NUL"), "{err}");
     }
 
     #[test]
