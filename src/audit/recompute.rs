@@ -100,7 +100,7 @@ impl<'a> Context<'a> {
 
     fn claimed(&self, row: &Row, index: usize) -> Option<f64> {
         match number::parse_cell(&row.cells[index], NumberStyle::default()) {
-            Ok(Cell::Number { value, .. }) => Some(number::to_f64(value)),
+            Ok(Cell::Number { float, .. }) => Some(float),
             _ => None,
         }
     }

@@ -81,7 +81,7 @@ pub fn standard_error(
     let read = |index: usize| -> Result<Option<f64>> {
         let (header, text) = cells.cells[index];
         match number::parse_cell(text, NumberStyle::default()) {
-            Ok(Cell::Number { value, .. }) => Ok(Some(number::to_f64(value) * multiplier)),
+            Ok(Cell::Number { float, .. }) => Ok(Some(float * multiplier)),
             Ok(Cell::Missing) => Ok(None),
             Err(e) => Err(Error::bad_input(
                 Location::cell(file, line, header),

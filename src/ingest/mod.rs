@@ -259,22 +259,25 @@ impl RowReader<'_> {
         mut row_flags: Vec<String>,
     ) -> Result<CanonicalRow> {
         let value = match number::parse_cell(cell, self.options.number_style) {
-            Ok(Cell::Number { value, footnote }) => {
+            Ok(Cell::Number {
+                value,
+                float,
+                footnote,
+            }) => {
                 if footnote {
                     row_flags.push(flags::FOOTNOTE.into());
                 }
-                let scaled = match self.options.value_multiplier {
-                    Some(m) => value.checked_mul(m).ok_or_else(|| {
+                match self.options.value_multiplier {
+                    Some(m) => Some(number::to_f64(value.checked_mul(m).ok_or_else(|| {
                         Error::bad_input(
                             Location::cell(self.file, line, column),
                             format!("\"{cell}\" times the multiplier {m} is too large for an exact decimal"),
                             "a value that stays below about 7.9e28 after --value-multiplier",
                             "use a smaller --value-multiplier",
                         )
-                    })?,
-                    None => value,
-                };
-                Some(number::to_f64(scaled))
+                    })?)),
+                    None => Some(float),
+                }
             }
             Ok(Cell::Missing) => {
                 row_flags.push(flags::MISSING_VALUE.into());

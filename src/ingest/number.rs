@@ -13,8 +13,14 @@ use std::str::FromStr;
 /// How a cell was read.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Cell {
-    /// A number; `footnote` is true when a footnote or status mark was removed.
-    Number { value: Decimal, footnote: bool },
+    /// A number; `footnote` is true when a footnote or status mark was removed. `float` is the
+    /// f64 nearest to the number as written (correctly rounded from the text, also where the
+    /// decimal had to round beyond its 28 places); `value` is exact within those places.
+    Number {
+        value: Decimal,
+        float: f64,
+        footnote: bool,
+    },
     /// One of the conventional "no figure" marks, or an empty cell.
     Missing,
 }
@@ -75,17 +81,24 @@ pub fn parse_cell(text: &str, style: NumberStyle) -> Result<Cell, NumberError> {
             "a number, or a missing-value mark such as .. or n/a",
         ));
     }
-    let value = parse_amount(body, style).map_err(|mut e| {
+    let (value, float) = parse_amount(body, style).map_err(|mut e| {
         e.reason = format!("\"{}\" {}", crate::ingest::table::shorten(text), e.reason);
         e
     })?;
-    Ok(Cell::Number { value, footnote })
+    Ok(Cell::Number {
+        value,
+        float,
+        footnote,
+    })
 }
 
 /// Reads a cell and converts it to `f64` for the frame. Values beyond `f64` cannot occur because
 /// `Decimal` is bounded by about 7.9e28.
 pub fn to_f64(value: Decimal) -> f64 {
-    let v = value.to_f64().unwrap_or(f64::NAN);
+    let v = value
+        .to_string()
+        .parse::<f64>()
+        .unwrap_or_else(|_| value.to_f64().unwrap_or(f64::NAN));
     // -0 is written as 0 so that output never shows a signed zero.
     if v == 0.0 {
         0.0
@@ -173,7 +186,7 @@ fn strip_status_letters(text: &str) -> Option<&str> {
     }
 }
 
-fn parse_amount(body: &str, style: NumberStyle) -> Result<Decimal, NumberError> {
+fn parse_amount(body: &str, style: NumberStyle) -> Result<(Decimal, f64), NumberError> {
     let mut s = body.replace('\u{2212}', "-");
     let mut negative = false;
 
@@ -215,7 +228,15 @@ fn parse_amount(body: &str, style: NumberStyle) -> Result<Decimal, NumberError> 
 
     let plain = remove_grouping(&s, style)?;
     let value = if plain.contains(['e', 'E']) {
-        Decimal::from_scientific(&plain).map_err(|_| {
+        Decimal::from_scientific(&plain)
+            .ok()
+            .or_else(|| {
+                // Smaller than the decimal's 28 places: keep the nearest decimal; the float
+                // below still comes from the text.
+                let f = plain.parse::<f64>().ok().filter(|f| f.is_finite() && f.abs() < 1.0)?;
+                Some(rust_decimal::prelude::FromPrimitive::from_f64(f).unwrap_or(Decimal::ZERO))
+            })
+            .ok_or_else(|| {
             error(
                 "is outside the range of exact decimals (about ±7.9e28) or badly formed",
                 "a number in plain or scientific notation such as 1.5e6; for very large totals state the table in millions and pass --value-multiplier",
@@ -230,11 +251,18 @@ fn parse_amount(body: &str, style: NumberStyle) -> Result<Decimal, NumberError> 
         })?
     };
     let value = if negative { -value } else { value };
-    Ok(if value.is_zero() {
+    let value = if value.is_zero() {
         Decimal::ZERO
     } else {
         value.normalize()
-    })
+    };
+    // The float comes from the text, which Rust's parser rounds correctly, so a figure beyond
+    // the decimal's 28 places still reaches its nearest f64.
+    let float = plain
+        .parse::<f64>()
+        .map(|f| if negative { -f } else { f })
+        .unwrap_or_else(|_| to_f64(value));
+    Ok((value, if float == 0.0 { 0.0 } else { float }))
 }
 
 /// Removes one currency sign or ISO 4217-looking code before or after the amount; two signs are
@@ -480,5 +508,10 @@ mod tests {
     fn exact_decimal_reaches_nearest_f64() {
         assert_eq!(to_f64(num("0.1")), 0.1);
         assert_eq!(to_f64(num("304.702")), 304.702);
+        // Beyond the decimal's 28 places the float still comes from the text as written.
+        match parse_cell("7.107842037167992e-20", NumberStyle::default()) {
+            Ok(Cell::Number { float, .. }) => assert_eq!(float, 7.107842037167992e-20),
+            other => panic!("{other:?}"),
+        }
     }
 }

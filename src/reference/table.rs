@@ -158,7 +158,7 @@ pub fn load_table(
             let cell = &record.cells[column];
             let value = match number::parse_cell(cell, NumberStyle::default()) {
                 Ok(Cell::Missing) => continue,
-                Ok(Cell::Number { value, .. }) => number::to_f64(value),
+                Ok(Cell::Number { float, .. }) => float,
                 Err(e) => {
                     return Err(Error::bad_input(
                         Location::cell(file, record.line, header),

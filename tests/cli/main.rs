@@ -7,6 +7,7 @@ mod audit;
 mod corpus;
 mod errors;
 mod golden;
+mod properties;
 mod published;
 mod refs;
 mod uncertainty;

@@ -1,0 +1,148 @@
+//! Properties checked on generated tables through the library API (proptest): rows in = rows
+//! out, ranks are a standard competition ranking, exact factors divide back out, a growing value
+//! never ranks lower, and numbers written by the writer read back unchanged.
+
+use levelfield::adjust::{IncomeAs, StepSettings};
+use levelfield::entity::Resolver;
+use levelfield::ingest::number::{parse_cell, Cell, NumberStyle};
+use levelfield::ingest::IngestOptions;
+use levelfield::pipeline::{run_adjust, PipelineSettings};
+use levelfield::plan::parse_steps;
+use levelfield::rank::Order;
+use levelfield::reference::{self, Basis, References};
+use levelfield::report::format::{format_number, Rounding};
+use polars::prelude::*;
+use proptest::prelude::*;
+
+const NAMES: &[&str] = &[
+    "Arvelia", "Brenmark", "Caldoria", "Dunmere", "Eskaros", "Felmarch", "Gravonia", "Maresh",
+];
+
+fn demo_references() -> (Resolver, References) {
+    let mut resolver = Resolver::builtin();
+    let references = reference::load(&levelfield::demo::DEMO_REFERENCES, &mut resolver).unwrap();
+    (resolver, references)
+}
+
+fn settings(steps: &[&str]) -> PipelineSettings {
+    let names: Vec<String> = steps.iter().map(|s| s.to_string()).collect();
+    PipelineSettings {
+        ingest: IngestOptions::default(),
+        steps: parse_steps(&names).unwrap(),
+        step_settings: StepSettings {
+            base_year: Some(2023),
+            deflator: None,
+            per: 1,
+            income_as: IncomeAs::Share,
+            income_basis: Basis::Lcu,
+            base_currency: "USD".into(),
+            proportion: false,
+            uncertain_factors: Default::default(),
+        },
+        nearest_year: 0,
+        allow_unresolved: true,
+        rank_aggregates: false,
+        order: Order::Desc,
+        intervals: None,
+    }
+}
+
+fn table(rows: &[(usize, i32, Option<f64>)]) -> String {
+    let mut text = String::from("country,year,value\n");
+    for (entity, year, value) in rows {
+        let cell = value
+            .map(|v| format_number(v, Rounding::Full, false))
+            .unwrap_or_else(|| "..".into());
+        text.push_str(&format!("{},{year},{cell}\n", NAMES[*entity % NAMES.len()]));
+    }
+    text
+}
+
+fn floats(frame: &DataFrame, name: &str) -> Vec<Option<f64>> {
+    frame.column(name).unwrap().f64().unwrap().iter().collect()
+}
+
+fn ints(frame: &DataFrame, name: &str) -> Vec<Option<i64>> {
+    frame.column(name).unwrap().i64().unwrap().iter().collect()
+}
+
+fn row_strategy() -> impl Strategy<Value = Vec<(usize, i32, Option<f64>)>> {
+    prop::collection::vec(
+        (
+            0usize..8,
+            2017i32..2025,
+            prop::option::weighted(0.9, 1.0f64..1e6),
+        ),
+        0..30,
+    )
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 48, ..ProptestConfig::default() })]
+
+    #[test]
+    fn rows_in_equal_rows_out_and_ranks_are_competition_ranks(rows in row_strategy()) {
+        let (resolver, references) = demo_references();
+        let text = table(&rows);
+        let out = run_adjust(text.as_bytes(), "generated.csv", &settings(&["deflate", "ppp"]), &resolver, Some(&references)).unwrap();
+        prop_assert_eq!(out.frame.height(), rows.len());
+        let values = floats(&out.frame, "value_adjusted");
+        let ranks = ints(&out.frame, "rank_adjusted");
+        let years: Vec<Option<i32>> = out.frame.column("year").unwrap().i32().unwrap().iter().collect();
+        for i in 0..rows.len() {
+            let Some(rank) = ranks[i] else { continue };
+            let better = (0..rows.len())
+                .filter(|&j| years[j] == years[i] && ranks[j].is_some() && values[j].unwrap() > values[i].unwrap())
+                .count() as i64;
+            prop_assert_eq!(rank, better + 1);
+        }
+    }
+
+    #[test]
+    fn an_exact_factor_divides_back_out(rows in row_strategy()) {
+        let (resolver, references) = demo_references();
+        let out = run_adjust(table(&rows).as_bytes(), "g.csv", &settings(&["ppp"]), &resolver, Some(&references)).unwrap();
+        let value = floats(&out.frame, "value");
+        let adjusted = floats(&out.frame, "value_intl");
+        let ppp = floats(&out.frame, "ppp_used");
+        for i in 0..rows.len() {
+            if let (Some(v), Some(a), Some(p)) = (value[i], adjusted[i], ppp[i]) {
+                prop_assert!(((a * p) - v).abs() <= 1e-12 * v.abs());
+            }
+        }
+    }
+
+    #[test]
+    fn a_value_that_grows_never_ranks_lower(values in prop::collection::vec(1.0f64..1000.0, 2..12), pick in 0usize..12, growth in 0.0f64..500.0) {
+        let (resolver, references) = demo_references();
+        let pick = pick % values.len();
+        let rows: Vec<(usize, i32, Option<f64>)> = values.iter().enumerate().map(|(i, v)| (i, 2023, Some(*v))).collect();
+        let mut grown = rows.clone();
+        grown[pick].2 = Some(values[pick] + growth);
+        let run = |r: &[(usize, i32, Option<f64>)]| {
+            let out = run_adjust(table(r).as_bytes(), "g.csv", &settings(&["ppp"]), &resolver, Some(&references)).unwrap();
+            ints(&out.frame, "rank_adjusted")
+        };
+        let (before, after) = (run(&rows), run(&grown));
+        if let (Some(b), Some(a)) = (before[pick], after[pick]) {
+            prop_assert!(a <= b, "rank {} became {}", b, a);
+        }
+    }
+
+    #[test]
+    fn numbers_written_read_back_unchanged(x in prop::num::f64::NORMAL, decimals in 0u32..6) {
+        prop_assume!(x.abs() < 1e20 && x.abs() > 1e-20);
+        let full = format_number(x, Rounding::Full, false);
+        match parse_cell(&full, NumberStyle::default()) {
+            Ok(Cell::Number { float, .. }) => prop_assert_eq!(float, x),
+            other => prop_assert!(false, "{} gave {:?}", full, other),
+        }
+        // Rounded and grouped text reads back to the rounded number.
+        let rounded = format_number(x, Rounding::Decimals(decimals), true);
+        let back = match parse_cell(&rounded, NumberStyle::default()) {
+            Ok(Cell::Number { float, .. }) => float,
+            other => return Err(TestCaseError::fail(format!("{rounded} gave {other:?}"))),
+        };
+        prop_assert!((back - x).abs() <= 0.5 * 10f64.powi(-(decimals as i32)) * (1.0 + 1e-9) + x.abs() * 1e-15);
+    }
+}
