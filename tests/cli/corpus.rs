@@ -178,3 +178,41 @@ fn output_is_identical_across_runs_and_thread_counts() {
         .unwrap();
     assert_eq!(String::from_utf8_lossy(&b.stdout), a.stdout);
 }
+
+#[test]
+fn an_output_over_a_reference_file_is_refused_and_the_file_kept() {
+    let env = setup();
+    let input = env.write("in.csv", GOOD_TABLE);
+    let refs = env.path("refs");
+    std::fs::create_dir(&refs).unwrap();
+    std::fs::write(
+        refs.join("datapackage.json"),
+        r#"{"resources":[{"name":"p","path":"ppp.csv","kind":"ppp"}]}"#,
+    )
+    .unwrap();
+    std::fs::write(refs.join("ppp.csv"), "country,2020\nFrance,0.7\n").unwrap();
+    let target = refs.join("ppp.csv").display().to_string();
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs.display().to_string(),
+        "-o",
+        &target,
+    ]);
+    check(
+        &run,
+        "output over a reference",
+        2,
+        "would overwrite an input file",
+    );
+    assert_eq!(
+        std::fs::read_to_string(refs.join("ppp.csv")).unwrap(),
+        "country,2020\nFrance,0.7\n"
+    );
+    assert_eq!(
+        std::fs::read_to_string(&input).unwrap(),
+        GOOD_TABLE,
+        "the input is never modified"
+    );
+}
