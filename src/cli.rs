@@ -400,6 +400,14 @@ pub struct OutputArgs {
     /// Do not print the run summary on stderr.
     #[arg(short, long, help_heading = "Output")]
     pub quiet: bool,
+
+    /// Also write the methods note (Markdown) to FILE.
+    #[arg(long, value_name = "FILE", help_heading = "Output")]
+    pub methods: Option<PathBuf>,
+
+    /// Also write a self-contained HTML report (table, charts, methods) to FILE.
+    #[arg(long, value_name = "FILE", help_heading = "Output")]
+    pub report: Option<PathBuf>,
 }
 
 #[derive(Debug, Args)]

@@ -115,6 +115,9 @@ fn demo_output(args: &crate::cli::OutputArgs) -> Result<plan::OutputPlan> {
     if args.format.is_none() && args.output.is_none() {
         output.format = crate::report::Format::Table;
     }
+    output.notice = Some(
+        "INVENTED DATA: the countries, currencies and every figure in this demo are made up; they describe no real place.".into(),
+    );
     Ok(output)
 }
 

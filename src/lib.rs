@@ -113,12 +113,28 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         &plan.resolver,
         plan.references.as_ref(),
     )?;
-    let text = report::render(
-        &output.frame,
+    let input_sha256 = report::methods::sha256_hex(&plan.input_bytes);
+    let mut note = report::methods::build(
         &output.summary,
-        plan.output.format,
-        plan.output.rounding,
-    )?;
+        &plan.settings,
+        plan.references.as_ref(),
+        &input_sha256,
+    );
+    if let Some(notice) = &plan.output.notice {
+        note.in_brief.insert(0, notice.clone());
+    }
+    let text = match plan.output.format {
+        report::Format::Methods => report::methods::render_markdown(&note),
+        format => report::render(&output.frame, &output.summary, format, plan.output.rounding)?,
+    };
+    if let Some(path) = &plan.output.methods {
+        report::write_atomically(path, &report::methods::render_markdown(&note))?;
+    }
+    if let Some(path) = &plan.output.report {
+        let html =
+            report::html::render(&output.frame, &output.summary, &note, plan.output.rounding)?;
+        report::write_atomically(path, &html)?;
+    }
     match &plan.output.path {
         Some(path) => report::write_atomically(path, &text)?,
         None => {

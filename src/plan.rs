@@ -40,6 +40,10 @@ pub struct OutputPlan {
     pub path: Option<PathBuf>,
     pub rounding: Rounding,
     pub quiet: bool,
+    pub methods: Option<PathBuf>,
+    pub report: Option<PathBuf>,
+    /// A notice printed at the top of reports and notes (the demo says its data are invented).
+    pub notice: Option<String>,
 }
 
 pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
@@ -377,6 +381,9 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
         path: args.output.clone(),
         rounding,
         quiet: args.quiet,
+        methods: args.methods.clone(),
+        report: args.report.clone(),
+        notice: None,
     })
 }
 

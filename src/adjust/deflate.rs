@@ -5,7 +5,7 @@
 //! base currency's CPI (convert at each year's rate, then deflate in US dollars).
 //! `--deflator` forces one of the two and refuses the order that contradicts it.
 
-use super::{misplaced, At, Deflator, Prices, Step, StepContext, TrackState, Unit};
+use super::{misplaced, At, Deflator, Prices, Step, StepContext, StepSettings, TrackState, Unit};
 use crate::error::{Error, Result};
 use crate::reference::Kind;
 use polars::prelude::*;
@@ -23,6 +23,14 @@ impl Step for Deflate {
 
     fn formula(&self) -> &'static str {
         "value_real = value * cpi[base_year] / cpi[year]   (own CPI before conversion, base currency's CPI after)"
+    }
+
+    fn explain(&self, settings: &StepSettings) -> String {
+        let year = settings.base_year.unwrap_or_default();
+        match settings.deflator {
+            Some(Deflator::BaseCurrency) => format!("Every year was brought to {year} prices with the {} consumer price index, after conversion at each year's rate.", settings.base_currency),
+            _ => format!("Every year was brought to {year} prices with the consumer price index (each country's own index before conversion, the base currency's after), so that changes over time are not inflation."),
+        }
     }
 
     fn column(&self) -> &'static str {

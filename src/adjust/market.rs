@@ -2,7 +2,7 @@
 //! value_usd_market = value_lcu / fx, with fx in local currency units per USD (annual average).
 //! A value already in the base currency passes through unchanged.
 
-use super::{misplaced, Step, StepContext, TrackState, Unit};
+use super::{misplaced, Step, StepContext, StepSettings, TrackState, Unit};
 use crate::error::Result;
 use crate::reference::Kind;
 use polars::prelude::*;
@@ -20,6 +20,10 @@ impl Step for Market {
 
     fn formula(&self) -> &'static str {
         "value_usd_market = value / fx   (fx: local currency units per USD, annual average)"
+    }
+
+    fn explain(&self, settings: &StepSettings) -> String {
+        format!("Figures were converted from each country's currency to {} at market exchange rates (annual averages).", settings.base_currency)
     }
 
     fn column(&self) -> &'static str {

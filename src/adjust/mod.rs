@@ -220,6 +220,8 @@ pub trait Step: Sync {
     fn formula(&self) -> &'static str;
     /// The stage column written on the adjusted track.
     fn column(&self) -> &'static str;
+    /// What the step did, in one plain sentence an editor can paste under a chart.
+    fn explain(&self, settings: &StepSettings) -> String;
     /// The next value expression and state.
     fn apply(&self, value: Expr, state: &mut TrackState, ctx: &mut StepContext) -> Result<Expr>;
     /// Extra columns the step writes on the adjusted track (factors derived from others).

@@ -1,7 +1,7 @@
 //! `per-capita`: divides by the population of the row's year and scales to "per N people".
 //! value_per_capita = value / population * per, with per one of 1, 1000, 100000, 1000000.
 
-use super::{misplaced, At, Step, StepContext, TrackState, Unit};
+use super::{misplaced, At, Step, StepContext, StepSettings, TrackState, Unit};
 use crate::error::Result;
 use crate::reference::Kind;
 use polars::prelude::*;
@@ -19,6 +19,20 @@ impl Step for PerCapita {
 
     fn formula(&self) -> &'static str {
         "value_per_capita = value / population * per"
+    }
+
+    fn explain(&self, settings: &StepSettings) -> String {
+        match settings.per {
+            1 => "Figures were divided by population, giving an amount per person.".into(),
+            per => format!(
+                "Figures were divided by population and stated per {} people.",
+                crate::report::format::format_number(
+                    per as f64,
+                    crate::report::format::Rounding::Decimals(0),
+                    true
+                )
+            ),
+        }
     }
 
     fn column(&self) -> &'static str {

@@ -4,7 +4,7 @@
 //! in international dollars times ppp; an income table in USD or international dollars the
 //! same way), so the ratio does not depend on the currency steps before it.
 
-use super::{misplaced, At, IncomeAs, Prices, Step, StepContext, TrackState, Unit};
+use super::{misplaced, At, IncomeAs, Prices, Step, StepContext, StepSettings, TrackState, Unit};
 use crate::error::Result;
 use crate::reference::{Basis, Kind};
 use polars::prelude::*;
@@ -22,6 +22,13 @@ impl Step for PerIncome {
 
     fn formula(&self) -> &'static str {
         "value_per_income = value / income   (share), or value / (income / 365)   (days)"
+    }
+
+    fn explain(&self, settings: &StepSettings) -> String {
+        match settings.income_as {
+            IncomeAs::Share => "Figures were compared with average income per person in the same year and country, as a share of a year's income.".into(),
+            IncomeAs::Days => "Figures were compared with average income per person in the same year and country, as the number of days of income they cost.".into(),
+        }
     }
 
     fn column(&self) -> &'static str {

@@ -4,7 +4,7 @@
 //! Also writes price_level_index = ppp / fx * 100 (World Bank price level ratio definition:
 //! 100 means prices at the base-currency level).
 
-use super::{misplaced, Step, StepContext, TrackState, Unit};
+use super::{misplaced, Step, StepContext, StepSettings, TrackState, Unit};
 use crate::error::Result;
 use crate::reference::Kind;
 use polars::prelude::*;
@@ -22,6 +22,10 @@ impl Step for Ppp {
 
     fn formula(&self) -> &'static str {
         "value_intl = value / ppp   (ppp: local currency units per international dollar); price_level_index = ppp / fx * 100"
+    }
+
+    fn explain(&self, _settings: &StepSettings) -> String {
+        "Figures were converted to international dollars at purchasing-power parities (PPPs), which remove differences in price levels between countries, so that an amount buys roughly the same everywhere.".into()
     }
 
     fn column(&self) -> &'static str {

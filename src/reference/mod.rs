@@ -21,12 +21,17 @@ pub fn add_catalog_aliases(
     catalog: &Catalog,
     source: &dyn FileSource,
     resolver: &mut Resolver,
-) -> Result<()> {
+) -> Result<Vec<(String, String)>> {
+    let mut read = Vec::new();
     for path in &catalog.aliases {
         let bytes = source.read(path)?;
         resolver.add_alias_text(&String::from_utf8_lossy(&bytes), &source.label(path))?;
+        read.push((
+            source.label(path),
+            crate::report::methods::sha256_hex(&bytes),
+        ));
     }
-    Ok(())
+    Ok(read)
 }
 
 /// The loaded reference tables of one catalog.
@@ -34,6 +39,9 @@ pub fn add_catalog_aliases(
 pub struct References {
     pub catalog: Catalog,
     pub catalog_file: String,
+    pub catalog_sha256: String,
+    /// Alias files the catalog declares: (file, sha256).
+    pub alias_files: Vec<(String, String)>,
     pub tables: Vec<RefTable>,
 }
 
@@ -96,8 +104,10 @@ impl References {
 /// same user-defined entities), and loads every table; the first broken table stops the load.
 pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<References> {
     let catalog_file = source.label(CATALOG_FILE);
-    let catalog = catalog::parse_catalog(&source.read(CATALOG_FILE)?, &catalog_file)?;
-    add_catalog_aliases(&catalog, source, resolver)?;
+    let catalog_bytes = source.read(CATALOG_FILE)?;
+    let catalog_sha256 = crate::report::methods::sha256_hex(&catalog_bytes);
+    let catalog = catalog::parse_catalog(&catalog_bytes, &catalog_file)?;
+    let alias_files = add_catalog_aliases(&catalog, source, resolver)?;
     let mut tables = Vec::with_capacity(catalog.resources.len());
     for resource in &catalog.resources {
         let file = source.label(&resource.path);
@@ -107,6 +117,8 @@ pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<Referenc
     Ok(References {
         catalog,
         catalog_file,
+        catalog_sha256,
+        alias_files,
         tables,
     })
 }

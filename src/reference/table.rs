@@ -25,6 +25,8 @@ pub struct RefTable {
     /// Entity names in the table that resolve to nothing, with their first line.
     pub unresolved: Vec<(String, usize)>,
     pub rows_read: usize,
+    /// sha256 of the file as read, so a run can be reproduced.
+    pub sha256: String,
 }
 
 /// A factor found for an entity and year.
@@ -114,6 +116,7 @@ pub fn load_table(
         file: file.to_string(),
         series: HashMap::new(),
         se: HashMap::new(),
+        sha256: crate::report::methods::sha256_hex(bytes),
         unresolved: Vec::new(),
         rows_read: 0,
     };

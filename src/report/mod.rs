@@ -4,7 +4,10 @@
 //! Machine formats (csv, json) carry every output column at full precision; reader formats
 //! (table, md) show the columns an editor reads, rounded by the one rule in `format`.
 
+pub mod charts;
 pub mod format;
+pub mod html;
+pub mod methods;
 pub mod summary;
 
 use crate::error::{Error, Result};
@@ -27,6 +30,10 @@ pub enum Format {
     Md,
     /// Records with a metadata object (steps, references, summary).
     Json,
+    /// The methods note (Markdown) instead of the table.
+    Methods,
+    /// One row per entity and year, one column per stage: the shape charting tools take.
+    ChartCsv,
 }
 
 impl Format {
@@ -54,6 +61,7 @@ pub fn render(
         Format::Md => render_markdown(frame, summary, reader_rounding(rounding)),
         Format::Csv => render_csv(frame, rounding)?,
         Format::Json => render_json(frame, summary, rounding)?,
+        Format::Methods | Format::ChartCsv => render_chart_csv(frame, rounding)?,
     })
 }
 
@@ -100,6 +108,26 @@ pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
     Ok(String::from_utf8_lossy(&bytes).into_owned())
 }
 
+/// One row per entity, year and group, one column per stage (input, each step, baseline,
+/// adjusted) and the ranks: the wide shape that charting tools take without reshaping.
+pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
+    let keep: Vec<String> = frame
+        .get_column_names()
+        .iter()
+        .map(|n| n.to_string())
+        .filter(|n| {
+            ["entity_name", "entity_code", "year", "group", "value"].contains(&n.as_str())
+                || (n.starts_with("value_") && n != "value_input")
+                || n.starts_with("moe_")
+                || n.starts_with("rank_")
+        })
+        .collect();
+    let narrow = frame
+        .select(keep)
+        .map_err(Error::engine("selecting chart columns"))?;
+    render_csv(&narrow, rounding)
+}
+
 pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> Result<String> {
     let names: Vec<String> = frame
         .get_column_names()
@@ -135,7 +163,10 @@ pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) 
 }
 
 /// The columns a reader sees, with their headers.
-fn reader_rows(frame: &DataFrame, rounding: Rounding) -> (Vec<&'static str>, Vec<Vec<String>>) {
+pub(crate) fn reader_rows(
+    frame: &DataFrame,
+    rounding: Rounding,
+) -> (Vec<&'static str>, Vec<Vec<String>>) {
     let has_group = frame
         .column("group")
         .map(|c| c.null_count() < c.len())
@@ -315,6 +346,18 @@ pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
         .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
     temp.write_all(text.as_bytes())
         .map_err(|e| Error::io(path.display(), "write the output", e))?;
+    // A temporary file is private (0600); the finished output gets the usual 0644, or the
+    // permissions of the file it replaces.
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        let mode = std::fs::metadata(path)
+            .map(|m| m.permissions().mode())
+            .unwrap_or(0o644);
+        let _ = temp
+            .as_file()
+            .set_permissions(std::fs::Permissions::from_mode(mode));
+    }
     temp.as_file()
         .sync_all()
         .map_err(|e| Error::io(path.display(), "write the output", e))?;

@@ -54,3 +54,31 @@ fn readme_methods_list_every_step_formula() {
         );
     }
 }
+
+#[test]
+fn demo_methods_note_and_chart_csv() {
+    let env = setup();
+    let methods = env.run(&["demo", "--format", "methods"]);
+    assert_eq!(methods.code, 0, "{}", methods.stderr);
+    for expected in [
+        "# Methods",
+        "## Steps, in order",
+        "`value_real = value * cpi[base_year] / cpi[year]",
+        "## Files read",
+        "sha256",
+        "## Cautions",
+    ] {
+        assert!(methods.stdout.contains(expected), "{expected} missing");
+    }
+    assert_golden("demo-methods.md", &methods.stdout);
+    let chart = env.run(&["demo", "--format", "chart-csv"]);
+    assert_eq!(chart.code, 0, "{}", chart.stderr);
+    assert!(
+        chart.stdout.starts_with(
+            "entity_code,entity_name,year,group,value,value_lcu,value_real,value_intl,"
+        ),
+        "{}",
+        chart.stdout
+    );
+    assert_golden("demo-chart.csv", &chart.stdout);
+}

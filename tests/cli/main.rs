@@ -4,6 +4,7 @@
 
 mod adjust;
 mod audit;
+mod browser;
 mod corpus;
 mod errors;
 mod golden;
