@@ -95,6 +95,10 @@ pub struct Resource {
     pub se_field: Option<String>,
     pub moe_field: Option<String>,
     pub moe_level: Option<u32>,
+    /// `sdmx-csv` for files in the SDMX-CSV layout (versions 1 and 2); default plain CSV.
+    pub format: Option<String>,
+    /// SDMX dimensions to keep, code by dimension (for example a measure or unit code).
+    pub filter: std::collections::BTreeMap<String, String>,
 }
 
 #[derive(Debug, Clone, serde::Serialize)]
@@ -137,6 +141,9 @@ struct RawResource {
     se_field: Option<String>,
     moe_field: Option<String>,
     moe_level: Option<u32>,
+    format: Option<String>,
+    #[serde(default)]
+    filter: std::collections::BTreeMap<String, String>,
 }
 
 /// Parses and checks a catalog; `file` names it in messages.
@@ -258,6 +265,8 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
             se_field: r.se_field,
             moe_field: r.moe_field,
             moe_level: r.moe_level,
+            format: r.format,
+            filter: r.filter,
         });
     }
     for (i, a) in resources.iter().enumerate() {

@@ -11,7 +11,7 @@ use crate::error::{Error, Location, Result};
 use crate::ingest::layout::{self, RoleFlags, Shape, YearSource};
 use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::ingest::{encoding, table};
-use crate::reference::catalog::{Kind, Resource};
+use crate::reference::catalog::Resource;
 use std::collections::{BTreeMap, HashMap};
 
 /// A loaded reference table: entity code → year → factor (multiplier applied).
@@ -86,6 +86,89 @@ pub fn load_table(
     resource: &Resource,
     resolver: &Resolver,
 ) -> Result<RefTable> {
+    match resource.format.as_deref() {
+        Some("sdmx-csv") => super::sdmx::load_sdmx(bytes, file, resource, resolver),
+        None | Some("csv") => load_plain(bytes, file, resource, resolver),
+        Some(other) => Err(Error::bad_input(
+            Location::file(file),
+            format!("format \"{other}\""),
+            "csv or sdmx-csv",
+            "fix the resource's \"format\" in the catalog",
+        )),
+    }
+}
+
+/// Adds one factor, refusing a second for the same entity and year.
+pub(crate) fn insert_factor(
+    table: &mut RefTable,
+    first_line: &mut HashMap<(String, i32), usize>,
+    code: &str,
+    year: i32,
+    value: f64,
+    line: usize,
+) -> Result<()> {
+    if let Some(previous) = first_line.insert((code.to_string(), year), line) {
+        return Err(Error::bad_input(
+            Location::line(&table.file, line),
+            format!(
+                "a second {} factor for {code} in {year} (the first is on line {previous})",
+                table.resource.kind.as_str()
+            ),
+            "one factor per entity and year",
+            "remove the duplicate, or check whether two names in the table mean the same country",
+        ));
+    }
+    table
+        .series
+        .entry(code.to_string())
+        .or_default()
+        .insert(year, value);
+    table.rows_read += 1;
+    Ok(())
+}
+
+/// An empty table for `resource`, read from `bytes`.
+pub(crate) fn empty_table(bytes: &[u8], file: &str, resource: &Resource) -> RefTable {
+    RefTable {
+        resource: resource.clone(),
+        file: file.to_string(),
+        series: HashMap::new(),
+        se: HashMap::new(),
+        sha256: crate::report::methods::sha256_hex(bytes),
+        unresolved: Vec::new(),
+        rows_read: 0,
+    }
+}
+
+/// Every kind divides or scales a figure; zero or negative factors have no meaning here.
+pub(crate) fn check_positive(
+    value: f64,
+    cell: &str,
+    resource: &Resource,
+    file: &str,
+    line: usize,
+    header: &str,
+) -> Result<()> {
+    if value <= 0.0 {
+        return Err(Error::bad_input(
+            Location::cell(file, line, header),
+            format!(
+                "{} factor \"{cell}\" is not positive",
+                resource.kind.as_str()
+            ),
+            format!("a positive {}", resource.kind.describe()),
+            "fix the reference table; mark a missing factor with .. or leave the cell empty",
+        ));
+    }
+    Ok(())
+}
+
+fn load_plain(
+    bytes: &[u8],
+    file: &str,
+    resource: &Resource,
+    resolver: &Resolver,
+) -> Result<RefTable> {
     let decoded = encoding::decode(bytes, None, file)?;
     let delimiter = table::sniff_delimiter(&decoded.text);
     let text_table = table::read_table(&decoded.text, delimiter, file)?;
@@ -111,15 +194,7 @@ pub fn load_table(
             "reshape the table to long form, or remove the margin property from the catalog",
         ));
     }
-    let mut loaded = RefTable {
-        resource: resource.clone(),
-        file: file.to_string(),
-        series: HashMap::new(),
-        se: HashMap::new(),
-        sha256: crate::report::methods::sha256_hex(bytes),
-        unresolved: Vec::new(),
-        rows_read: 0,
-    };
+    let mut loaded = empty_table(bytes, file, resource);
     let mut first_line: HashMap<(String, i32), usize> = HashMap::new();
     for record in &text_table.records {
         let entity_text = record.cells[roles.entity].trim();
@@ -171,33 +246,21 @@ pub fn load_table(
                     ))
                 }
             };
-            if value <= 0.0 && kind_must_be_positive(resource.kind) {
-                return Err(Error::bad_input(
-                    Location::cell(file, record.line, header),
-                    format!("{} factor \"{cell}\" is not positive", resource.kind.as_str()),
-                    format!("a positive {}", resource.kind.describe()),
-                    "fix the reference table; mark a missing factor with .. or leave the cell empty",
-                ));
-            }
-            if let Some(previous) = first_line.insert((code.clone(), year), record.line) {
-                return Err(Error::bad_input(
-                    Location::line(file, record.line),
-                    format!("a second {} factor for {code} in {year} (the first is on line {previous})", resource.kind.as_str()),
-                    "one factor per entity and year",
-                    "remove the duplicate, or check whether two names in the table mean the same country",
-                ));
-            }
-            loaded
-                .series
-                .entry(code.clone())
-                .or_default()
-                .insert(year, value * resource.multiplier);
+            check_positive(value, cell, resource, file, record.line, header)?;
+            insert_factor(
+                &mut loaded,
+                &mut first_line,
+                &code,
+                year,
+                value * resource.multiplier,
+                record.line,
+            )?;
             if let Some(&margin_column) = roles.reserved.first() {
                 let margin_cell = &record.cells[margin_column];
-                if let Ok(Cell::Number { value: margin, .. }) =
+                if let Ok(Cell::Number { float: margin, .. }) =
                     number::parse_cell(margin_cell, NumberStyle::default())
                 {
-                    let margin = number::to_f64(margin) * resource.multiplier;
+                    let margin = margin * resource.multiplier;
                     let se = match (resource.moe_field.is_some(), resource.moe_level) {
                         (true, Some(level)) => {
                             margin
@@ -210,16 +273,7 @@ pub fn load_table(
                     loaded.se.insert((code.clone(), year), se);
                 }
             }
-            loaded.rows_read += 1;
         }
     }
     Ok(loaded)
-}
-
-fn kind_must_be_positive(kind: Kind) -> bool {
-    // Every kind divides or scales a figure; zero or negative factors have no meaning here.
-    matches!(
-        kind,
-        Kind::Fx | Kind::Ppp | Kind::Cpi | Kind::Population | Kind::Income
-    )
 }

@@ -111,3 +111,19 @@ fn usd_input_is_taken_back_to_local_currency_before_ppp() {
         "market conversion of USD is the identity"
     );
 }
+
+#[test]
+fn sdmx_csv_references_in_both_layouts() {
+    // Hand-written fixtures in the SDMX-CSV 1.0 and 2.0 layouts (ISO 17369), with UNIT_MULT 3
+    // and 6 and a filter on the measure and frequency; the figures are made up.
+    let env = setup();
+    let input = env.write("in.csv", "country,year,value\nFrance,2021,73\nChile,2021,42000\n");
+    let run = env.run(&["adjust", &input, "--refs", &env.data("sdmx"), "--steps", "ppp,per-capita", "--per", "1000000", "--format", "csv"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    assert_eq!(num(&rows[0], "ppp_used"), 0.73);
+    assert_eq!(num(&rows[1], "ppp_used"), 420.0);
+    assert_eq!(num(&rows[0], "population_used"), 67_700_000.0);
+    assert!((num(&rows[0], "value_adjusted") - 73.0 / 0.73 / 67.7).abs() < 1e-9);
+    assert!((num(&rows[1], "value_adjusted") - 42000.0 / 420.0 / 19.493).abs() < 1e-9);
+}

@@ -1,0 +1,250 @@
+//! Reference tables in SDMX-CSV, the open statistical data exchange standard (ISO 17369) as
+//! agencies publish it: version 1 (first column `DATAFLOW`) and version 2 (first columns
+//! `STRUCTURE`, `STRUCTURE_ID`, optionally `ACTION`). `REF_AREA` gives the entity,
+//! `TIME_PERIOD` the year, `OBS_VALUE` the factor, and `UNIT_MULT` (a power of ten) scales it.
+//! Headers and cells may carry labels (`REF_AREA: Reference area`, `FR: France`); the code
+//! before the colon is used.
+//!
+//! The catalog's `filter` keeps the rows whose dimensions have the given codes. If several series
+//! remain for one entity and year, the file is ambiguous and the error lists the series found,
+//! so the user can add the filter that picks one.
+
+use crate::entity::{Resolution, Resolver};
+use crate::error::{Error, Location, Result};
+use crate::ingest::number::{self, Cell, NumberStyle};
+use crate::ingest::{encoding, table};
+use crate::reference::catalog::Resource;
+use crate::reference::table::{check_positive, empty_table, insert_factor, RefTable};
+use std::collections::{BTreeMap, BTreeSet, HashMap};
+
+/// Columns that are not dimensions of a series.
+const NOT_DIMENSIONS: &[&str] = &[
+    "DATAFLOW",
+    "STRUCTURE",
+    "STRUCTURE_ID",
+    "ACTION",
+    "REF_AREA",
+    "TIME_PERIOD",
+    "OBS_VALUE",
+    "UNIT_MULT",
+    "OBS_STATUS",
+    "OBS_FLAG",
+    "CONF_STATUS",
+    "DECIMALS",
+    "OBS_COMMENT",
+    "COMMENT",
+    "UNIT_MEASURE_LABEL",
+];
+
+/// The code part of a header or cell: `REF_AREA: Reference area` → `REF_AREA`.
+fn code(text: &str) -> &str {
+    text.split_once(':').map(|(c, _)| c).unwrap_or(text).trim()
+}
+
+pub fn load_sdmx(
+    bytes: &[u8],
+    file: &str,
+    resource: &Resource,
+    resolver: &Resolver,
+) -> Result<RefTable> {
+    let decoded = encoding::decode(bytes, None, file)?;
+    let delimiter = table::sniff_delimiter(&decoded.text);
+    let text_table = table::read_table(&decoded.text, delimiter, file)?;
+    let headers: Vec<String> = text_table
+        .headers
+        .iter()
+        .map(|h| code(h).to_uppercase())
+        .collect();
+    let column = |name: &str| headers.iter().position(|h| h == name);
+    let missing = |name: &str| {
+        Error::bad_input(
+            Location::line(file, 1),
+            format!("no {name} column in an SDMX-CSV file"),
+            "SDMX-CSV columns REF_AREA, TIME_PERIOD and OBS_VALUE (version 1 or 2)",
+            "check the file's layout, or remove \"format\": \"sdmx-csv\" from the catalog for a plain table",
+        )
+    };
+    let area = column("REF_AREA").ok_or_else(|| missing("REF_AREA"))?;
+    let time = column("TIME_PERIOD").ok_or_else(|| missing("TIME_PERIOD"))?;
+    let value = column("OBS_VALUE").ok_or_else(|| missing("OBS_VALUE"))?;
+    let unit_mult = column("UNIT_MULT");
+    for dimension in resource.filter.keys() {
+        if column(&dimension.to_uppercase()).is_none() {
+            return Err(Error::bad_input(
+                Location::line(file, 1),
+                format!("the catalog filters on {dimension}, which is not a column of the file"),
+                format!("one of {}", headers.join(", ")),
+                "fix the resource's \"filter\" in the catalog",
+            ));
+        }
+    }
+    let dimensions: Vec<usize> = (0..headers.len())
+        .filter(|&i| !NOT_DIMENSIONS.contains(&headers[i].as_str()))
+        .collect();
+
+    let mut loaded = empty_table(bytes, file, resource);
+    let mut first_line: HashMap<(String, i32), usize> = HashMap::new();
+    // Series key (the dimension codes) per entity-year, to explain an ambiguity.
+    let mut series_seen: BTreeMap<(String, i32), Vec<String>> = BTreeMap::new();
+    for record in &text_table.records {
+        let kept = resource.filter.iter().all(|(dimension, wanted)| {
+            column(&dimension.to_uppercase()).is_some_and(|i| code(&record.cells[i]) == wanted)
+        });
+        if !kept {
+            continue;
+        }
+        let area_text = code(&record.cells[area]);
+        let entity = match resolver.resolve(area_text) {
+            Resolution::Found(e) => e.code.clone(),
+            Resolution::Unresolved { .. } => {
+                if !loaded.unresolved.iter().any(|(n, _)| n == area_text) {
+                    loaded.unresolved.push((area_text.to_string(), record.line));
+                }
+                continue;
+            }
+        };
+        let period = code(&record.cells[time]);
+        let year: i32 = match period.parse() {
+            Ok(y) if period.len() == 4 => y,
+            _ => {
+                return Err(Error::bad_input(
+                    Location::cell(file, record.line, &text_table.headers[time]),
+                    format!("TIME_PERIOD \"{period}\" is not a year"),
+                    "annual observations (TIME_PERIOD such as 2021)",
+                    "filter the file to its annual frequency (for example \"filter\": {\"FREQ\": \"A\"})",
+                ))
+            }
+        };
+        let cell = &record.cells[value];
+        let factor = match number::parse_cell(cell, NumberStyle::default()) {
+            Ok(Cell::Missing) => continue,
+            Ok(Cell::Number { float, .. }) => float,
+            Err(e) => {
+                return Err(Error::bad_input(
+                    Location::cell(file, record.line, &text_table.headers[value]),
+                    e.reason,
+                    format!("a {} factor ({})", resource.kind.as_str(), e.hint),
+                    "fix the file",
+                ))
+            }
+        };
+        let power = match unit_mult.map(|i| code(&record.cells[i]).to_string()) {
+            None => 0,
+            Some(text) if text.is_empty() => 0,
+            Some(text) => text.parse::<i32>().map_err(|_| {
+                Error::bad_input(
+                    Location::cell(file, record.line, "UNIT_MULT"),
+                    format!("UNIT_MULT \"{text}\" is not a power of ten"),
+                    "an integer such as 0, 3 or 6",
+                    "fix the file",
+                )
+            })?,
+        };
+        let factor = factor * 10f64.powi(power) * resource.multiplier;
+        check_positive(
+            factor,
+            cell,
+            resource,
+            file,
+            record.line,
+            &text_table.headers[value],
+        )?;
+        let series: String = dimensions
+            .iter()
+            .map(|&i| format!("{}={}", headers[i], code(&record.cells[i])))
+            .collect::<Vec<_>>()
+            .join(",");
+        series_seen
+            .entry((entity.clone(), year))
+            .or_default()
+            .push(series);
+        if first_line.contains_key(&(entity.clone(), year)) {
+            let found: BTreeSet<&String> = series_seen[&(entity.clone(), year)].iter().collect();
+            return Err(Error::bad_input(
+                Location::line(file, record.line),
+                format!(
+                    "several series for {entity} in {year}: {}",
+                    found.into_iter().map(String::as_str).collect::<Vec<_>>().join(" | ")
+                ),
+                "one series per entity and year",
+                "add a \"filter\" to the catalog resource that picks one series (for example a measure or unit code)",
+            ));
+        }
+        insert_factor(
+            &mut loaded,
+            &mut first_line,
+            &entity,
+            year,
+            factor,
+            record.line,
+        )?;
+    }
+    Ok(loaded)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::reference::catalog::parse_catalog;
+
+    fn resource(filter: &str) -> Resource {
+        let json = format!(
+            r#"{{"resources":[{{"name":"p","path":"p.csv","kind":"ppp","format":"sdmx-csv","filter":{filter}}}]}}"#
+        );
+        parse_catalog(json.as_bytes(), "dp.json")
+            .unwrap()
+            .resources
+            .remove(0)
+    }
+
+    // Hand-written in the SDMX-CSV 1.0 layout (DATAFLOW first, dimension columns, TIME_PERIOD,
+    // OBS_VALUE, attributes); the figures are made up.
+    const V1: &str = "DATAFLOW,FREQ,REF_AREA,MEASURE,TIME_PERIOD,OBS_VALUE,UNIT_MULT\n\
+        AGENCY:PPP_TEST(1.0),A,FR,PPP,2021,0.73,0\n\
+        AGENCY:PPP_TEST(1.0),A,FR,PLI,2021,85,0\n\
+        AGENCY:PPP_TEST(1.0),A,CL,PPP,2021,0.42,3\n";
+
+    // Hand-written in the SDMX-CSV 2.0 layout with labels (STRUCTURE, STRUCTURE_ID, ACTION first;
+    // "code: label" headers and cells); the figures are made up.
+    const V2: &str = "STRUCTURE,STRUCTURE_ID,ACTION,FREQ: Frequency,REF_AREA: Reference area,UNIT_MEASURE,TIME_PERIOD: Time,OBS_VALUE: Value,UNIT_MULT: Multiplier\n\
+        dataflow,AGENCY:POP_TEST(2.0),I,A: Annual,FR: France,PS: Persons,2021,67.7,6: Millions\n\
+        dataflow,AGENCY:POP_TEST(2.0),I,A: Annual,CL: Chile,PS: Persons,2021,19493,3: Thousands\n";
+
+    #[test]
+    fn version_1_with_a_filter_and_unit_mult_3() {
+        let resolver = Resolver::builtin();
+        let t = load_sdmx(
+            V1.as_bytes(),
+            "p.csv",
+            &resource(r#"{"MEASURE":"PPP"}"#),
+            &resolver,
+        )
+        .unwrap();
+        assert_eq!(t.lookup("FRA", 2021, 0).unwrap().value, 0.73);
+        assert_eq!(t.lookup("CHL", 2021, 0).unwrap().value, 420.0);
+    }
+
+    #[test]
+    fn version_2_with_labels_and_unit_mult_6() {
+        let resolver = Resolver::builtin();
+        let mut r = resource("{}");
+        r.kind = crate::reference::Kind::Population;
+        let t = load_sdmx(V2.as_bytes(), "pop.csv", &r, &resolver).unwrap();
+        assert_eq!(t.lookup("FRA", 2021, 0).unwrap().value, 67_700_000.0);
+        assert_eq!(t.lookup("CHL", 2021, 0).unwrap().value, 19_493_000.0);
+    }
+
+    #[test]
+    fn several_series_for_one_entity_year_is_an_error_listing_them() {
+        let resolver = Resolver::builtin();
+        let err = load_sdmx(V1.as_bytes(), "p.csv", &resource("{}"), &resolver)
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains("several series for FRA in 2021"), "{err}");
+        assert!(
+            err.contains("MEASURE=PPP") && err.contains("MEASURE=PLI"),
+            "{err}"
+        );
+        assert!(err.contains("filter"), "{err}");
+    }
+}
