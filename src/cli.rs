@@ -359,6 +359,14 @@ pub struct ColumnArgs {
     #[arg(long, help_heading = "Reading")]
     pub lenient: bool,
 
+    /// Spreadsheet input: the sheet to read, by name or position (from 1). Default: the first.
+    #[arg(long, value_name = "NAME|INDEX", help_heading = "Reading")]
+    pub sheet: Option<String>,
+
+    /// Spreadsheet input: the row that holds the header (default: found past title rows).
+    #[arg(long, value_name = "N", help_heading = "Reading")]
+    pub header_row: Option<usize>,
+
     /// Refuse inputs larger than this many megabytes (the whole table is held in memory).
     #[arg(
         long,

@@ -355,6 +355,8 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
         lenient: columns.lenient,
         margins: MarginSpec::None,
         extra_columns: Vec::new(),
+        sheet: columns.sheet.clone(),
+        header_row: columns.header_row,
     })
 }
 

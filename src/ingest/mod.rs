@@ -9,6 +9,7 @@ pub mod encoding;
 pub mod layout;
 pub mod margins;
 pub mod number;
+pub mod spreadsheet;
 pub mod table;
 
 use crate::entity::Resolver;
@@ -31,6 +32,9 @@ pub struct IngestOptions {
     pub margins: margins::MarginSpec,
     /// Columns carried as text (the claimed figures of `audit`); they need a long table.
     pub extra_columns: Vec<String>,
+    /// Spreadsheets: the sheet (name or position from 1) and a forced header row.
+    pub sheet: Option<String>,
+    pub header_row: Option<usize>,
 }
 
 /// One figure of the input.
@@ -62,11 +66,25 @@ pub struct Ingested {
 }
 
 pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Ingested> {
-    let decoded = encoding::decode(bytes, options.encoding, file)?;
-    let delimiter = match options.delimiter {
-        Some(d) => d,
-        None if file.ends_with(".tsv") || file.ends_with(".tab") => b'\t',
-        None => table::sniff_delimiter(&decoded.text),
+    let (decoded, delimiter, mut sheet_notes) = if spreadsheet::is_spreadsheet(file) {
+        let (text, notes) =
+            spreadsheet::sheet_to_csv(bytes, file, options.sheet.as_deref(), options.header_row)?;
+        (
+            encoding::Decoded {
+                text,
+                description: "spreadsheet".into(),
+            },
+            b',',
+            notes,
+        )
+    } else {
+        let decoded = encoding::decode(bytes, options.encoding, file)?;
+        let delimiter = match options.delimiter {
+            Some(d) => d,
+            None if file.ends_with(".tsv") || file.ends_with(".tab") => b'\t',
+            None => table::sniff_delimiter(&decoded.text),
+        };
+        (decoded, delimiter, Vec::new())
     };
     let table = table::read_table(&decoded.text, delimiter, file)?;
     let mut role_flags = options.roles.clone();
@@ -89,6 +107,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         table::delimiter_name(delimiter),
         table.records.len()
     )];
+    notes.append(&mut sheet_notes);
     let entity_column = table.headers[roles.entity].clone();
     notes.push(format!(
         "entity column: \"{entity_column}\"{}",
