@@ -13,6 +13,7 @@ pub const UNRESOLVED: &str = "unresolved";
 pub const AGGREGATE: &str = "aggregate";
 pub const CURRENCY_MISMATCH: &str = "currency_mismatch";
 pub const NOT_RANKED: &str = "not_ranked";
+pub const FORMULA_CELL: &str = "formula_cell";
 pub const NO_MARGIN: &str = "no_margin";
 pub const ASYMMETRIC_CI: &str = "asymmetric_ci";
 pub const WITHIN_UNCERTAINTY: &str = "within_uncertainty";
@@ -32,6 +33,7 @@ pub const FLAG_MEANINGS: &[(&str, &str)] = &[
     ("no_<kind>", "no reference factor of that kind (fx, ppp, cpi, population, income) for the entity and year"),
     ("no_<kind>_base_year", "no reference factor of that kind for the entity in the base year"),
     ("<kind>_year_differs:YYYY", "the factor of year YYYY was used (allowed by --nearest-year)"),
+    (FORMULA_CELL, "the spreadsheet row holds a formula; its stored value was read, never evaluated"),
     (NO_MARGIN, "the figure has no margin of error; it is treated as exact in rank intervals and ties"),
     (ASYMMETRIC_CI, "the confidence interval is not symmetric; the larger half is used as the margin"),
     (WITHIN_UNCERTAINTY, "the rank shift is within the uncertainty: the baseline and adjusted rank intervals overlap"),

@@ -66,8 +66,8 @@ pub struct Ingested {
 }
 
 pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Ingested> {
-    let (decoded, delimiter, mut sheet_notes) = if spreadsheet::is_spreadsheet(file) {
-        let (text, notes) =
+    let (decoded, delimiter, mut sheet_notes, formula_rows) = if spreadsheet::is_spreadsheet(file) {
+        let (text, notes, formula_rows) =
             spreadsheet::sheet_to_csv(bytes, file, options.sheet.as_deref(), options.header_row)?;
         (
             encoding::Decoded {
@@ -76,6 +76,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             },
             b',',
             notes,
+            formula_rows,
         )
     } else {
         let decoded = encoding::decode(bytes, options.encoding, file)?;
@@ -84,7 +85,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             None if file.ends_with(".tsv") || file.ends_with(".tab") => b'\t',
             None => table::sniff_delimiter(&decoded.text),
         };
-        (decoded, delimiter, Vec::new())
+        (decoded, delimiter, Vec::new(), Vec::new())
     };
     let table = table::read_table(&decoded.text, delimiter, file)?;
     let mut role_flags = options.roles.clone();
@@ -247,6 +248,10 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                 }
             }
         }
+    }
+    // Formulas are never evaluated: a row whose sheet row holds one says so.
+    for row in rows.iter_mut().filter(|r| formula_rows.contains(&r.line)) {
+        row.flags.push(flags::FORMULA_CELL.into());
     }
     Ok(Ingested {
         rows,

@@ -23,7 +23,7 @@ pub fn sheet_to_csv(
     file: &str,
     sheet: Option<&str>,
     header_row: Option<usize>,
-) -> Result<(String, Vec<String>)> {
+) -> Result<(String, Vec<String>, Vec<usize>)> {
     let unreadable = |e: calamine::Error| {
         Error::bad_input(
             Location::file(file),
@@ -87,9 +87,6 @@ pub fn sheet_to_csv(
         }
         let mut cells: Vec<String> = vec![String::new(); first_column];
         cells.extend(row.iter().map(cell_text));
-        while cells.len() > 1 && cells.last().is_some_and(|c| c.is_empty()) {
-            cells.pop();
-        }
         writer.write_record(&cells).map_err(|e| {
             Error::io(
                 file,
@@ -127,7 +124,7 @@ pub fn sheet_to_csv(
             if formula_rows.len() > 10 { ", ..." } else { "" }
         ));
     }
-    Ok((text, notes))
+    Ok((text, notes, formula_rows))
 }
 
 /// A cell as the text the table reader expects; line breaks inside a cell become spaces so that

@@ -193,3 +193,22 @@ fn an_xlsx_sheet_with_title_rows_notes_and_text_numbers_equals_its_csv_twin() {
     assert_eq!(missing.code, 2);
     assert!(missing.stderr.contains("Notes, Fees"), "{}", missing.stderr);
 }
+
+#[test]
+fn spreadsheet_formulas_are_flagged_never_evaluated() {
+    // The fixture was written without a stored result for its formula (as some generators do),
+    // so the cell has no value: the row is kept, flagged, and the formula is not computed.
+    let env = setup();
+    let run = env.run(&[
+        "adjust",
+        &env.data("sheets/formula.xlsx"),
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    assert_eq!(rows.len(), 2);
+    assert!(rows[0]["flags"].contains("formula_cell"), "{:?}", rows[0]);
+    assert_eq!(rows[0]["value"], "", "a formula is never evaluated");
+    assert!(!rows[1]["flags"].contains("formula_cell"));
+}
