@@ -136,7 +136,16 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         report::write_atomically(path, &html)?;
     }
     match &plan.output.path {
+        Some(path) if plan.output.format == report::Format::Parquet => {
+            report::write_parquet_atomically(path, &output.frame)?
+        }
         Some(path) => report::write_atomically(path, &text)?,
+        None if plan.output.format == report::Format::Parquet => {
+            return Err(error::Error::usage(
+                "Parquet is a binary format and is not written to the terminal",
+                "pass -o FILE.parquet",
+            ))
+        }
         None => {
             let mut stdout = std::io::stdout().lock();
             stdout

@@ -66,7 +66,20 @@ pub struct Ingested {
 }
 
 pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Ingested> {
-    let (decoded, delimiter, mut sheet_notes, formula_rows) = if spreadsheet::is_spreadsheet(file) {
+    let (decoded, delimiter, mut sheet_notes, formula_rows) = if file
+        .to_ascii_lowercase()
+        .ends_with(".parquet")
+    {
+        (
+            encoding::Decoded {
+                text: parquet_as_csv(bytes, file)?,
+                description: "Parquet".into(),
+            },
+            b',',
+            Vec::new(),
+            Vec::new(),
+        )
+    } else if spreadsheet::is_spreadsheet(file) {
         let (text, notes, formula_rows) =
             spreadsheet::sheet_to_csv(bytes, file, options.sheet.as_deref(), options.header_row)?;
         (
@@ -260,6 +273,23 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         entity_column,
         has_group: roles.group.is_some(),
     })
+}
+
+/// A Parquet file as CSV text, every number at full precision (shortest text that reads back to
+/// the same f64), so the rest of ingest treats it like any table.
+fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
+    use polars::prelude::{ParquetReader, SerReader};
+    let frame = ParquetReader::new(std::io::Cursor::new(bytes.to_vec()))
+        .finish()
+        .map_err(|e| {
+            Error::bad_input(
+                Location::file(file),
+                format!("the Parquet file cannot be read: {e}"),
+                "an Apache Parquet file",
+                "check that the file is complete, or export it as CSV",
+            )
+        })?;
+    crate::report::render_csv(&frame, crate::report::format::Rounding::Full)
 }
 
 struct RowReader<'a> {

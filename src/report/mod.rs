@@ -34,6 +34,8 @@ pub enum Format {
     Methods,
     /// One row per entity and year, one column per stage: the shape charting tools take.
     ChartCsv,
+    /// Typed columns in an Apache Parquet file (needs -o).
+    Parquet,
 }
 
 impl Format {
@@ -44,6 +46,7 @@ impl Format {
             "md" | "markdown" => Some(Format::Md),
             "json" => Some(Format::Json),
             "txt" => Some(Format::Table),
+            "parquet" => Some(Format::Parquet),
             _ => None,
         }
     }
@@ -61,7 +64,7 @@ pub fn render(
         Format::Md => render_markdown(frame, summary, reader_rounding(rounding)),
         Format::Csv => render_csv(frame, rounding)?,
         Format::Json => render_json(frame, summary, rounding)?,
-        Format::Methods | Format::ChartCsv => render_chart_csv(frame, rounding)?,
+        Format::Methods | Format::ChartCsv | Format::Parquet => render_chart_csv(frame, rounding)?,
     })
 }
 
@@ -326,6 +329,28 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
     out.push('\n');
     out.push_str(&uncertainty_legend(frame));
     out
+}
+
+/// Writes the frame as Parquet (typed columns, full precision) atomically.
+pub fn write_parquet_atomically(path: &Path, frame: &DataFrame) -> Result<()> {
+    let dir = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => std::path::PathBuf::from("."),
+    };
+    let temp = tempfile::NamedTempFile::new_in(&dir)
+        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
+    let mut frame = frame.clone();
+    ParquetWriter::new(temp.as_file())
+        .finish(&mut frame)
+        .map_err(Error::engine("writing Parquet"))?;
+    temp.persist(path).map_err(|e| {
+        Error::io(
+            path.display(),
+            "move the finished output into place",
+            e.error,
+        )
+    })?;
+    Ok(())
 }
 
 /// Writes `text` to `path` through a temporary file in the same folder and a rename, so a

@@ -333,3 +333,62 @@ fn legacy_encodings_and_tabs_are_read() {
     assert_eq!(run.code, 0, "{}", run.stderr);
     assert_eq!(run.rows()[0]["entity_code"], "TUR");
 }
+
+#[test]
+fn parquet_output_keeps_every_bit_and_parquet_input_reads_like_csv() {
+    use polars::prelude::*;
+    let env = setup();
+    let run = env.run(&["demo", "--format", "parquet", "-o", "demo.parquet"]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let csv = env.run(&["demo", "--format", "csv"]).rows();
+    let file = std::fs::File::open(env.path("demo.parquet")).unwrap();
+    let frame = ParquetReader::new(file).finish().unwrap();
+    assert_eq!(frame.height(), csv.len());
+    assert_eq!(
+        frame.column("year").unwrap().dtype(),
+        &DataType::Int32,
+        "typed columns"
+    );
+    for name in [
+        "value",
+        "value_real",
+        "value_intl",
+        "value_baseline",
+        "value_adjusted",
+        "cpi_ratio",
+    ] {
+        let column: Vec<Option<f64>> = frame.column(name).unwrap().f64().unwrap().iter().collect();
+        for (parquet, row) in column.iter().zip(&csv) {
+            let text = &row[name];
+            match parquet {
+                Some(x) => assert_eq!(
+                    x.to_bits(),
+                    text.parse::<f64>().unwrap().to_bits(),
+                    "{name}"
+                ),
+                None => assert_eq!(text, ""),
+            }
+        }
+    }
+    // A Parquet input reads like its CSV twin.
+    let mut input = df!("country" => ["France", "Chile"], "year" => [2020i32, 2020], "value" => [1250.5f64, 3400.0]).unwrap();
+    let parquet_in = env.path("in.parquet");
+    ParquetWriter::new(std::fs::File::create(&parquet_in).unwrap())
+        .finish(&mut input)
+        .unwrap();
+    let twin = env.write(
+        "in.csv",
+        "country,year,value\nFrance,2020,1250.5\nChile,2020,3400\n",
+    );
+    let a = env.run(&[
+        "adjust",
+        &parquet_in.display().to_string(),
+        "--format",
+        "csv",
+    ]);
+    let b = env.run(&["adjust", &twin, "--format", "csv"]);
+    assert_eq!(a.code, 0, "{}", a.stderr);
+    assert_eq!(a.stdout, b.stdout);
+    let refused = env.run(&["demo", "--format", "parquet"]);
+    assert_eq!(refused.code, 2);
+}
