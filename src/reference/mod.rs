@@ -62,8 +62,15 @@ impl References {
                     .first()
                     .map(|s| s.title.as_str())
                     .unwrap_or("no source given");
+                let filtered = if r.filter.is_empty() {
+                    String::new()
+                } else {
+                    let pairs: Vec<String> =
+                        r.filter.iter().map(|(k, v)| format!("{k}={v}")).collect();
+                    format!(", SDMX series filtered on {}", pairs.join(", "))
+                };
                 format!(
-                    "{} \"{}\" ({}{}), vintage {}, source: {source}",
+                    "{} \"{}\" ({}{}), vintage {}, source: {source}{filtered}",
                     r.kind.as_str(),
                     r.name,
                     if r.unit.is_empty() {

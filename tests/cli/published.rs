@@ -135,6 +135,12 @@ fn sdmx_csv_references_in_both_layouts() {
     ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let rows = run.rows();
+    assert!(
+        run.stderr
+            .contains("SDMX series filtered on FREQ=A, MEASURE=PPP"),
+        "{}",
+        run.stderr
+    );
     assert_eq!(num(&rows[0], "ppp_used"), 0.73);
     assert_eq!(num(&rows[1], "ppp_used"), 420.0);
     assert_eq!(num(&rows[0], "population_used"), 67_700_000.0);
