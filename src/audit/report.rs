@@ -81,22 +81,33 @@ const HEADER: [&str; 7] = [
     "likely cause",
 ];
 
+const NO_FINDINGS: &str =
+    "No findings: every claimed figure matches its recomputation within rounding.\n";
+
+/// The findings grouped by severity, most serious first, empty groups left out.
+fn by_severity(report: &AuditReport) -> Vec<(Severity, Vec<&Finding>)> {
+    [Severity::Error, Severity::Warning, Severity::Caution]
+        .into_iter()
+        .map(|s| {
+            (
+                s,
+                report
+                    .findings
+                    .iter()
+                    .filter(|f| f.severity == s)
+                    .collect::<Vec<_>>(),
+            )
+        })
+        .filter(|(_, findings)| !findings.is_empty())
+        .collect()
+}
+
 pub fn render_text(report: &AuditReport) -> String {
     let mut out = headline(report);
     if report.findings.is_empty() {
-        out.push_str(
-            "No findings: every claimed figure matches its recomputation within rounding.\n",
-        );
+        out.push_str(NO_FINDINGS);
     }
-    for severity in [Severity::Error, Severity::Warning, Severity::Caution] {
-        let findings: Vec<&Finding> = report
-            .findings
-            .iter()
-            .filter(|f| f.severity == severity)
-            .collect();
-        if findings.is_empty() {
-            continue;
-        }
+    for (severity, findings) in by_severity(report) {
         let mut builder = tabled::builder::Builder::default();
         builder.push_record(HEADER);
         for row in rows_of(&findings) {
@@ -120,19 +131,9 @@ pub fn render_markdown(report: &AuditReport) -> String {
     let mut out = format!("# Audit memo: {}\n\n", report.input);
     out.push_str(&headline(report).replace('\n', "\n\n"));
     if report.findings.is_empty() {
-        out.push_str(
-            "No findings: every claimed figure matches its recomputation within rounding.\n",
-        );
+        out.push_str(NO_FINDINGS);
     }
-    for severity in [Severity::Error, Severity::Warning, Severity::Caution] {
-        let findings: Vec<&Finding> = report
-            .findings
-            .iter()
-            .filter(|f| f.severity == severity)
-            .collect();
-        if findings.is_empty() {
-            continue;
-        }
+    for (severity, findings) in by_severity(report) {
         out.push_str(&format!(
             "\n## {} ({})\n\n| {} |\n|---|---|---|---:|---:|---:|---|\n",
             severity.name(),

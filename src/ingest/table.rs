@@ -220,6 +220,13 @@ impl<'a> LineCounter<'a> {
     }
 }
 
+/// Reads a file's bytes as a table with the detected encoding and delimiter (reference tables:
+/// no options to force either).
+pub fn read_bytes(bytes: &[u8], file: &str) -> Result<TextTable> {
+    let decoded = crate::ingest::encoding::decode(bytes, None, file)?;
+    read_table(&decoded.text, sniff_delimiter(&decoded.text), file)
+}
+
 /// A cell or line cut to a length that fits in a message.
 pub fn shorten(text: &str) -> String {
     const MAX: usize = 60;

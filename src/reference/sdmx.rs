@@ -12,7 +12,7 @@
 use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
 use crate::ingest::number::{self, Cell, NumberStyle};
-use crate::ingest::{encoding, table};
+use crate::ingest::table;
 use crate::reference::catalog::Resource;
 use crate::reference::table::{check_positive, empty_table, insert_factor, RefTable};
 use std::collections::{BTreeMap, BTreeSet, HashMap};
@@ -47,9 +47,7 @@ pub fn load_sdmx(
     resource: &Resource,
     resolver: &Resolver,
 ) -> Result<RefTable> {
-    let decoded = encoding::decode(bytes, None, file)?;
-    let delimiter = table::sniff_delimiter(&decoded.text);
-    let text_table = table::read_table(&decoded.text, delimiter, file)?;
+    let text_table = table::read_bytes(bytes, file)?;
     let headers: Vec<String> = text_table
         .headers
         .iter()

@@ -10,7 +10,7 @@ use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
 use crate::ingest::layout::{self, RoleFlags, Shape, YearSource};
 use crate::ingest::number::{self, Cell, NumberStyle};
-use crate::ingest::{encoding, table};
+use crate::ingest::table;
 use crate::reference::catalog::Resource;
 use std::collections::{BTreeMap, HashMap};
 
@@ -169,9 +169,7 @@ fn load_plain(
     resource: &Resource,
     resolver: &Resolver,
 ) -> Result<RefTable> {
-    let decoded = encoding::decode(bytes, None, file)?;
-    let delimiter = table::sniff_delimiter(&decoded.text);
-    let text_table = table::read_table(&decoded.text, delimiter, file)?;
+    let text_table = table::read_bytes(bytes, file)?;
     let flags = RoleFlags {
         entity: resource.entity_field.clone(),
         value: resource.value_field.clone(),
