@@ -40,6 +40,8 @@ pub struct Context<'a> {
     settings: &'a AuditSettings,
     references: &'a References,
     checked: Counter<usize>,
+    /// Groups that are cross-sections spanning several years, found once from the rows.
+    cross_sections: BTreeSet<Option<String>>,
 }
 
 /// A recomputed figure with the tolerance its raw figure's rounding carries.
@@ -57,7 +59,7 @@ impl<'a> Context<'a> {
         settings: &'a AuditSettings,
         references: &'a References,
     ) -> Self {
-        let rows = ingested
+        let rows: Vec<Row> = ingested
             .rows
             .iter()
             .enumerate()
@@ -78,7 +80,9 @@ impl<'a> Context<'a> {
                 cells: r.extra.clone(),
             })
             .collect();
+        let cross_sections = cross_section_groups(&rows);
         Context {
+            cross_sections,
             rows,
             claims,
             settings,
@@ -112,29 +116,11 @@ impl<'a> Context<'a> {
     /// The comparison a row belongs to: its group and year, or only its group when the table is
     /// a cross-section (each entity once) that spans several years.
     fn comparison(&self, row: &Row) -> (Option<String>, Option<i32>) {
-        if self.cross_section_groups().contains(&row.group) {
+        if self.cross_sections.contains(&row.group) {
             (row.group.clone(), None)
         } else {
             (row.group.clone(), row.year)
         }
-    }
-
-    fn cross_section_groups(&self) -> BTreeSet<Option<String>> {
-        let mut entities: BTreeMap<Option<String>, (BTreeSet<String>, BTreeSet<i32>, usize)> =
-            BTreeMap::new();
-        for row in &self.rows {
-            let entry = entities.entry(row.group.clone()).or_default();
-            entry
-                .0
-                .insert(row.code.clone().unwrap_or_else(|| row.entity.clone()));
-            entry.1.extend(row.year);
-            entry.2 += 1;
-        }
-        entities
-            .into_iter()
-            .filter(|(_, (e, y, n))| e.len() == *n && y.len() > 1)
-            .map(|(g, _)| g)
-            .collect()
     }
 
     /// The figure a claim of `role` should hold for `row`, using the factor of `year`.
@@ -554,7 +540,7 @@ impl<'a> Context<'a> {
                 }
             }
         }
-        for group in self.cross_section_groups() {
+        for group in self.cross_sections.clone() {
             let years: BTreeSet<i32> = self
                 .rows
                 .iter()
@@ -646,6 +632,25 @@ impl<'a> Context<'a> {
         }
         out
     }
+}
+
+/// Groups in which each entity appears once but the years differ: a cross-section mixing years.
+fn cross_section_groups(rows: &[Row]) -> BTreeSet<Option<String>> {
+    let mut entities: BTreeMap<Option<String>, (BTreeSet<String>, BTreeSet<i32>, usize)> =
+        BTreeMap::new();
+    for row in rows {
+        let entry = entities.entry(row.group.clone()).or_default();
+        entry
+            .0
+            .insert(row.code.clone().unwrap_or_else(|| row.entity.clone()));
+        entry.1.extend(row.year);
+        entry.2 += 1;
+    }
+    entities
+        .into_iter()
+        .filter(|(_, (e, y, n))| e.len() == *n && y.len() > 1)
+        .map(|(g, _)| g)
+        .collect()
 }
 
 /// Standard competition ranks ("1224"), None for missing values.
