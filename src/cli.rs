@@ -37,6 +37,25 @@ pub enum Command {
     Lead(LeadArgs),
     /// Check a received table: recompute its claimed figures and explain each discrepancy.
     Audit(Box<AuditArgs>),
+    /// Run many recipes, or one recipe over every table a pattern matches, and summarise.
+    Batch(BatchArgs),
+}
+
+#[derive(Debug, Args)]
+#[command(after_long_help = crate::batch::MANIFEST_HELP)]
+pub struct BatchArgs {
+    /// The batch manifest (TOML): [[run]] entries naming a recipe and, optionally, a pattern of
+    /// inputs.
+    #[arg(value_name = "MANIFEST")]
+    pub manifest: PathBuf,
+
+    /// Stop at the first failing table; tables not yet started are reported as skipped.
+    #[arg(long)]
+    pub fail_fast: bool,
+
+    /// No progress bar, and no summary table when every table succeeded.
+    #[arg(short, long)]
+    pub quiet: bool,
 }
 
 #[derive(Debug, Args)]
@@ -133,12 +152,25 @@ pub struct LeadArgs {
     pub share_unit: ShareUnit,
 }
 
-#[derive(Debug, Args)]
+#[derive(Debug, Args, Clone)]
 #[command(after_long_help = adjust::steps_help())]
 pub struct AdjustArgs {
-    /// The table to adjust (CSV or TSV), or `-` for standard input.
-    #[arg(value_name = "INPUT")]
-    pub input: String,
+    /// The table to adjust (CSV, TSV, spreadsheet or Parquet), or `-` for standard input.
+    /// May come from --recipe instead.
+    #[arg(value_name = "INPUT", required_unless_present = "recipe")]
+    pub input: Option<String>,
+
+    /// Run the settings of a recipe file (TOML); flags given here override its keys.
+    #[arg(long, value_name = "FILE", help_heading = "Recipe")]
+    pub recipe: Option<PathBuf>,
+
+    /// After the run, write its settings as a recipe to FILE (paths relative to FILE's folder).
+    #[arg(long, value_name = "FILE", help_heading = "Recipe")]
+    pub save_recipe: Option<PathBuf>,
+
+    /// The flags given on the command line (clap ids), so a recipe knows what they override.
+    #[arg(skip)]
+    pub given: std::collections::BTreeSet<String>,
 
     /// Folder of reference tables described by a datapackage.json.
     #[arg(long, value_name = "DIR", help_heading = "Method")]
@@ -443,7 +475,30 @@ pub struct DemoArgs {
     pub output: OutputArgs,
 }
 
-fn parse_per(text: &str) -> Result<u32, String> {
+/// Parses a command line and records which `adjust` flags were given on it (a recipe may
+/// fill the others).
+pub fn parse_from<I, T>(argv: I) -> Result<Cli, clap::Error>
+where
+    I: IntoIterator<Item = T>,
+    T: Into<std::ffi::OsString> + Clone,
+{
+    use clap::{CommandFactory, FromArgMatches};
+    let matches = Cli::command().try_get_matches_from(argv)?;
+    let mut cli = Cli::from_arg_matches(&matches)?;
+    if let (Command::Adjust(args), Some(("adjust", sub))) = (&mut cli.command, matches.subcommand())
+    {
+        args.given = sub
+            .ids()
+            .filter(|id| {
+                sub.value_source(id.as_str()) == Some(clap::parser::ValueSource::CommandLine)
+            })
+            .map(|id| id.to_string())
+            .collect();
+    }
+    Ok(cli)
+}
+
+pub(crate) fn parse_per(text: &str) -> Result<u32, String> {
     match text.replace(['_', ','], "").as_str() {
         "1" => Ok(1),
         "1000" => Ok(1000),

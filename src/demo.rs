@@ -106,6 +106,8 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
         resolver,
         references: Some(references),
         output: demo_output(&args.output)?,
+        recipe: None,
+        recipe_file: None,
     })
 }
 

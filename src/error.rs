@@ -75,6 +75,17 @@ pub enum Error {
     #[error("{problem}\n  what to do: {fix}")]
     Usage { problem: String, fix: String },
 
+    /// A recipe or batch manifest key that is unknown, of the wrong type or not allowed.
+    #[error("{file}, line {line}, column {column}{}: {problem}\n  what to do: {fix}", if key.is_empty() { String::new() } else { format!(", key `{key}`") })]
+    Recipe {
+        file: String,
+        line: usize,
+        column: usize,
+        key: String,
+        problem: String,
+        fix: String,
+    },
+
     /// The operating system refused a read or a write.
     #[error("{path}: cannot {action}: {source}\n  what to do: check that the path exists and is readable (or writable)")]
     Io {

@@ -15,12 +15,15 @@
 //! - `audit`: recomputing a received table's claims and diagnosing discrepancies
 //! - `pipeline`: the adjust run from bytes to the output frame and its summary
 //! - `report`: terminal table, csv, md, json, atomic writes, the run summary
+//! - `recipe`: the adjust settings as a TOML file (read, merged under flags, saved)
+//! - `batch`: many recipes or one recipe over a folder, in parallel on polars' thread pool
 //! - `demo`: the bundled invented scenario
 //! - `flags`, `error`, `source`: shared vocabulary, typed errors, file access
 
 pub mod adjust;
 pub mod attach;
 pub mod audit;
+pub mod batch;
 pub mod cli;
 pub mod demo;
 pub mod entity;
@@ -30,6 +33,7 @@ pub mod ingest;
 pub mod pipeline;
 pub mod plan;
 pub mod rank;
+pub mod recipe;
 pub mod reference;
 pub mod report;
 pub mod resolve;
@@ -54,10 +58,17 @@ pub enum Outcome {
 pub fn run(cli: Cli) -> Result<Outcome> {
     match cli.command {
         Command::Adjust(args) => {
-            let plan = plan::resolve_adjust(&args)?;
+            let (args, plan) = recipe::resolve(*args)?;
             execute(&plan)?;
+            if let Some(path) = &args.save_recipe {
+                recipe::save_to(&args, path)?;
+                if !plan.output.quiet {
+                    eprintln!("  wrote the recipe of this run to {}", path.display());
+                }
+            }
             Ok(Outcome::Ok)
         }
+        Command::Batch(args) => batch::run(&args),
         Command::Refs(args) => {
             let mut resolver = entity::Resolver::builtin();
             for path in &args.aliases {
@@ -106,13 +117,23 @@ pub fn run(cli: Cli) -> Result<Outcome> {
 
 /// Runs a resolved adjust plan: pipeline, output, summary.
 pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
-    let output = pipeline::run_adjust(
+    let mut output = pipeline::run_adjust(
         &plan.input_bytes,
         &plan.input_label,
         &plan.settings,
         &plan.resolver,
         plan.references.as_ref(),
     )?;
+    if let (Some((file, _)), Some(quote)) = (&plan.recipe_file, &plan.recipe) {
+        output.summary.notes.push(if quote.overridden.is_empty() {
+            format!("recipe: {file}")
+        } else {
+            format!(
+                "recipe: {file}; flags on the command line overrode its keys {}",
+                quote.overridden.join(", ")
+            )
+        });
+    }
     let input_sha256 = report::methods::sha256_hex(&plan.input_bytes);
     let mut note = report::methods::build(
         &output.summary,
@@ -123,6 +144,18 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     if let Some(notice) = &plan.output.notice {
         note.in_brief.insert(0, notice.clone());
     }
+    if let Some((file, sha256)) = &plan.recipe_file {
+        note.files.insert(
+            1,
+            report::methods::FileLine {
+                role: "recipe".into(),
+                file: file.clone(),
+                description: "the settings of this run".into(),
+                sha256: sha256.clone(),
+            },
+        );
+    }
+    note.recipe = plan.recipe.clone();
     let text = match plan.output.format {
         report::Format::Methods => report::methods::render_markdown(&note),
         format => report::render(&output.frame, &output.summary, format, plan.output.rounding)?,

@@ -32,6 +32,10 @@ pub struct AdjustPlan {
     pub resolver: Resolver,
     pub references: Option<References>,
     pub output: OutputPlan,
+    /// The recipe quoted in the methods note.
+    pub recipe: Option<crate::report::methods::RecipeQuote>,
+    /// The recipe file a run read, with its sha256, for the files list.
+    pub recipe_file: Option<(String, String)>,
 }
 
 #[derive(Debug, Clone)]
@@ -56,9 +60,18 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         ));
     }
     let output = resolve_output(&args.output)?;
-    let (input_bytes, input_label) = read_input(&args.input, args.columns.max_input_mb)?;
-    if let Some(out) = &output.path {
-        refuse_overwrite(out, &args.input, args.refs.as_deref(), &args.aliases)?;
+    let input = args.input.as_deref().ok_or_else(|| {
+        Error::usage(
+            "no input table",
+            "pass INPUT (a file, or - for standard input), or set input in the recipe",
+        )
+    })?;
+    let (input_bytes, input_label) = read_input(input, args.columns.max_input_mb)?;
+    for out in [&output.path, &output.methods, &output.report, &args.save_recipe]
+        .into_iter()
+        .flatten()
+    {
+        refuse_overwrite(out, input, args.refs.as_deref(), &args.aliases)?;
     }
     let mut resolver = Resolver::builtin();
     for path in &args.aliases {
@@ -78,6 +91,8 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         resolver,
         references,
         output,
+        recipe: None,
+        recipe_file: None,
     })
 }
 

@@ -166,7 +166,23 @@ fn methods_html(note: &MethodsNote) -> String {
     for caution in &note.cautions {
         out.push_str(&format!("<li>{}</li>", escape(caution)));
     }
-    out.push_str("</ul></div>");
+    out.push_str("</ul>");
+    if let Some(recipe) = &note.recipe {
+        out.push_str(&format!(
+            "<h3>Recipe</h3><p>{}{}.</p><pre>{}</pre>",
+            escape(&recipe.origin),
+            if recipe.overridden.is_empty() {
+                String::new()
+            } else {
+                escape(&format!(
+                    "; flags on the command line overrode: {}",
+                    recipe.overridden.join(", ")
+                ))
+            },
+            escape(&recipe.text)
+        ));
+    }
+    out.push_str("</div>");
     out
 }
 

@@ -27,6 +27,18 @@ pub struct MethodsNote {
     pub files: Vec<FileLine>,
     pub flagged: Vec<(String, usize)>,
     pub cautions: Vec<String>,
+    /// The recipe that reproduces the run, quoted (see `RecipeQuote`).
+    pub recipe: Option<RecipeQuote>,
+}
+
+/// The recipe quoted in the note: the file a run read (with the keys that flags overrode), or
+/// the recipe equivalent to a run made with flags.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct RecipeQuote {
+    /// Where the text comes from, in words.
+    pub origin: String,
+    pub text: String,
+    pub overridden: Vec<String>,
 }
 
 #[derive(Debug, Clone, serde::Serialize)]
@@ -192,6 +204,7 @@ pub fn build(
         files,
         flagged,
         cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+        recipe: None,
     }
 }
 
@@ -239,6 +252,16 @@ pub fn render_markdown(note: &MethodsNote) -> String {
     out.push_str("\n## Cautions\n\n");
     for caution in &note.cautions {
         out.push_str(&format!("- {caution}\n"));
+    }
+    if let Some(recipe) = &note.recipe {
+        out.push_str(&format!("\n## Recipe\n\n{}", recipe.origin));
+        if !recipe.overridden.is_empty() {
+            out.push_str(&format!(
+                "; flags on the command line overrode: {}",
+                recipe.overridden.join(", ")
+            ));
+        }
+        out.push_str(&format!(".\n\n```toml\n{}```\n", recipe.text));
     }
     out
 }

@@ -50,6 +50,17 @@ impl Format {
             _ => None,
         }
     }
+
+    /// The file extension a file of this format gets when levelfield names it.
+    pub fn extension(self) -> &'static str {
+        match self {
+            Format::Table => "txt",
+            Format::Csv | Format::ChartCsv => "csv",
+            Format::Md | Format::Methods => "md",
+            Format::Json => "json",
+            Format::Parquet => "parquet",
+        }
+    }
 }
 
 /// Renders the frame in `format`.

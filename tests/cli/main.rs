@@ -10,6 +10,7 @@ mod errors;
 mod golden;
 mod properties;
 mod published;
+mod recipes;
 mod refs;
 mod uncertainty;
 
