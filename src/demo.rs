@@ -106,7 +106,11 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
         resolver,
         references: Some(references),
         output: demo_output(&args.output)?,
-        recipe: None,
+        recipe: Some(crate::report::methods::RecipeQuote {
+            origin: "The recipe equivalent to this demo (it runs in the folder that `levelfield demo --extract DIR` writes; save it as a .toml file and pass --recipe)".into(),
+            text: crate::recipe::save::recipe_text(&adjust, std::path::Path::new("."))?,
+            overridden: Vec::new(),
+        }),
         recipe_file: None,
     })
 }
@@ -132,6 +136,7 @@ pub fn run(args: &DemoArgs) -> Result<Outcome> {
             dir.display(),
             DEMO_ARGS.join(" ")
         );
+        eprintln!("or from its recipe: levelfield adjust --recipe fees.toml (survey.toml for the margins scenario)");
         return Ok(Outcome::Ok);
     }
     let plan = demo_plan(args)?;
@@ -161,5 +166,23 @@ pub fn extract(dir: &std::path::Path) -> Result<()> {
     for (name, text) in DEMO_REFERENCES.files {
         write(&format!("reference-tables/{name}"), text)?;
     }
+    for (name, demo_args) in [("fees.toml", DEMO_ARGS), ("survey.toml", DEMO_MARGIN_ARGS)] {
+        write(&name.to_string(), &demo_recipe(demo_args)?)?;
+    }
     Ok(())
+}
+
+/// The recipe of one demo scenario, paths relative to the extracted folder.
+fn demo_recipe(demo_args: &[&str]) -> Result<String> {
+    let mut argv = vec!["levelfield", "adjust"];
+    argv.extend_from_slice(demo_args);
+    let cli = Cli::try_parse_from(argv)
+        .map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
+    let Command::Adjust(adjust) = cli.command else {
+        return Err(Error::usage(
+            "demo arguments are not an adjust command",
+            "report this as a bug",
+        ));
+    };
+    crate::recipe::save::recipe_text(&adjust, std::path::Path::new("."))
 }
