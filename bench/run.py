@@ -1,0 +1,116 @@
+"""Times, on the same files and in one run, side by side:
+  1. the I/O floor: polars reads the CSV and writes it back unchanged;
+  2. levelfield adjust (deflate, ppp, per-capita; ranks per item and year), in memory;
+  3. the same with --streaming;
+  4. the job written by hand in pandas (bench/hand_pandas.py);
+  5. the job written by hand in polars, Python (bench/hand_polars.py);
+and a 200-row table through levelfield. Wall time, rows per second and peak memory (maximum
+resident set size, from GNU time) for each, then the ratios.
+
+    bash bench/run.sh 1000000 10000000      # sets up the venv, builds, then runs this
+
+Data are generated (SYNTHETIC) into $LEVELFIELD_BENCH_DATA (default /var/tmp/levelfield-bench).
+"""
+
+import os
+import subprocess
+import sys
+import time
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+REPO = os.path.dirname(HERE)
+PY = sys.executable
+BIN = os.environ.get("LEVELFIELD_BIN", os.path.join(REPO, "target", "release", "levelfield"))
+DATA = os.environ.get("LEVELFIELD_BENCH_DATA", "/var/tmp/levelfield-bench")
+SKIP = set(filter(None, os.environ.get("LEVELFIELD_BENCH_SKIP", "").split(",")))
+
+
+def measure(command):
+    """Runs a command under GNU time; returns (wall seconds, peak RSS in MB)."""
+    start = time.perf_counter()
+    done = subprocess.run(
+        ["/usr/bin/time", "-f", "%M"] + command, capture_output=True, text=True
+    )
+    wall = time.perf_counter() - start
+    if done.returncode != 0:
+        sys.exit(f"failed: {' '.join(command)}\n{done.stderr[-2000:]}")
+    peak_kb = int(done.stderr.strip().splitlines()[-1])
+    return wall, peak_kb / 1024
+
+
+def levelfield(data, out, *extra):
+    return [
+        BIN, "adjust", f"{data}/input.csv", "--refs", f"{data}/refs",
+        "--steps", "deflate,ppp,per-capita", "--base-year", "2020",
+        "--entity", "entity", "--year", "year", "--value", "value", "--group", "item",
+        "--long", "--format", "csv", "-o", out, "-q", *extra,
+    ]
+
+
+def floor_script(data, out):
+    code = f"import polars as pl; pl.read_csv('{data}/input.csv').write_csv('{out}')"
+    return [PY, "-c", code]
+
+
+def check_agreement(data, out_levelfield, out_polars):
+    """The hand-written polars result and levelfield's agree (max relative difference)."""
+    import polars as pl
+
+    a = pl.read_csv(out_levelfield, columns=["value_adjusted", "rank_adjusted"], infer_schema_length=0)
+    b = pl.read_csv(out_polars, columns=["value_adjusted", "rank_adjusted"], infer_schema_length=0)
+    a = a.with_columns(pl.all().cast(pl.Float64))
+    b = b.with_columns(pl.all().cast(pl.Float64))
+    rel = ((a["value_adjusted"] - b["value_adjusted"]).abs() / b["value_adjusted"].abs()).max()
+    ranks = (a["rank_adjusted"] != b["rank_adjusted"]).sum()
+    return rel, ranks
+
+
+def main():
+    sizes = [int(s.replace("_", "")) for s in sys.argv[1:]] or [1_000_000]
+    print(f"machine: {os.cpu_count()} cores; levelfield: {BIN}\n")
+    for rows in sizes:
+        data = f"{DATA}/{rows}"
+        if not os.path.exists(f"{data}/input.csv"):
+            subprocess.run([PY, f"{HERE}/generate.py", str(rows), data], check=True)
+        size_mb = os.path.getsize(f"{data}/input.csv") / 2**20
+        with open(f"{data}/input.csv", "rb") as f:
+            n = sum(1 for _ in f) - 1
+        runs = [
+            ("I/O floor (polars read + write)", "floor", floor_script(data, f"{data}/out-floor.csv")),
+            ("levelfield adjust", "levelfield", levelfield(data, f"{data}/out-levelfield.csv")),
+            ("levelfield adjust --streaming", "streaming", levelfield(data, f"{data}/out-streaming.csv", "--streaming")),
+            ("hand-written pandas", "pandas", [PY, f"{HERE}/hand_pandas.py", data, f"{data}/out-pandas.csv"]),
+            ("hand-written polars (Python)", "polars", [PY, f"{HERE}/hand_polars.py", data, f"{data}/out-polars.csv"]),
+        ]
+        results = {}
+        print(f"## {n:,} rows, input {size_mb:,.0f} MB\n")
+        print("| run | wall s | rows/s | peak MB | peak / input |")
+        print("|---|---:|---:|---:|---:|")
+        for label, key, command in runs:
+            if key in SKIP:
+                continue
+            wall, peak = measure(command)
+            results[key] = (wall, peak)
+            print(f"| {label} | {wall:.2f} | {n / wall:,.0f} | {peak:,.0f} | {peak / size_mb:.2f} |", flush=True)
+        lf = results.get("levelfield")
+        if lf:
+            print()
+            for key, label in [("floor", "I/O floor"), ("pandas", "pandas"), ("polars", "polars (Python)")]:
+                if key in results:
+                    print(f"- levelfield / {label}: {lf[0] / results[key][0]:.2f}x wall time")
+        if "levelfield" in results and "polars" in results:
+            rel, ranks = check_agreement(data, f"{data}/out-levelfield.csv", f"{data}/out-polars.csv")
+            print(f"- agreement with the polars script: max relative difference of value_adjusted {rel:.1e}, {ranks} rank(s) differ")
+        if "levelfield" in results and "streaming" in results:
+            same = open(f"{data}/out-levelfield.csv", "rb").read() == open(f"{data}/out-streaming.csv", "rb").read()
+            print(f"- --streaming output byte-identical to the in-memory output: {same}")
+        print()
+    small = f"{DATA}/small"
+    if not os.path.exists(f"{small}/input.csv"):
+        subprocess.run([PY, f"{HERE}/generate.py", "200", small], check=True, capture_output=True)
+    walls = sorted(measure(levelfield(small, f"{small}/out.csv"))[0] for _ in range(7))
+    print(f"## 200-row table: levelfield adjust, median wall of 7 runs: {walls[3] * 1000:.0f} ms (min {walls[0] * 1000:.0f} ms)")
+
+
+if __name__ == "__main__":
+    main()
