@@ -32,6 +32,9 @@ pub struct PipelineSettings {
     pub order: Order,
     /// Rank intervals and margins, when the figures or the factors carry uncertainty.
     pub intervals: Option<IntervalSettings>,
+    /// Plan the tracks as if some row were in the base currency (`--streaming` sets it when
+    /// any piece of the file holds such a row, so every piece has the same columns).
+    pub assume_base_rows: bool,
 }
 
 impl std::fmt::Debug for dyn Step {
@@ -78,6 +81,64 @@ pub fn run_adjust(
     resolver: &Resolver,
     references: Option<&References>,
 ) -> Result<AdjustOutput> {
+    let prepared = prepare(bytes, input_label, settings, resolver, references, 0)?;
+    let rows_in = prepared.rows_in;
+    let lf = with_ranks_and_flags(prepared.lf, settings)?;
+    let order = output_columns(&prepared.head_columns, settings);
+    let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
+    let frame = lf
+        .sort(["_ord"], SortMultipleOptions::default())
+        .select(selection)
+        .collect()
+        .map_err(Error::engine("adjusting and ranking"))?;
+
+    let frame = match &settings.intervals {
+        Some(intervals) => finish_intervals(frame, intervals)?,
+        None => frame,
+    };
+    if frame.height() != rows_in {
+        return Err(Error::engine("checking that no row was lost")(polars_err!(
+            ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
+        )));
+    }
+    let counts = FlagCounts::of(&frame)?;
+    let summary = summarize(
+        counts,
+        &prepared.ingested,
+        rows_in,
+        frame.height(),
+        settings,
+        &prepared.baseline_steps,
+        prepared.deflator_used,
+        references,
+    );
+    Ok(AdjustOutput { frame, summary })
+}
+
+/// The per-row part of a run, before ranks: ingest, entities, the canonical frame, factors
+/// joined once per entity-year, and both tracks, as one lazy frame. `_ord` numbers the rows
+/// from `ord_offset` (a piece of a larger file starts where the previous piece ended).
+pub(crate) struct Prepared {
+    pub lf: LazyFrame,
+    /// What ingest decided (its rows are dropped once the frame is built).
+    pub ingested: ingest::Ingested,
+    pub rows_in: usize,
+    /// The output columns up to `value_adjusted` (and the margin columns), in order.
+    pub head_columns: Vec<String>,
+    pub baseline_steps: Vec<&'static dyn Step>,
+    pub deflator_used: Option<adjust::Deflator>,
+    /// Whether any row is a figure in the base currency (it changes the columns).
+    pub any_base: bool,
+}
+
+pub(crate) fn prepare(
+    bytes: &[u8],
+    input_label: &str,
+    settings: &PipelineSettings,
+    resolver: &Resolver,
+    references: Option<&References>,
+    ord_offset: u64,
+) -> Result<Prepared> {
     let mut ingested = ingest::ingest(bytes, input_label, &settings.ingest)?;
     let base_currency = settings.step_settings.base_currency.clone();
     let (entities, bases) = resolve::resolve_rows(
@@ -93,7 +154,6 @@ pub fn run_adjust(
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
     let rows_in = ingested.rows.len();
-
     // The canonical frame.
     let mut flags_pre: Vec<Option<String>> = Vec::with_capacity(rows_in);
     let mut basis_text: Vec<&'static str> = Vec::with_capacity(rows_in);
@@ -132,7 +192,10 @@ pub fn run_adjust(
     let frame = DataFrame::new(
         rows_in,
         vec![
-            Column::new("_ord".into(), (0..rows_in as u64).collect::<Vec<u64>>()),
+            Column::new(
+                "_ord".into(),
+                (ord_offset..ord_offset + rows_in as u64).collect::<Vec<u64>>(),
+            ),
             Column::new(
                 "row_id".into(),
                 rows.iter().map(|r| r.row_id.as_str()).collect::<Vec<_>>(),
@@ -216,27 +279,7 @@ pub fn run_adjust(
     for batch in batches {
         lf = lf.with_columns(batch);
     }
-    let ranks = rank::rank_columns(
-        settings.order,
-        col("_rank_eligible"),
-        &[col("group"), col("year")],
-    )
-    .map_err(Error::engine("ranking"))?;
-    lf = lf.with_columns(ranks).with_column(rank::shift_column());
-    let not_ranked = when(col("rank_adjusted").is_null())
-        .then(lit(flags::NOT_RANKED))
-        .otherwise(lit(NULL).cast(DataType::String));
-    lf = lf.with_column(
-        concat_str(
-            [col("_flags_pre"), col("_factor_flags"), not_ranked],
-            ";",
-            true,
-        )
-        .fill_null(lit(""))
-        .alias("flags"),
-    );
-
-    let mut order: Vec<String> = [
+    let mut head: Vec<String> = [
         "row_id",
         "entity_input",
         "entity_code",
@@ -251,49 +294,105 @@ pub fn run_adjust(
     .iter()
     .map(|s| s.to_string())
     .collect();
-    order.extend(stage_columns.iter().cloned());
+    head.extend(stage_columns.iter().cloned());
     let uncertain = &settings.step_settings.uncertain_factors;
     for need in &needs {
-        order.push(need.used_column());
+        head.push(need.used_column());
         if uncertain.contains(&need.kind) && need.whose == adjust::Whose::Entity {
-            order.push(need.se_column());
+            head.push(need.se_column());
         }
-        order.push(need.year_column());
+        head.push(need.year_column());
     }
-    order.extend(extra_columns.iter().cloned());
-    order.extend(["value_baseline", "value_adjusted"].map(String::from));
+    head.extend(extra_columns.iter().cloned());
+    head.extend(["value_baseline", "value_adjusted"].map(String::from));
     if settings.intervals.is_some() {
-        order.extend(["moe_baseline", "moe_adjusted", "ci_low", "ci_high"].map(String::from));
+        head.extend(["moe_baseline", "moe_adjusted", "ci_low", "ci_high"].map(String::from));
     }
+    ingested.rows = Vec::new();
+    Ok(Prepared {
+        lf,
+        ingested,
+        rows_in,
+        head_columns: head,
+        baseline_steps,
+        deflator_used,
+        any_base,
+    })
+}
+
+/// Ranks per group and year, the shift, and the flags column.
+pub(crate) fn with_ranks_and_flags(lf: LazyFrame, settings: &PipelineSettings) -> Result<LazyFrame> {
+    let ranks = rank::rank_columns(
+        settings.order,
+        col("_rank_eligible"),
+        &[col("group"), col("year")],
+    )
+    .map_err(Error::engine("ranking"))?;
+    Ok(with_flags(lf.with_columns(ranks)))
+}
+
+/// The shift and the flags column, once `rank_baseline` and `rank_adjusted` are there.
+pub(crate) fn with_flags(lf: LazyFrame) -> LazyFrame {
+    let not_ranked = when(col("rank_adjusted").is_null())
+        .then(lit(flags::NOT_RANKED))
+        .otherwise(lit(NULL).cast(DataType::String));
+    lf.with_column(rank::shift_column()).with_column(
+        concat_str(
+            [col("_flags_pre"), col("_factor_flags"), not_ranked],
+            ";",
+            true,
+        )
+        .fill_null(lit(""))
+        .alias("flags"),
+    )
+}
+
+/// Every output column in order, given the head columns of `prepare`.
+pub(crate) fn output_columns(head: &[String], settings: &PipelineSettings) -> Vec<String> {
+    let mut order = head.to_vec();
     order.extend(["rank_baseline", "rank_adjusted", "rank_shift", "flags"].map(String::from));
     if settings.intervals.is_some() {
         order.extend(["_se_baseline", "_se_adjusted"].map(String::from));
     }
-    let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
-    let frame = lf
-        .sort(["_ord"], SortMultipleOptions::default())
-        .select(selection)
-        .collect()
-        .map_err(Error::engine("adjusting and ranking"))?;
+    order
+}
 
-    let frame = match &settings.intervals {
-        Some(intervals) => finish_intervals(frame, intervals)?,
-        None => frame,
-    };
-    if frame.height() != rows_in {
-        return Err(Error::engine("checking that no row was lost")(polars_err!(
-            ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
-        )));
+/// Rows flagged and flags by kind (`name:YYYY` flags counted under one key).
+#[derive(Debug, Clone, Default)]
+pub(crate) struct FlagCounts {
+    pub rows_flagged: usize,
+    pub by_flag: BTreeMap<String, usize>,
+}
+
+impl FlagCounts {
+    pub fn of(frame: &DataFrame) -> Result<FlagCounts> {
+        let flag_column = frame
+            .column("flags")
+            .and_then(|c| c.str().cloned())
+            .map_err(Error::engine("counting flags"))?;
+        let mut counts = FlagCounts::default();
+        for value in flag_column.iter().flatten() {
+            if value.is_empty() {
+                continue;
+            }
+            counts.rows_flagged += 1;
+            for flag in value.split(';') {
+                let key = match flag.split_once(':') {
+                    Some((name, _)) => format!("{name}:YYYY"),
+                    None => flag.to_string(),
+                };
+                *counts.by_flag.entry(key).or_default() += 1;
+            }
+        }
+        Ok(counts)
     }
-    let summary = summarize(
-        &frame,
-        &ingested,
-        settings,
-        &baseline_steps,
-        deflator_used,
-        references,
-    )?;
-    Ok(AdjustOutput { frame, summary })
+
+    pub fn add(&mut self, other: FlagCounts) {
+        self.rows_flagged += other.rows_flagged;
+        for (flag, n) in other.by_flag {
+            *self.by_flag.entry(flag).or_default() += n;
+        }
+    }
 }
 
 /// Adds rank intervals and ties, then puts the columns in their documented order.
@@ -327,33 +426,17 @@ fn finish_intervals(frame: DataFrame, intervals: &IntervalSettings) -> Result<Da
         .map_err(Error::engine("ordering the output columns"))
 }
 
-fn summarize(
-    frame: &DataFrame,
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn summarize(
+    counts: FlagCounts,
     ingested: &ingest::Ingested,
+    rows_in: usize,
+    rows_out: usize,
     settings: &PipelineSettings,
     baseline_steps: &[&'static dyn Step],
     deflator_used: Option<adjust::Deflator>,
     references: Option<&References>,
-) -> Result<RunSummary> {
-    let flag_column = frame
-        .column("flags")
-        .and_then(|c| c.str().cloned())
-        .map_err(Error::engine("counting flags"))?;
-    let mut flag_counts: BTreeMap<String, usize> = BTreeMap::new();
-    let mut rows_flagged = 0;
-    for value in flag_column.iter().flatten() {
-        if value.is_empty() {
-            continue;
-        }
-        rows_flagged += 1;
-        for flag in value.split(';') {
-            let key = match flag.split_once(':') {
-                Some((name, _)) => format!("{name}:YYYY"),
-                None => flag.to_string(),
-            };
-            *flag_counts.entry(key).or_default() += 1;
-        }
-    }
+) -> RunSummary {
     let mut method_notes = Vec::new();
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
     let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
@@ -406,12 +489,12 @@ fn summarize(
             settings.nearest_year
         ));
     }
-    Ok(RunSummary {
+    RunSummary {
         input: ingested.file.clone(),
-        rows_in: ingested.rows.len(),
-        rows_out: frame.height(),
-        rows_flagged,
-        flag_counts,
+        rows_in,
+        rows_out,
+        rows_flagged: counts.rows_flagged,
+        flag_counts: counts.by_flag,
         steps: names.iter().map(|s| s.to_string()).collect(),
         baseline_steps: baseline_steps
             .iter()
@@ -423,5 +506,5 @@ fn summarize(
         warnings: references.map(|r| r.warnings()).unwrap_or_default(),
         baseline_unit: describe_track(&baseline_names, &settings.step_settings, starts_in_base),
         adjusted_unit: describe_track(&names, &settings.step_settings, starts_in_base),
-    })
+    }
 }

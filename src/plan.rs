@@ -151,6 +151,7 @@ pub fn pipeline_settings(
         rank_aggregates: args.rank_aggregates,
         order: args.order,
         intervals,
+        assume_base_rows: false,
     }
 }
 
@@ -372,6 +373,8 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
         extra_columns: Vec::new(),
         sheet: columns.sheet.clone(),
         header_row: columns.header_row,
+        line_offset: 0,
+        row_offset: 0,
     })
 }
 

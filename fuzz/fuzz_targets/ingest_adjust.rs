@@ -35,6 +35,7 @@ fn setup() -> (Resolver, References, PipelineSettings) {
         rank_aggregates: false,
         order: Order::Desc,
         intervals: None,
+        assume_base_rows: false,
     };
     (resolver, references, settings)
 }

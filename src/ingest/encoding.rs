@@ -37,6 +37,8 @@ impl EncodingChoice {
 pub struct Decoded {
     pub text: String,
     pub description: String,
+    /// The encoding the text was read in (None for spreadsheets and Parquet).
+    pub encoding: Option<EncodingChoice>,
 }
 
 pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Result<Decoded> {
@@ -54,6 +56,7 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
         return Ok(Decoded {
             text: strip_bom(text.into_owned()),
             description: format!("{} (forced)", encoding.name()),
+            encoding: Some(choice),
         });
     }
     if let Some((encoding, bom_len)) = Encoding::for_bom(bytes) {
@@ -69,15 +72,24 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
                 "re-save the file as UTF-8",
             ));
         }
+        let choice = if encoding == encoding_rs::UTF_16LE {
+            EncodingChoice::Utf16Le
+        } else if encoding == encoding_rs::UTF_16BE {
+            EncodingChoice::Utf16Be
+        } else {
+            EncodingChoice::Utf8
+        };
         return Ok(Decoded {
             text: text.into_owned(),
             description: format!("{} (byte-order mark)", encoding.name()),
+            encoding: Some(choice),
         });
     }
     match std::str::from_utf8(bytes) {
         Ok(text) => Ok(Decoded {
             text: text.to_string(),
             description: "UTF-8".into(),
+            encoding: Some(EncodingChoice::Utf8),
         }),
         // Valid multi-byte UTF-8 before the bad byte means a damaged UTF-8 file, not a legacy
         // encoding: reading it as Windows-1252 would garble every accented name.
@@ -101,6 +113,7 @@ pub fn decode(bytes: &[u8], forced: Option<EncodingChoice>, file: &str) -> Resul
                 description:
                     "windows-1252 (the file is not valid UTF-8; pass --encoding to choose another)"
                         .into(),
+                encoding: Some(EncodingChoice::Windows1252),
             })
         }
     }

@@ -15,7 +15,7 @@ pub mod table;
 use crate::entity::Resolver;
 use crate::error::{Error, Location, Result};
 use crate::flags;
-use layout::{RoleFlags, Shape, YearSource};
+use layout::{LayoutChoice, RoleFlags, Shape, YearSource};
 use number::{Cell, NumberStyle};
 use rust_decimal::Decimal;
 
@@ -35,6 +35,9 @@ pub struct IngestOptions {
     /// Spreadsheets: the sheet (name or position from 1) and a forced header row.
     pub sheet: Option<String>,
     pub header_row: Option<usize>,
+    /// A piece of a larger file (`--streaming`): lines and data rows before this piece.
+    pub line_offset: usize,
+    pub row_offset: usize,
 }
 
 /// One figure of the input.
@@ -63,6 +66,13 @@ pub struct Ingested {
     pub notes: Vec<String>,
     pub entity_column: String,
     pub has_group: bool,
+    /// The header as read (cleaned), the delimiter and encoding used, the roles the columns got,
+    /// and the number of data lines: what a later piece of the same file must be read with.
+    pub headers: Vec<String>,
+    pub delimiter: u8,
+    pub encoding: Option<encoding::EncodingChoice>,
+    pub roles_used: RoleFlags,
+    pub data_lines: usize,
 }
 
 pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Ingested> {
@@ -74,6 +84,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             encoding::Decoded {
                 text: parquet_as_csv(bytes, file)?,
                 description: "Parquet".into(),
+                encoding: None,
             },
             b',',
             Vec::new(),
@@ -86,6 +97,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             encoding::Decoded {
                 text,
                 description: "spreadsheet".into(),
+                encoding: None,
             },
             b',',
             notes,
@@ -100,7 +112,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         };
         (decoded, delimiter, Vec::new(), Vec::new())
     };
-    let table = table::read_table(&decoded.text, delimiter, file)?;
+    let table = table::read_table_from(&decoded.text, delimiter, file, options.line_offset)?;
     let mut role_flags = options.roles.clone();
     let margin_count = options.margins.columns().len();
     role_flags.reserved = options.margins.columns();
@@ -191,7 +203,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     };
     let mut rows = Vec::new();
     for (index, record) in table.records.iter().enumerate() {
-        let data_row = index + 1;
+        let data_row = index + 1 + options.row_offset;
         let entity_input = record.cells[roles.entity].clone();
         let group = roles
             .group
@@ -266,12 +278,45 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     for row in rows.iter_mut().filter(|r| formula_rows.contains(&r.line)) {
         row.flags.push(flags::FORMULA_CELL.into());
     }
+    let roles_used = RoleFlags {
+        entity: Some(table.headers[roles.entity].clone()),
+        value: match &roles.shape {
+            Shape::Long { value, .. } => Some(table.headers[*value].clone()),
+            Shape::Wide { .. } => None,
+        },
+        year: match &roles.shape {
+            Shape::Long {
+                year: YearSource::Column { index, .. },
+                ..
+            } => Some(table.headers[*index].clone()),
+            _ => None,
+        },
+        year_value: match &roles.shape {
+            Shape::Long {
+                year: YearSource::Fixed(y),
+                ..
+            } => Some(*y),
+            _ => None,
+        },
+        group: roles.group.map(|g| table.headers[g].clone()),
+        currency: roles.currency.map(|c| table.headers[c].clone()),
+        layout: match &roles.shape {
+            Shape::Long { .. } => LayoutChoice::Long,
+            Shape::Wide { .. } => LayoutChoice::Wide,
+        },
+        reserved: Vec::new(),
+    };
     Ok(Ingested {
         rows,
         file: file.to_string(),
         notes,
         entity_column,
         has_group: roles.group.is_some(),
+        data_lines: table.records.len(),
+        headers: table.headers,
+        delimiter,
+        encoding: decoded.encoding,
+        roles_used,
     })
 }
 

@@ -81,8 +81,19 @@ pub fn delimiter_name(delimiter: u8) -> &'static str {
 /// one filled cell, as spreadsheet exports write them) are set aside and listed in `skipped`,
 /// never read as data.
 pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
+    read_table_from(text, delimiter, file, 0)
+}
+
+/// As `read_table`, for a piece of a larger file: every line number is shifted by
+/// `line_offset` (the piece's header is a copy; its data lines keep their place in the file).
+pub fn read_table_from(
+    text: &str,
+    delimiter: u8,
+    file: &str,
+    line_offset: usize,
+) -> Result<TextTable> {
     if let Some(position) = text.find('\0') {
-        let line = text[..position].matches('\n').count() + 1;
+        let line = text[..position].matches('\n').count() + 1 + line_offset;
         return Err(Error::bad_input(
             Location::line(file, line),
             "a NUL byte: the file looks binary, or is UTF-16 without a byte-order mark",
@@ -97,8 +108,9 @@ pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
         .from_reader(text.as_bytes());
     let mut all: Vec<(usize, csv::StringRecord)> = Vec::new();
     let mut lines = LineCounter::new(text);
+    lines.line += line_offset;
     for result in reader.records() {
-        let record = result.map_err(|e| csv_error(e, file))?;
+        let record = result.map_err(|e| csv_error(e, file, line_offset))?;
         let line = record
             .position()
             .map(|p| lines.line_of(p.byte() as usize))
@@ -185,6 +197,19 @@ pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
     })
 }
 
+/// The number of line breaks in `bytes` as `LineCounter` counts them (`\n`, `\r\n`, lone `\r`).
+pub fn count_line_breaks(bytes: &[u8]) -> usize {
+    let mut count = 0;
+    for (i, b) in bytes.iter().enumerate() {
+        match b {
+            b'\n' => count += 1,
+            b'\r' if bytes.get(i + 1) != Some(&b'\n') => count += 1,
+            _ => {}
+        }
+    }
+    count
+}
+
 /// Physical line numbers from byte offsets, counting `\n`, `\r\n` and lone `\r` breaks. The
 /// csv reader's own line count points at skipped blank lines before a record, so the line is
 /// taken where the record's first character is.
@@ -263,8 +288,8 @@ fn clean_headers(record: &csv::StringRecord, file: &str) -> Result<Vec<String>> 
     Ok(headers)
 }
 
-fn csv_error(error: csv::Error, file: &str) -> Error {
-    let line = error.position().map(|p| p.line() as usize);
+fn csv_error(error: csv::Error, file: &str, line_offset: usize) -> Error {
+    let line = error.position().map(|p| p.line() as usize + line_offset);
     let location = match line {
         Some(line) => Location::line(file, line),
         None => Location::file(file),

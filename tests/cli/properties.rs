@@ -44,6 +44,7 @@ fn settings(steps: &[&str]) -> PipelineSettings {
         rank_aggregates: false,
         order: Order::Desc,
         intervals: None,
+        assume_base_rows: false,
     }
 }
 
