@@ -238,19 +238,21 @@ fn job_plan(job: &Job, output_dir: Option<&Path>) -> Result<(AdjustArgs, crate::
     let cli = crate::cli::parse_from(argv)
         .map_err(|e| Error::usage(format!("batch job: {e}"), "report this as a bug"))?;
     let crate::cli::Command::Adjust(mut args) = cli.command else {
-        return Err(Error::usage("batch job is not an adjust run", "report this as a bug"));
+        return Err(Error::usage(
+            "batch job is not an adjust run",
+            "report this as a bug",
+        ));
     };
     args.input = job.input.as_ref().map(|p| p.to_string_lossy().into_owned());
     let place_outputs = |args: &mut AdjustArgs| -> Result<()> {
-        let input = match args.input.as_deref() {
-            None | Some("-") => {
-                return Err(Error::usage(
+        let input =
+            match args.input.as_deref() {
+                None | Some("-") => return Err(Error::usage(
                     format!("{}: a batch run needs an input file", job.recipe.display()),
                     "set input in the recipe, or inputs = \"PATTERN\" in the manifest's [[run]]",
-                ))
-            }
-            Some(input) => PathBuf::from(input),
-        };
+                )),
+                Some(input) => PathBuf::from(input),
+            };
         let format = args
             .output
             .format
@@ -405,7 +407,9 @@ fn is_levelfield_output(path: &Path) -> bool {
 /// The summary table: one line per input.
 pub fn render_results(results: &[JobResult]) -> String {
     let mut builder = tabled::builder::Builder::default();
-    builder.push_record(["input", "rows in", "rows out", "flagged", "status", "output"]);
+    builder.push_record([
+        "input", "rows in", "rows out", "flagged", "status", "output",
+    ]);
     let number = |n: Option<usize>| n.map(|n| n.to_string()).unwrap_or_else(|| "-".into());
     for r in results {
         builder.push_record([

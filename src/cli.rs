@@ -225,6 +225,15 @@ pub struct AdjustArgs {
     #[command(flatten)]
     pub columns: ColumnArgs,
 
+    /// Read a CSV or TSV file larger than memory in pieces (csv output to -o FILE; same result
+    /// as without it, byte for byte).
+    #[arg(long, help_heading = "Reading")]
+    pub streaming: bool,
+
+    /// With --streaming: megabytes of input per piece (memory per piece is a few times this).
+    #[arg(long, default_value_t = 64.0, value_parser = parse_chunk_mb, value_name = "MB", help_heading = "Reading")]
+    pub chunk_mb: f64,
+
     #[command(flatten)]
     pub uncertainty: UncertaintyArgs,
 
@@ -496,6 +505,15 @@ where
             .collect();
     }
     Ok(cli)
+}
+
+pub(crate) fn parse_chunk_mb(text: &str) -> Result<f64, String> {
+    match text.trim().parse::<f64>() {
+        Ok(mb) if mb.is_finite() && mb > 0.0 => Ok(mb),
+        _ => Err(format!(
+            "\"{text}\" is not a piece size: give megabytes above 0, such as 64 or 0.5"
+        )),
+    }
 }
 
 pub(crate) fn parse_per(text: &str) -> Result<u32, String> {

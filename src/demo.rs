@@ -112,6 +112,7 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
             overridden: Vec::new(),
         }),
         recipe_file: None,
+        streaming: None,
     })
 }
 

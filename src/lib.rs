@@ -38,6 +38,7 @@ pub mod reference;
 pub mod report;
 pub mod resolve;
 pub mod source;
+pub mod streaming;
 pub mod tracks;
 pub mod uncertainty;
 
@@ -115,15 +116,19 @@ pub fn run(cli: Cli) -> Result<Outcome> {
     }
 }
 
-/// Runs a resolved adjust plan: pipeline, output, summary.
+/// Runs a resolved adjust plan: pipeline (in memory or in pieces), output, methods note,
+/// report, summary.
 pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
-    let mut output = pipeline::run_adjust(
-        &plan.input_bytes,
-        &plan.input_label,
-        &plan.settings,
-        &plan.resolver,
-        plan.references.as_ref(),
-    )?;
+    let mut output = match &plan.streaming {
+        Some(stream) => streaming::execute(plan, stream)?,
+        None => pipeline::run_adjust(
+            &plan.input_bytes,
+            &plan.input_label,
+            &plan.settings,
+            &plan.resolver,
+            plan.references.as_ref(),
+        )?,
+    };
     if let (Some((file, _)), Some(quote)) = (&plan.recipe_file, &plan.recipe) {
         output.summary.notes.push(if quote.overridden.is_empty() {
             format!("recipe: {file}")
@@ -134,28 +139,18 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             )
         });
     }
+    if let Some(stream) = &plan.streaming {
+        // The output is already written, piece by piece; only the note and summary remain.
+        if let Some(path) = &plan.output.methods {
+            let sha256 = source::sha256_of_file(&stream.path)?;
+            let note = methods_note(plan, &output, &sha256);
+            report::write_atomically(path, &report::methods::render_markdown(&note))?;
+        }
+        print_summary(plan, &output);
+        return Ok(output);
+    }
     let input_sha256 = report::methods::sha256_hex(&plan.input_bytes);
-    let mut note = report::methods::build(
-        &output.summary,
-        &plan.settings,
-        plan.references.as_ref(),
-        &input_sha256,
-    );
-    if let Some(notice) = &plan.output.notice {
-        note.in_brief.insert(0, notice.clone());
-    }
-    if let Some((file, sha256)) = &plan.recipe_file {
-        note.files.insert(
-            1,
-            report::methods::FileLine {
-                role: "recipe".into(),
-                file: file.clone(),
-                description: "the settings of this run".into(),
-                sha256: sha256.clone(),
-            },
-        );
-    }
-    note.recipe = plan.recipe.clone();
+    let note = methods_note(plan, &output, &input_sha256);
     let text = match plan.output.format {
         report::Format::Methods => report::methods::render_markdown(&note),
         format => report::render(&output.frame, &output.summary, format, plan.output.rounding)?,
@@ -186,15 +181,49 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
                 .map_err(|e| error::Error::io("standard output", "write", e))?;
         }
     }
+    print_summary(plan, &output);
+    Ok(output)
+}
+
+fn print_summary(plan: &plan::AdjustPlan, output: &pipeline::AdjustOutput) {
     if !plan.output.quiet {
         eprint!("{}", report::summary::render(&output.summary));
         if let Some(path) = &plan.output.path {
             eprintln!(
                 "  wrote {} ({} rows)",
                 path.display(),
-                output.frame.height()
+                output.summary.rows_out
             );
         }
     }
-    Ok(output)
+}
+
+/// The methods note of a finished run.
+fn methods_note(
+    plan: &plan::AdjustPlan,
+    output: &pipeline::AdjustOutput,
+    input_sha256: &str,
+) -> report::methods::MethodsNote {
+    let mut note = report::methods::build(
+        &output.summary,
+        &plan.settings,
+        plan.references.as_ref(),
+        input_sha256,
+    );
+    if let Some(notice) = &plan.output.notice {
+        note.in_brief.insert(0, notice.clone());
+    }
+    if let Some((file, sha256)) = &plan.recipe_file {
+        note.files.insert(
+            1,
+            report::methods::FileLine {
+                role: "recipe".into(),
+                file: file.clone(),
+                description: "the settings of this run".into(),
+                sha256: sha256.clone(),
+            },
+        );
+    }
+    note.recipe = plan.recipe.clone();
+    note
 }

@@ -321,7 +321,10 @@ pub(crate) fn prepare(
 }
 
 /// Ranks per group and year, the shift, and the flags column.
-pub(crate) fn with_ranks_and_flags(lf: LazyFrame, settings: &PipelineSettings) -> Result<LazyFrame> {
+pub(crate) fn with_ranks_and_flags(
+    lf: LazyFrame,
+    settings: &PipelineSettings,
+) -> Result<LazyFrame> {
     let ranks = rank::rank_columns(
         settings.order,
         col("_rank_eligible"),

@@ -36,6 +36,8 @@ pub struct AdjustPlan {
     pub recipe: Option<crate::report::methods::RecipeQuote>,
     /// The recipe file a run read, with its sha256, for the files list.
     pub recipe_file: Option<(String, String)>,
+    /// Set for `--streaming`: the input is read in pieces from this file, not held in memory.
+    pub streaming: Option<crate::streaming::StreamingPlan>,
 }
 
 #[derive(Debug, Clone)]
@@ -66,10 +68,32 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
             "pass INPUT (a file, or - for standard input), or set input in the recipe",
         )
     })?;
-    let (input_bytes, input_label) = read_input(input, args.columns.max_input_mb)?;
-    for out in [&output.path, &output.methods, &output.report, &args.save_recipe]
-        .into_iter()
-        .flatten()
+    let (input_bytes, input_label, streaming) = if args.streaming {
+        let path = PathBuf::from(input);
+        if input != "-" && !path.is_file() {
+            // Let the usual reader say what is wrong with the path.
+            source::read_file(&path)?;
+        }
+        (
+            Vec::new(),
+            input.to_string(),
+            Some(crate::streaming::StreamingPlan {
+                path,
+                chunk_bytes: (args.chunk_mb * (1u64 << 20) as f64).max(1.0) as usize,
+            }),
+        )
+    } else {
+        let (bytes, label) = read_input(input, args.columns.max_input_mb)?;
+        (bytes, label, None)
+    };
+    for out in [
+        &output.path,
+        &output.methods,
+        &output.report,
+        &args.save_recipe,
+    ]
+    .into_iter()
+    .flatten()
     {
         refuse_overwrite(out, input, args.refs.as_deref(), &args.aliases)?;
     }
@@ -84,6 +108,15 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
     let mut ingest = ingest_options(&args.columns)?;
     ingest.margins = margin_spec(&args.uncertainty)?;
     let settings = pipeline_settings(args, steps, ingest, references.as_ref());
+    if streaming.is_some() {
+        crate::streaming::check(
+            input,
+            output.format,
+            output.path.as_deref(),
+            &settings,
+            output.report.is_some(),
+        )?;
+    }
     Ok(AdjustPlan {
         input_bytes,
         input_label,
@@ -93,6 +126,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         output,
         recipe: None,
         recipe_file: None,
+        streaming,
     })
 }
 

@@ -71,3 +71,27 @@ pub fn read_file(path: &Path) -> Result<Vec<u8>> {
     }
     std::fs::read(path).map_err(|e| Error::io(path.display(), "read the file", e))
 }
+
+/// The sha256 of a file read in blocks (for inputs too large to hold), as lowercase hex.
+pub fn sha256_of_file(path: &Path) -> Result<String> {
+    use sha2::{Digest, Sha256};
+    use std::io::Read;
+    let label = path.display().to_string();
+    let mut file = std::fs::File::open(path).map_err(|e| Error::io(&label, "open", e))?;
+    let mut hasher = Sha256::new();
+    let mut buffer = vec![0u8; 1 << 20];
+    loop {
+        let n = file
+            .read(&mut buffer)
+            .map_err(|e| Error::io(&label, "read", e))?;
+        if n == 0 {
+            break;
+        }
+        hasher.update(&buffer[..n]);
+    }
+    Ok(hasher
+        .finalize()
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect())
+}

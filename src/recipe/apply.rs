@@ -132,6 +132,19 @@ pub fn merge(
     if let Some(v) = m.take("allow_unresolved", "allow_unresolved", &r.allow_unresolved) {
         args.allow_unresolved = *v.get_ref();
     }
+    if let Some(v) = m.take("streaming", "streaming", &r.streaming) {
+        args.streaming = *v.get_ref();
+    }
+    if let Some(v) = m.take("chunk_mb", "chunk_mb", &r.chunk_mb) {
+        args.chunk_mb = cli::parse_chunk_mb(&v.get_ref().to_string()).map_err(|problem| {
+            loaded.error_at(
+                "chunk_mb",
+                v.span(),
+                problem,
+                "write chunk_mb = 64, for example",
+            )
+        })?;
+    }
     if let Some(c) = &r.columns {
         merge_columns(&mut m, c, &mut args.columns)?;
     }
@@ -176,7 +189,11 @@ fn merge_columns(
     if let Some(v) = m.take("columns.currency_code", "currency_code", &c.currency_code) {
         args.currency_code = text(v);
     }
-    if let Some(v) = m.take("columns.value_multiplier", "value_multiplier", &c.value_multiplier) {
+    if let Some(v) = m.take(
+        "columns.value_multiplier",
+        "value_multiplier",
+        &c.value_multiplier,
+    ) {
         args.value_multiplier = text(v);
     }
     if let Some(v) = m.take("columns.layout", "wide_years", &c.layout) {
@@ -251,7 +268,11 @@ fn merge_uncertainty(
     if let Some(v) = m.take("uncertainty.proportion", "proportion", &u.proportion) {
         args.proportion = *v.get_ref();
     }
-    if let Some(v) = m.take("uncertainty.rank_intervals", "rank_intervals", &u.rank_intervals) {
+    if let Some(v) = m.take(
+        "uncertainty.rank_intervals",
+        "rank_intervals",
+        &u.rank_intervals,
+    ) {
         args.rank_intervals = m.choice("uncertainty.rank_intervals", v)?;
     }
     if let Some(v) = m.take(
@@ -270,11 +291,7 @@ fn merge_uncertainty(
     Ok(())
 }
 
-fn merge_output(
-    m: &mut Merge,
-    o: &super::OutputSection,
-    args: &mut cli::OutputArgs,
-) -> Result<()> {
+fn merge_output(m: &mut Merge, o: &super::OutputSection, args: &mut cli::OutputArgs) -> Result<()> {
     if let Some(v) = m.take("output.format", "format", &o.format) {
         args.format = Some(m.choice("output.format", v)?);
     }
@@ -347,7 +364,10 @@ fn check_conflicts(loaded: &LoadedRecipe) -> Result<()> {
         }
     }
     if let Some(o) = &r.output {
-        for (key, s) in [("output.decimals", span(&o.decimals)), ("output.sig", span(&o.sig))] {
+        for (key, s) in [
+            ("output.decimals", span(&o.decimals)),
+            ("output.sig", span(&o.sig)),
+        ] {
             if let Some(s) = s {
                 present.push((key, s));
             }

@@ -51,6 +51,10 @@ pub struct Recipe {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub allow_unresolved: At<bool>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    pub streaming: At<bool>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub chunk_mb: At<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub columns: Option<ColumnsSection>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub uncertainty: Option<UncertaintySection>,
@@ -353,26 +357,41 @@ mod tests {
         assert_eq!(r.steps.as_ref().unwrap().get_ref(), &["deflate", "ppp"]);
         assert_eq!(*r.base_year.as_ref().unwrap().get_ref(), 2023);
         assert_eq!(
-            r.columns.as_ref().unwrap().entity.as_ref().unwrap().get_ref(),
+            r.columns
+                .as_ref()
+                .unwrap()
+                .entity
+                .as_ref()
+                .unwrap()
+                .get_ref(),
             "country"
         );
         assert_eq!(loaded.path("fees.csv"), "/data/fees.csv");
         assert_eq!(loaded.path("/abs/x.csv"), "/abs/x.csv");
         assert_eq!(loaded.path("../x.csv"), "/x.csv");
-        assert_eq!(normalize(Path::new("r/../../a/./b.csv")), PathBuf::from("../a/b.csv"));
+        assert_eq!(
+            normalize(Path::new("r/../../a/./b.csv")),
+            PathBuf::from("../a/b.csv")
+        );
     }
 
     #[test]
     fn unknown_key_names_key_and_line() {
         let text = message("steps = [\"ppp\"]\nbase_yaer = 2023\n");
-        assert!(text.starts_with("r.toml, line 2, column 1, key `base_yaer`"), "{text}");
+        assert!(
+            text.starts_with("r.toml, line 2, column 1, key `base_yaer`"),
+            "{text}"
+        );
         assert!(text.contains("unknown field"), "{text}");
     }
 
     #[test]
     fn unknown_key_in_a_section_names_its_line() {
         let text = message("[columns]\nentity = \"c\"\ncolour = \"red\"\n");
-        assert!(text.starts_with("r.toml, line 3, column 1, key `colour`"), "{text}");
+        assert!(
+            text.starts_with("r.toml, line 3, column 1, key `colour`"),
+            "{text}"
+        );
     }
 
     #[test]

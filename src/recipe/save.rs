@@ -76,9 +76,12 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
         lenient: c.lenient.then_some(true).and_then(at),
         sheet: text(&c.sheet),
         header_row: c.header_row.and_then(at),
-        max_input_mb: (c.max_input_mb != 4096).then_some(c.max_input_mb).and_then(at),
+        max_input_mb: (c.max_input_mb != 4096)
+            .then_some(c.max_input_mb)
+            .and_then(at),
     };
-    let has_margins = u.moe.is_some() || u.se.is_some() || u.ci_low.is_some() || u.sample_size.is_some();
+    let has_margins =
+        u.moe.is_some() || u.se.is_some() || u.ci_low.is_some() || u.sample_size.is_some();
     let uncertainty = has_margins.then(|| UncertaintySection {
         moe: text(&u.moe),
         se: text(&u.se),
@@ -98,8 +101,12 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
             || u.joint_adjustment != Adjustment::Independence)
             .then(|| name(&u.joint_adjustment))
             .and_then(at),
-        draws: (u.rank_intervals == IntervalKind::Simulate).then_some(u.draws).and_then(at),
-        seed: (u.rank_intervals == IntervalKind::Simulate).then_some(u.seed).and_then(at),
+        draws: (u.rank_intervals == IntervalKind::Simulate)
+            .then_some(u.draws)
+            .and_then(at),
+        seed: (u.rank_intervals == IntervalKind::Simulate)
+            .then_some(u.seed)
+            .and_then(at),
     });
     let output = OutputSection {
         format: o.format.as_ref().map(name).and_then(at),
@@ -135,9 +142,21 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
         rank_aggregates: at(args.rank_aggregates),
         aliases: (!aliases.is_empty()).then_some(aliases).and_then(at),
         allow_unresolved: at(args.allow_unresolved),
-        columns: (!toml::to_string(&columns).unwrap_or_default().trim().is_empty()).then_some(columns),
+        streaming: args.streaming.then_some(true).and_then(at),
+        chunk_mb: (args.streaming && args.chunk_mb != 64.0)
+            .then_some(args.chunk_mb)
+            .and_then(at),
+        columns: (!toml::to_string(&columns)
+            .unwrap_or_default()
+            .trim()
+            .is_empty())
+        .then_some(columns),
         uncertainty,
-        output: (!toml::to_string(&output).unwrap_or_default().trim().is_empty()).then_some(output),
+        output: (!toml::to_string(&output)
+            .unwrap_or_default()
+            .trim()
+            .is_empty())
+        .then_some(output),
     };
     let body = toml::to_string(&recipe).map_err(|e| {
         Error::usage(
@@ -190,9 +209,15 @@ mod tests {
     #[test]
     fn paths_become_relative_to_the_recipe_folder() {
         let r = |p: &str, f: &str| relative_to(Path::new(p), Path::new(f)).unwrap();
-        assert_eq!(r("/d/data/fees.csv", "/d/recipes"), PathBuf::from("../data/fees.csv"));
+        assert_eq!(
+            r("/d/data/fees.csv", "/d/recipes"),
+            PathBuf::from("../data/fees.csv")
+        );
         assert_eq!(r("/d/fees.csv", "/d"), PathBuf::from("fees.csv"));
         assert_eq!(r("/d/./a/../fees.csv", "/d/"), PathBuf::from("fees.csv"));
-        assert_eq!(r("/data/fees.csv", "/tmp/r"), PathBuf::from("/data/fees.csv"));
+        assert_eq!(
+            r("/data/fees.csv", "/tmp/r"),
+            PathBuf::from("/data/fees.csv")
+        );
     }
 }

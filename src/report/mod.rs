@@ -382,6 +382,11 @@ pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
         .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
     temp.write_all(text.as_bytes())
         .map_err(|e| Error::io(path.display(), "write the output", e))?;
+    persist_atomically(temp, path)
+}
+
+/// Moves a finished temporary file (created in the target's folder) over `path`.
+pub fn persist_atomically(temp: tempfile::NamedTempFile, path: &Path) -> Result<()> {
     // A temporary file is private (0600); the finished output gets the usual 0644, or the
     // permissions of the file it replaces.
     #[cfg(unix)]

@@ -12,6 +12,7 @@ mod properties;
 mod published;
 mod recipes;
 mod refs;
+mod streaming;
 mod uncertainty;
 
 use std::collections::HashMap;

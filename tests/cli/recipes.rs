@@ -7,8 +7,18 @@ use crate::setup;
 fn flag_args<'a>(env: &'a crate::Env, refs: &'a str, input: &'a str) -> Vec<&'a str> {
     let _ = env;
     vec![
-        "adjust", input, "--refs", refs, "--steps", "ppp,per-capita", "--per", "1000",
-        "--decimals", "3", "--format", "csv",
+        "adjust",
+        input,
+        "--refs",
+        refs,
+        "--steps",
+        "ppp,per-capita",
+        "--per",
+        "1000",
+        "--decimals",
+        "3",
+        "--format",
+        "csv",
     ]
 }
 
@@ -23,7 +33,10 @@ fn recipe_run_is_byte_identical_to_the_flag_run_and_save_recipe_round_trips() {
     let run = env.run(&args);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let recipe = std::fs::read_to_string(env.path("recipes/fees.toml")).unwrap();
-    assert!(recipe.contains("steps = [\"ppp\", \"per-capita\"]"), "{recipe}");
+    assert!(
+        recipe.contains("steps = [\"ppp\", \"per-capita\"]"),
+        "{recipe}"
+    );
     assert!(recipe.contains("per = 1000"), "{recipe}");
     // Paths are written relative to the recipe's folder.
     assert!(recipe.contains("file = \"../flags.csv\""), "{recipe}");
@@ -32,10 +45,20 @@ fn recipe_run_is_byte_identical_to_the_flag_run_and_save_recipe_round_trips() {
     std::fs::create_dir(env.path("elsewhere")).unwrap();
     let run = env.run_in(
         "elsewhere",
-        &["adjust", "--recipe", "../recipes/fees.toml", "-o", "../from-recipe.csv"],
+        &[
+            "adjust",
+            "--recipe",
+            "../recipes/fees.toml",
+            "-o",
+            "../from-recipe.csv",
+        ],
     );
     assert_eq!(run.code, 0, "{}", run.stderr);
-    assert!(run.stderr.contains("overrode its keys output.file"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("overrode its keys output.file"),
+        "{}",
+        run.stderr
+    );
     let a = std::fs::read(env.path("flags.csv")).unwrap();
     let b = std::fs::read(env.path("from-recipe.csv")).unwrap();
     assert!(!a.is_empty());
@@ -54,10 +77,21 @@ fn recipe_run_is_byte_identical_to_the_flag_run_and_save_recipe_round_trips() {
     assert_eq!(again, recipe);
 
     // The methods note quotes the recipe it read.
-    let run = env.run(&["adjust", "--recipe", "recipes/fees.toml", "--format", "methods", "-o", "m.md"]);
+    let run = env.run(&[
+        "adjust",
+        "--recipe",
+        "recipes/fees.toml",
+        "--format",
+        "methods",
+        "-o",
+        "m.md",
+    ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let note = std::fs::read_to_string(env.path("m.md")).unwrap();
-    assert!(note.contains("## Recipe\n\nRead from recipes/fees.toml"), "{note}");
+    assert!(
+        note.contains("## Recipe\n\nRead from recipes/fees.toml"),
+        "{note}"
+    );
     assert!(note.contains(&recipe), "{note}");
     assert!(note.contains("| recipe | recipes/fees.toml |"), "{note}");
 }
@@ -73,8 +107,16 @@ fn flags_override_recipe_keys_and_the_summary_says_which() {
     env.write("r.toml", &recipe);
     let run = env.run(&["adjust", "--recipe", "r.toml", "--steps", "market"]);
     assert_eq!(run.code, 0, "{}", run.stderr);
-    assert!(run.stderr.contains("overrode its keys steps"), "{}", run.stderr);
-    assert!(run.stderr.contains("steps (adjusted): market"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("overrode its keys steps"),
+        "{}",
+        run.stderr
+    );
+    assert!(
+        run.stderr.contains("steps (adjusted): market"),
+        "{}",
+        run.stderr
+    );
     let rows = run.rows();
     assert!(rows[0].contains_key("fx_used") && !rows[0].contains_key("ppp_used"));
 }
@@ -84,20 +126,49 @@ fn recipe_errors_name_the_key_and_the_line() {
     let env = setup();
     let cases = [
         // (recipe text, words the message must hold)
-        ("steps = [\"ppp\"]\n\n[columns]\nentity = \"Economy\"\nentitty = \"x\"\n", vec!["r.toml, line 5, column 1, key `entitty`", "unknown field"]),
-        ("steps = [\"deflate\"]\nbase_year = \"2023\"\n", vec!["r.toml, line 2", "key `base_year`", "invalid type"]),
-        ("input = \"x.csv\"\nrefs = \"refs\"\nsteps = [\"deflate\", \"ppp\"]\n", vec!["r.toml, line 3", "key `steps`", "deflate needs a base year"]),
-        ("steps = [\"ppp\", \"warp\"]\n", vec!["line 1", "key `steps`", "unknown step \"warp\""]),
-        ("[output]\nformat = \"pdf\"\n", vec!["line 2", "key `output.format`", "use one of: table, csv"]),
-        ("[columns]\nyear = \"y\"\nyear_value = 2020\n", vec!["line 3", "key `columns.year_value`", "cannot be used with columns.year"]),
-        ("[uncertainty]\nmoe = \"m\"\n", vec!["line 2", "key `uncertainty.moe`", "confidence level"]),
+        (
+            "steps = [\"ppp\"]\n\n[columns]\nentity = \"Economy\"\nentitty = \"x\"\n",
+            vec!["r.toml, line 5, column 1, key `entitty`", "unknown field"],
+        ),
+        (
+            "steps = [\"deflate\"]\nbase_year = \"2023\"\n",
+            vec!["r.toml, line 2", "key `base_year`", "invalid type"],
+        ),
+        (
+            "input = \"x.csv\"\nrefs = \"refs\"\nsteps = [\"deflate\", \"ppp\"]\n",
+            vec!["r.toml, line 3", "key `steps`", "deflate needs a base year"],
+        ),
+        (
+            "steps = [\"ppp\", \"warp\"]\n",
+            vec!["line 1", "key `steps`", "unknown step \"warp\""],
+        ),
+        (
+            "[output]\nformat = \"pdf\"\n",
+            vec!["line 2", "key `output.format`", "use one of: table, csv"],
+        ),
+        (
+            "[columns]\nyear = \"y\"\nyear_value = 2020\n",
+            vec![
+                "line 3",
+                "key `columns.year_value`",
+                "cannot be used with columns.year",
+            ],
+        ),
+        (
+            "[uncertainty]\nmoe = \"m\"\n",
+            vec!["line 2", "key `uncertainty.moe`", "confidence level"],
+        ),
     ];
     for (text, words) in cases {
         env.write("r.toml", text);
         let run = env.run(&["adjust", "x.csv", "--recipe", "r.toml"]);
         assert_eq!(run.code, 2, "{text}: {}", run.stderr);
         for word in words {
-            assert!(run.stderr.contains(word), "{text}: missing {word:?} in {}", run.stderr);
+            assert!(
+                run.stderr.contains(word),
+                "{text}: missing {word:?} in {}",
+                run.stderr
+            );
         }
     }
 }
@@ -115,10 +186,18 @@ fn batch_runs_every_table_reports_the_broken_one_and_equals_single_runs() {
         env.data("country-refs")
     );
     env.write("fees.toml", &recipe);
-    env.write("batch.toml", "[[run]]\nrecipe = \"fees.toml\"\ninputs = \"incoming/*.csv\"\n");
+    env.write(
+        "batch.toml",
+        "[[run]]\nrecipe = \"fees.toml\"\ninputs = \"incoming/*.csv\"\n",
+    );
     let run = env.run(&["batch", "batch.toml"]);
     assert_eq!(run.code, 1, "{}{}", run.stdout, run.stderr);
-    assert!(run.stdout.contains("3 table(s): 2 done, 1 failed, 0 skipped"), "{}", run.stdout);
+    assert!(
+        run.stdout
+            .contains("3 table(s): 2 done, 1 failed, 0 skipped"),
+        "{}",
+        run.stdout
+    );
     assert!(run.stdout.contains("FAILED"), "{}", run.stdout);
     assert!(run.stderr.contains("Nowhereland"), "{}", run.stderr);
     assert!(env.path("incoming/a-adjusted.csv").is_file());
@@ -138,27 +217,46 @@ fn batch_runs_every_table_reports_the_broken_one_and_equals_single_runs() {
         assert_eq!(single.code, 0, "{}", single.stderr);
         let batch = std::fs::read(env.path(&format!("incoming/{name}-adjusted.csv"))).unwrap();
         let alone = std::fs::read(env.path(&format!("{name}-single.csv"))).unwrap();
-        assert_eq!(batch, alone, "batch output of {name} differs from its single run");
+        assert_eq!(
+            batch, alone,
+            "batch output of {name} differs from its single run"
+        );
     }
 
     // A rerun does not pick up its own outputs; --fail-fast skips what follows a failure.
     env.write("incoming/0.csv", "Economy,2020\nNowhereland,5\n");
     let run = env.run(&["batch", "batch.toml", "--fail-fast"]);
     assert_eq!(run.code, 1);
-    assert!(run.stdout.contains("4 table(s): 0 done, 1 failed, 3 skipped"), "{}", run.stdout);
+    assert!(
+        run.stdout
+            .contains("4 table(s): 0 done, 1 failed, 3 skipped"),
+        "{}",
+        run.stdout
+    );
 }
 
 #[test]
 fn batch_manifest_errors_name_the_line() {
     let env = setup();
     env.write("fees.toml", "steps = []\n");
-    env.write("batch.toml", "[[run]]\nrecipe = \"fees.toml\"\ninput = \"*.csv\"\n");
+    env.write(
+        "batch.toml",
+        "[[run]]\nrecipe = \"fees.toml\"\ninput = \"*.csv\"\n",
+    );
     let run = env.run(&["batch", "batch.toml"]);
     assert_eq!(run.code, 2);
     assert!(run.stderr.contains("batch.toml, line 3"), "{}", run.stderr);
-    assert!(run.stderr.contains("unknown field `input`"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("unknown field `input`"),
+        "{}",
+        run.stderr
+    );
     env.write("batch.toml", "[[run]]\nrecipe = \"missing.toml\"\n");
     let run = env.run(&["batch", "batch.toml"]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.contains("line 2") && run.stderr.contains("is not a file"), "{}", run.stderr);
+    assert!(
+        run.stderr.contains("line 2") && run.stderr.contains("is not a file"),
+        "{}",
+        run.stderr
+    );
 }

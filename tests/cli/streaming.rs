@@ -1,0 +1,205 @@
+//! `--streaming` gives the in-memory output byte for byte, on generated tables of a few hundred
+//! thousand rows cut into many pieces. The tables are generated here (deterministic, not
+//! invented figures of any real place: random numbers over the country-refs fixture's codes).
+
+use crate::setup;
+
+/// A small deterministic generator (SplitMix64), so the table is the same on every run.
+struct Numbers(u64);
+
+impl Numbers {
+    fn next(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+
+    fn below(&mut self, n: u64) -> u64 {
+        self.next() % n
+    }
+}
+
+const CODES: &[(&str, &str)] = &[
+    ("KOR", "KRW"),
+    ("Turkiye", "TRY"),
+    ("CZE", "CZK"),
+    ("Côte d'Ivoire", "XOF"),
+    ("VNM", "VND"),
+    ("France", "EUR"),
+    ("USA", "USD"),
+    ("World", ""),
+];
+
+/// A long table with every kind of cell the reader flags: missing values, footnote marks,
+/// thousands separators inside quotes, aggregates, years without a population figure, and a
+/// figure in the base currency only near the end (the last piece changes the columns).
+fn long_table(rows: usize) -> String {
+    let mut n = Numbers(20261202);
+    let mut out = String::from("country,year,item,currency,value\n");
+    for i in 0..rows {
+        let (entity, currency) = CODES[n.below(CODES.len() as u64) as usize];
+        let year = 2020 + n.below(4);
+        let item = format!("item {:02}", n.below(60));
+        let whole = n.below(2_000_000);
+        let value = match n.below(40) {
+            0 => "..".to_string(),
+            1 => format!("{whole}*"),
+            2 => format!("\"{},{:03}.5\"", whole / 1000, whole % 1000),
+            _ => format!("{whole}.{}", n.below(100)),
+        };
+        let currency = if i + 10 > rows && entity != "World" {
+            "USD"
+        } else {
+            currency
+        };
+        out.push_str(&format!("{entity},{year},{item},{currency},{value}\n"));
+    }
+    out.push_str("\nSource: generated for the levelfield streaming test\n");
+    out
+}
+
+fn run_both(env: &crate::Env, input: &str, extra: &[&str]) -> (Vec<u8>, Vec<u8>, String) {
+    let refs = env.data("country-refs");
+    let mut args = vec!["adjust", input, "--refs", &refs, "--format", "csv", "-q"];
+    args.extend_from_slice(extra);
+    let mut whole = args.clone();
+    whole.extend(["-o", "whole.csv", "--max-input-mb", "64"]);
+    let run = env.run(&whole);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let mut pieces = args.clone();
+    pieces.retain(|a| *a != "-q");
+    pieces.extend(["-o", "pieces.csv", "--streaming", "--chunk-mb", "0.2"]);
+    let run = env.run(&pieces);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    (
+        std::fs::read(env.path("whole.csv")).unwrap(),
+        std::fs::read(env.path("pieces.csv")).unwrap(),
+        run.stderr,
+    )
+}
+
+#[test]
+fn streaming_output_is_byte_identical_on_a_generated_long_table() {
+    let env = setup();
+    let input = env.write("long.csv", &long_table(200_000));
+    let (whole, pieces, summary) = run_both(
+        &env,
+        &input,
+        &[
+            "--steps",
+            "ppp,per-capita",
+            "--per",
+            "1000",
+            "--group",
+            "item",
+            "--currency",
+            "currency",
+            "--lenient",
+        ],
+    );
+    assert!(
+        summary.contains("200000 row(s) in, 200000 row(s) out"),
+        "{summary}"
+    );
+    let count: usize = summary
+        .split("read in ")
+        .nth(1)
+        .and_then(|s| s.split(' ').next())
+        .and_then(|n| n.parse().ok())
+        .unwrap_or(0);
+    assert!(count > 20, "expected many pieces: {summary}");
+    // The note below the table is set aside in streaming too.
+    assert!(summary.contains("below the table"), "{summary}");
+    assert_eq!(whole.len(), pieces.len());
+    assert!(
+        whole == pieces,
+        "streaming output differs from the in-memory output"
+    );
+    // Base-currency rows near the end gave every row the same columns as the whole run.
+    assert!(String::from_utf8_lossy(&whole[..400]).contains("value_lcu"));
+}
+
+#[test]
+fn streaming_output_is_byte_identical_on_a_wide_table_and_refuses_what_it_cannot_do() {
+    let env = setup();
+    let mut n = Numbers(7);
+    let mut text = String::from("Economy,2020,2021,2022,2023\n");
+    for _ in 0..20_000 {
+        let (entity, _) = CODES[n.below(CODES.len() as u64) as usize];
+        let cells: Vec<String> = (0..4).map(|_| n.below(100_000).to_string()).collect();
+        text.push_str(&format!("{entity},{}\n", cells.join(",")));
+    }
+    let input = env.write("wide.csv", &text);
+    let (whole, pieces, _) = run_both(
+        &env,
+        &input,
+        &[
+            "--steps",
+            "ppp,per-capita",
+            "--allow-unresolved",
+            "--decimals",
+            "2",
+        ],
+    );
+    assert!(
+        whole == pieces,
+        "streaming output differs from the in-memory output"
+    );
+
+    let refs = env.data("country-refs");
+    for (extra, words) in [
+        (vec!["--format", "md", "-o", "x.md"], "writes csv to a file"),
+        (
+            vec!["-o", "x.csv", "--moe", "m", "--moe-level", "90"],
+            "margins of error",
+        ),
+        (vec!["-o", "x.csv", "--report", "r.html"], "HTML report"),
+    ] {
+        let mut args = vec![
+            "adjust",
+            &input,
+            "--refs",
+            &refs,
+            "--steps",
+            "ppp",
+            "--streaming",
+        ];
+        args.extend(extra);
+        let run = env.run(&args);
+        assert_eq!(run.code, 2, "{}", run.stderr);
+        assert!(run.stderr.contains(words), "{words}: {}", run.stderr);
+    }
+}
+
+#[test]
+fn streaming_errors_keep_the_line_of_the_whole_file() {
+    let env = setup();
+    let mut text = String::from("country,year,value\n");
+    for i in 0..20_000 {
+        text.push_str(&format!("FRA,2020,{i}\n"));
+    }
+    text.push_str("FRA,2020,twelve\n");
+    let input = env.write("bad.csv", &text);
+    let refs = env.data("country-refs");
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp",
+        "--streaming",
+        "--chunk-mb",
+        "0.05",
+        "-o",
+        "x.csv",
+    ]);
+    assert_eq!(run.code, 2, "{}", run.stderr);
+    assert!(run.stderr.contains("line 20002"), "{}", run.stderr);
+    assert!(
+        !env.path("x.csv").exists(),
+        "no output is left behind by a failed run"
+    );
+}
