@@ -151,9 +151,11 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     }
     let input_sha256 = report::methods::sha256_hex(&plan.input_bytes);
     let note = methods_note(plan, &output, &input_sha256);
-    let text = match plan.output.format {
-        report::Format::Methods => report::methods::render_markdown(&note),
-        format => report::render(&output.frame, &output.summary, format, plan.output.rounding)?,
+    let render = || -> Result<String> {
+        Ok(match plan.output.format {
+            report::Format::Methods => report::methods::render_markdown(&note),
+            format => report::render(&output.frame, &output.summary, format, plan.output.rounding)?,
+        })
     };
     if let Some(path) = &plan.output.methods {
         report::write_atomically(path, &report::methods::render_markdown(&note))?;
@@ -167,7 +169,10 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         Some(path) if plan.output.format == report::Format::Parquet => {
             report::write_parquet_atomically(path, &output.frame)?
         }
-        Some(path) => report::write_atomically(path, &text)?,
+        Some(path) if plan.output.format == report::Format::Csv => {
+            report::write_csv_atomically(path, &output.frame, plan.output.rounding)?
+        }
+        Some(path) => report::write_atomically(path, &render()?)?,
         None if plan.output.format == report::Format::Parquet => {
             return Err(error::Error::usage(
                 "Parquet is a binary format and is not written to the terminal",
@@ -177,7 +182,7 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         None => {
             let mut stdout = std::io::stdout().lock();
             stdout
-                .write_all(text.as_bytes())
+                .write_all(render()?.as_bytes())
                 .map_err(|e| error::Error::io("standard output", "write", e))?;
         }
     }

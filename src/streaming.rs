@@ -346,8 +346,9 @@ fn run(
     // The pieces again, in order, with their ranks, into the output.
     let order = pipeline::output_columns(&head, settings);
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
-    let mut temp = tempfile::NamedTempFile::new_in(&folder)
+    let temp = tempfile::NamedTempFile::new_in(&folder)
         .map_err(|e| Error::io(folder.display(), "create a temporary file in", e))?;
+    let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
     let mut counts = FlagCounts::default();
     let mut offset = 0i64;
     let mut rows_out = 0usize;
@@ -364,14 +365,7 @@ fn run(
             .map_err(Error::engine("flagging a piece"))?;
         rows_out += frame.height();
         counts.add(FlagCounts::of(&frame)?);
-        let text = report::render_csv(&frame, plan.output.rounding)?;
-        let body = if i == 0 {
-            text.as_str()
-        } else {
-            text.split_once('\n').map(|(_, rest)| rest).unwrap_or("")
-        };
-        temp.write_all(body.as_bytes())
-            .map_err(|e| Error::io(output.display(), "write the output", e))?;
+        report::write_csv(&frame, plan.output.rounding, i == 0, &mut buffered)?;
         let _ = std::fs::remove_file(&piece.path);
     }
     if rows_out != rows_in {
@@ -379,6 +373,12 @@ fn run(
             ComputeError: "{} rows in, {} rows out", rows_in, rows_out
         )));
     }
+    buffered
+        .flush()
+        .map_err(|e| Error::io(output.display(), "write the output", e))?;
+    let temp = buffered
+        .into_inner()
+        .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
     report::persist_atomically(temp, output)?;
 
     let mut notes = first.notes.clone();

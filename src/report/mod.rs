@@ -87,18 +87,26 @@ fn reader_rounding(rounding: Rounding) -> Rounding {
 }
 
 pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
+    let mut bytes = Vec::new();
+    write_csv(frame, rounding, true, &mut bytes)?;
+    Ok(String::from_utf8_lossy(&bytes).into_owned())
+}
+
+/// Rows formatted at a time: the cell texts of one slice are held, not those of the frame.
+const CSV_SLICE_ROWS: usize = 65_536;
+
+/// Writes the frame as csv (with or without the header line) to `out`, a slice at a time.
+pub fn write_csv(
+    frame: &DataFrame,
+    rounding: Rounding,
+    header: bool,
+    out: &mut dyn std::io::Write,
+) -> Result<()> {
     let names: Vec<String> = frame
         .get_column_names()
         .iter()
         .map(|n| n.to_string())
         .collect();
-    let columns: Vec<Vec<String>> = names
-        .iter()
-        .map(|n| column_texts(frame, n, rounding, false))
-        .collect();
-    let mut writer = csv::WriterBuilder::new()
-        .terminator(csv::Terminator::Any(b'\n'))
-        .from_writer(Vec::new());
     let io_error = |e: csv::Error| {
         Error::io(
             "the csv output",
@@ -106,20 +114,31 @@ pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
             std::io::Error::other(e.to_string()),
         )
     };
-    writer.write_record(&names).map_err(io_error)?;
-    for row in 0..frame.height() {
-        writer
-            .write_record(columns.iter().map(|c| c[row].as_str()))
-            .map_err(io_error)?;
+    let mut writer = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .buffer_capacity(1 << 16)
+        .from_writer(out);
+    if header {
+        writer.write_record(&names).map_err(io_error)?;
     }
-    let bytes = writer.into_inner().map_err(|e| {
-        Error::io(
-            "the csv output",
-            "write",
-            std::io::Error::other(e.to_string()),
-        )
-    })?;
-    Ok(String::from_utf8_lossy(&bytes).into_owned())
+    let mut start = 0;
+    while start < frame.height() {
+        let slice = frame.slice(start as i64, CSV_SLICE_ROWS);
+        let columns: Vec<Vec<String>> = names
+            .iter()
+            .map(|n| column_texts(&slice, n, rounding, false))
+            .collect();
+        for row in 0..slice.height() {
+            writer
+                .write_record(columns.iter().map(|c| c[row].as_str()))
+                .map_err(io_error)?;
+        }
+        start += slice.height();
+    }
+    writer
+        .flush()
+        .map_err(|e| Error::io("the csv output", "write", e))?;
+    Ok(())
 }
 
 /// One row per entity, year and group, one column per stage (input, each step, baseline,
@@ -367,6 +386,25 @@ pub fn write_parquet_atomically(path: &Path, frame: &DataFrame) -> Result<()> {
 /// Writes `text` to `path` through a temporary file in the same folder and a rename, so a
 /// failure never leaves a half-written file and an earlier output stays intact.
 pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
+    let mut temp = temp_beside(path)?;
+    temp.write_all(text.as_bytes())
+        .map_err(|e| Error::io(path.display(), "write the output", e))?;
+    persist_atomically(temp, path)
+}
+
+/// Writes the frame as csv to `path` atomically, without holding the whole text in memory.
+pub fn write_csv_atomically(path: &Path, frame: &DataFrame, rounding: Rounding) -> Result<()> {
+    let temp = temp_beside(path)?;
+    let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
+    write_csv(frame, rounding, true, &mut buffered)?;
+    let temp = buffered
+        .into_inner()
+        .map_err(|e| Error::io(path.display(), "write the output", e.into_error()))?;
+    persist_atomically(temp, path)
+}
+
+/// A temporary file in the folder of `path` (so the final rename stays on one file system).
+pub fn temp_beside(path: &Path) -> Result<tempfile::NamedTempFile> {
     if path.is_dir() {
         return Err(Error::io(
             path.display(),
@@ -378,11 +416,8 @@ pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => std::path::PathBuf::from("."),
     };
-    let mut temp = tempfile::NamedTempFile::new_in(&dir)
-        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
-    temp.write_all(text.as_bytes())
-        .map_err(|e| Error::io(path.display(), "write the output", e))?;
-    persist_atomically(temp, path)
+    tempfile::NamedTempFile::new_in(&dir)
+        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))
 }
 
 /// Moves a finished temporary file (created in the target's folder) over `path`.
