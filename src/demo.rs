@@ -168,7 +168,7 @@ pub fn extract(dir: &std::path::Path) -> Result<()> {
         write(&format!("reference-tables/{name}"), text)?;
     }
     for (name, demo_args) in [("fees.toml", DEMO_ARGS), ("survey.toml", DEMO_MARGIN_ARGS)] {
-        write(&name.to_string(), &demo_recipe(demo_args)?)?;
+        write(name, &demo_recipe(demo_args)?)?;
     }
     Ok(())
 }

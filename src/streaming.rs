@@ -148,6 +148,13 @@ struct Spilled {
     rows: usize,
 }
 
+/// The output columns and the steps, as the first piece planned them.
+struct Columns {
+    head: Vec<String>,
+    baseline_steps: Vec<&'static dyn crate::adjust::Step>,
+    deflator_used: Option<crate::adjust::Deflator>,
+}
+
 /// The run needs restarting with `assume_base_rows` (a later piece holds base-currency rows).
 struct Restart;
 
@@ -211,11 +218,7 @@ fn run(
     let mut rows_before = 0usize;
     let mut ord = 0u64;
     let mut later_notes: Vec<String> = Vec::new();
-    let mut shape: Option<(
-        Vec<String>,
-        Vec<&'static dyn crate::adjust::Step>,
-        Option<crate::adjust::Deflator>,
-    )> = None;
+    let mut shape: Option<Columns> = None;
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
         let prepared = match &first {
@@ -291,15 +294,12 @@ fn run(
                     .cloned(),
             ),
         }
-        if shape.is_none() {
-            shape = Some((
-                prepared.head_columns.clone(),
-                prepared.baseline_steps.clone(),
-                prepared.deflator_used,
-            ));
-        }
-        let head = &shape.as_ref().map(|s| s.0.clone()).unwrap_or_default();
-        let mut keep: Vec<Expr> = head.iter().map(|c| col(c.as_str())).collect();
+        let columns = shape.get_or_insert_with(|| Columns {
+            head: prepared.head_columns.clone(),
+            baseline_steps: prepared.baseline_steps.clone(),
+            deflator_used: prepared.deflator_used,
+        });
+        let mut keep: Vec<Expr> = columns.head.iter().map(|c| col(c.as_str())).collect();
         keep.extend(["_ord", "_flags_pre", "_factor_flags", "_rank_eligible"].map(col));
         let frame = prepared
             .lf
@@ -325,7 +325,15 @@ fn run(
         rows_before += prepared.ingested.data_lines;
         ord += prepared.rows_in as u64;
     }
-    let (Some(first), Some((head, baseline_steps, deflator_used))) = (first, shape) else {
+    let (
+        Some(first),
+        Some(Columns {
+            head,
+            baseline_steps,
+            deflator_used,
+        }),
+    ) = (first, shape)
+    else {
         return Err(Error::bad_input(
             crate::error::Location::file(label),
             "the file is empty",
