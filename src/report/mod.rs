@@ -122,16 +122,19 @@ pub fn write_csv(
         writer.write_record(&names).map_err(io_error)?;
     }
     let mut start = 0;
+    let mut cell = String::new();
     while start < frame.height() {
         let slice = frame.slice(start as i64, CSV_SLICE_ROWS);
-        let columns: Vec<Vec<String>> = names
+        let mut columns: Vec<format::CellSource> = names
             .iter()
-            .map(|n| column_texts(&slice, n, rounding, false))
+            .map(|n| format::CellSource::new(&slice, n, rounding))
             .collect();
-        for row in 0..slice.height() {
-            writer
-                .write_record(columns.iter().map(|c| c[row].as_str()))
-                .map_err(io_error)?;
+        for _ in 0..slice.height() {
+            for column in columns.iter_mut() {
+                column.next_into(rounding, &mut cell);
+                writer.write_field(cell.as_bytes()).map_err(io_error)?;
+            }
+            writer.write_record(None::<&[u8]>).map_err(io_error)?;
         }
         start += slice.height();
     }
