@@ -369,8 +369,8 @@ fn run_jobs(jobs: &[Job], output_dir: Option<&Path>, args: &BatchArgs) -> Result
                 result.status = Status::Failed(error.to_string());
             }
         }
-        bar.inc(1);
         bar.set_message(label);
+        bar.inc(1);
         result
     };
     let results = if args.fail_fast {
