@@ -87,7 +87,6 @@ pub fn run_adjust(
     let order = output_columns(&prepared.head_columns, settings);
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
     let frame = lf
-        .sort(["_ord"], SortMultipleOptions::default())
         .select(selection)
         .collect()
         .map_err(Error::engine("adjusting and ranking"))?;
@@ -274,7 +273,11 @@ pub(crate) fn prepare(
         lookup.lazy(),
         [col("entity_code"), col("year")],
         [col("entity_code"), col("year")],
-        JoinArgs::new(JoinType::Left),
+        // Rows stay in input order (no sort of every column afterwards).
+        JoinArgs {
+            maintain_order: MaintainOrderJoin::Left,
+            ..JoinArgs::new(JoinType::Left)
+        },
     );
     for batch in batches {
         lf = lf.with_columns(batch);

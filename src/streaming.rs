@@ -303,7 +303,6 @@ fn run(
         keep.extend(["_ord", "_flags_pre", "_factor_flags", "_rank_eligible"].map(col));
         let frame = prepared
             .lf
-            .sort(["_ord"], SortMultipleOptions::default())
             .select(keep)
             .collect()
             .map_err(Error::engine("adjusting a piece of the table"))?;

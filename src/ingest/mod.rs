@@ -204,14 +204,14 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     let mut rows = Vec::new();
     for (index, record) in table.records.iter().enumerate() {
         let data_row = index + 1 + options.row_offset;
-        let entity_input = record.cells[roles.entity].clone();
+        let entity_input = record.cells[roles.entity].to_string();
         let group = roles
             .group
             .map(|g| record.cells[g].trim().to_string())
             .filter(|g| !g.is_empty());
         let currency_cell = roles
             .currency
-            .map(|c| (table.headers[c].as_str(), record.cells[c].as_str()));
+            .map(|c| (table.headers[c].as_str(), &record.cells[c]));
         match &roles.shape {
             Shape::Long { value, year, .. } => {
                 let mut row_flags = Vec::new();
@@ -238,7 +238,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                 let cells = margins::MarginCells {
                     cells: roles.reserved[..margin_count]
                         .iter()
-                        .map(|&i| (table.headers[i].as_str(), record.cells[i].as_str()))
+                        .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
                         .collect(),
                 };
                 let multiplier = options.value_multiplier.map(number::to_f64).unwrap_or(1.0);
@@ -253,7 +253,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                 )?;
                 row.extra = roles.reserved[margin_count..]
                     .iter()
-                    .map(|&i| record.cells[i].clone())
+                    .map(|&i| record.cells[i].to_string())
                     .collect();
                 rows.push(row);
             }

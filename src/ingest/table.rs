@@ -19,7 +19,8 @@ pub struct TextTable {
 #[derive(Debug, Clone)]
 pub struct TextRecord {
     pub line: usize,
-    pub cells: Vec<String>,
+    /// The cells, indexable as `&str` (one allocation per record, not one per cell).
+    pub cells: csv::StringRecord,
 }
 
 const CANDIDATES: &[u8] = b",\t;|";
@@ -158,37 +159,38 @@ pub fn read_table_from(
         .iter()
         .rposition(|(_, r)| data_like(r))
         .unwrap_or(header_index);
-    let mut records = Vec::new();
-    for (line, record) in &all[header_index + 1..=last_data.max(header_index)] {
-        if filled(record) == 0 {
+    let tail = last_data.max(header_index) + 1;
+    skipped.extend(all[tail..].iter().filter(|(_, r)| filled(r) > 0).map(|(line, r)| {
+        format!(
+            "line {line} below the table: \"{}\"",
+            shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
+        )
+    }));
+    // Records move out of `all` (no copy of their text).
+    let mut records = Vec::with_capacity(tail.saturating_sub(header_index + 1));
+    for (line, mut record) in all.drain(header_index + 1..tail.max(header_index + 1)) {
+        if filled(&record) == 0 {
             continue;
         }
-        let mut cells: Vec<String> = record.iter().map(str::to_string).collect();
         // Spreadsheet exports pad lines with empty cells; only filled extra cells are an error.
-        while cells.len() > width && cells.last().is_some_and(|c| c.trim().is_empty()) {
-            cells.pop();
+        let mut len = record.len();
+        while len > width && record[len - 1].trim().is_empty() {
+            len -= 1;
         }
-        if cells.len() != width {
+        record.truncate(len);
+        if record.len() != width {
             return Err(Error::bad_input(
-                Location::line(file, *line),
-                format!("{} field(s) on this line, but the header has {width}", cells.len()),
+                Location::line(file, line),
+                format!("{} field(s) on this line, but the header has {width}", record.len()),
                 format!("{width} fields separated by the {} delimiter", delimiter_name(delimiter)),
                 "fix the line (a stray delimiter or a missing quote is the usual cause), or pass --delimiter if the wrong one was detected",
             ));
         }
-        records.push(TextRecord { line: *line, cells });
+        records.push(TextRecord {
+            line,
+            cells: record,
+        });
     }
-    skipped.extend(
-        all[last_data.max(header_index) + 1..]
-            .iter()
-            .filter(|(_, r)| filled(r) > 0)
-            .map(|(line, r)| {
-                format!(
-                    "line {line} below the table: \"{}\"",
-                    shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
-                )
-            }),
-    );
     Ok(TextTable {
         headers,
         records,

@@ -218,7 +218,7 @@ fn load_plain(
                             _ => {
                                 return Err(Error::bad_input(
                                     Location::cell(file, record.line, &text_table.headers[*index]),
-                                    format!("\"{}\" is not a calendar year", record.cells[*index]),
+                                    format!("\"{}\" is not a calendar year", &record.cells[*index]),
                                     "a four-digit year",
                                     "fix the reference table",
                                 ))
