@@ -231,7 +231,7 @@ pub struct AdjustArgs {
     pub streaming: bool,
 
     /// With --streaming: megabytes of input per piece (memory per piece is a few times this).
-    #[arg(long, default_value_t = 64.0, value_parser = parse_chunk_mb, value_name = "MB", help_heading = "Reading")]
+    #[arg(long, default_value_t = 16.0, value_parser = parse_chunk_mb, value_name = "MB", help_heading = "Reading")]
     pub chunk_mb: f64,
 
     #[command(flatten)]
@@ -511,7 +511,7 @@ pub(crate) fn parse_chunk_mb(text: &str) -> Result<f64, String> {
     match text.trim().parse::<f64>() {
         Ok(mb) if mb.is_finite() && mb > 0.0 => Ok(mb),
         _ => Err(format!(
-            "\"{text}\" is not a piece size: give megabytes above 0, such as 64 or 0.5"
+            "\"{text}\" is not a piece size: give megabytes above 0, such as 16 or 0.5"
         )),
     }
 }

@@ -141,7 +141,7 @@ pub fn merge(
                 "chunk_mb",
                 v.span(),
                 problem,
-                "write chunk_mb = 64, for example",
+                "write chunk_mb = 16, for example",
             )
         })?;
     }

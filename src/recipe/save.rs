@@ -143,7 +143,7 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
         aliases: (!aliases.is_empty()).then_some(aliases).and_then(at),
         allow_unresolved: at(args.allow_unresolved),
         streaming: args.streaming.then_some(true).and_then(at),
-        chunk_mb: (args.streaming && args.chunk_mb != 64.0)
+        chunk_mb: (args.streaming && args.chunk_mb != 16.0)
             .then_some(args.chunk_mb)
             .and_then(at),
         columns: (!toml::to_string(&columns)
