@@ -52,17 +52,25 @@ def floor_script(data, out):
     return [PY, "-c", code]
 
 
-def check_agreement(data, out_levelfield, out_polars):
-    """The hand-written polars result and levelfield's agree (max relative difference)."""
+def check_agreement(out_levelfield, out_script):
+    """levelfield and a hand-written script agree: rows matched on entity, year and item, the
+    largest relative difference of value_adjusted and the number of differing ranks."""
     import polars as pl
 
-    a = pl.read_csv(out_levelfield, columns=["value_adjusted", "rank_adjusted"], infer_schema_length=0)
-    b = pl.read_csv(out_polars, columns=["value_adjusted", "rank_adjusted"], infer_schema_length=0)
-    a = a.with_columns(pl.all().cast(pl.Float64))
-    b = b.with_columns(pl.all().cast(pl.Float64))
-    rel = ((a["value_adjusted"] - b["value_adjusted"]).abs() / b["value_adjusted"].abs()).max()
-    ranks = (a["rank_adjusted"] != b["rank_adjusted"]).sum()
-    return rel, ranks
+    a = pl.read_csv(
+        out_levelfield,
+        columns=["entity_input", "year", "group", "value_adjusted", "rank_adjusted"],
+        schema_overrides={"value_adjusted": pl.Float64, "rank_adjusted": pl.Int64},
+    ).rename({"entity_input": "entity", "group": "item"})
+    b = pl.read_csv(
+        out_script,
+        columns=["entity", "year", "item", "value_adjusted", "rank_adjusted"],
+        schema_overrides={"value_adjusted": pl.Float64, "rank_adjusted": pl.Int64},
+    )
+    both = a.join(b, on=["entity", "year", "item"], how="inner", suffix="_script")
+    rel = ((both["value_adjusted"] - both["value_adjusted_script"]).abs() / both["value_adjusted_script"].abs()).max()
+    ranks = (both["rank_adjusted"] != both["rank_adjusted_script"]).sum()
+    return len(both), rel, ranks
 
 
 def main():
@@ -98,9 +106,10 @@ def main():
             for key, label in [("floor", "I/O floor"), ("pandas", "pandas"), ("polars", "polars (Python)")]:
                 if key in results:
                     print(f"- levelfield / {label}: {lf[0] / results[key][0]:.2f}x wall time")
-        if "levelfield" in results and "polars" in results:
-            rel, ranks = check_agreement(data, f"{data}/out-levelfield.csv", f"{data}/out-polars.csv")
-            print(f"- agreement with the polars script: max relative difference of value_adjusted {rel:.1e}, {ranks} rank(s) differ")
+        for key, label in [("polars", "polars script"), ("pandas", "pandas script")]:
+            if "levelfield" in results and key in results:
+                matched, rel, ranks = check_agreement(f"{data}/out-levelfield.csv", f"{data}/out-{key}.csv")
+                print(f"- agreement with the {label}: {matched:,} rows matched, max relative difference of value_adjusted {rel:.1e}, {ranks} rank(s) differ")
         if "levelfield" in results and "streaming" in results:
             same = open(f"{data}/out-levelfield.csv", "rb").read() == open(f"{data}/out-streaming.csv", "rb").read()
             print(f"- --streaming output byte-identical to the in-memory output: {same}")
