@@ -160,12 +160,17 @@ pub fn read_table_from(
         .rposition(|(_, r)| data_like(r))
         .unwrap_or(header_index);
     let tail = last_data.max(header_index) + 1;
-    skipped.extend(all[tail..].iter().filter(|(_, r)| filled(r) > 0).map(|(line, r)| {
-        format!(
-            "line {line} below the table: \"{}\"",
-            shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
-        )
-    }));
+    skipped.extend(
+        all[tail..]
+            .iter()
+            .filter(|(_, r)| filled(r) > 0)
+            .map(|(line, r)| {
+                format!(
+                    "line {line} below the table: \"{}\"",
+                    shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
+                )
+            }),
+    );
     // Records move out of `all` (no copy of their text).
     let mut records = Vec::with_capacity(tail.saturating_sub(header_index + 1));
     for (line, mut record) in all.drain(header_index + 1..tail.max(header_index + 1)) {
