@@ -183,7 +183,11 @@ fn run(
     let mut reader = BufReader::with_capacity(1 << 20, file);
     let delimiter = {
         let peek = reader.fill_buf().map_err(|e| Error::io(label, "read", e))?;
-        if peek.starts_with(&[0xFF, 0xFE]) || peek.starts_with(&[0xFE, 0xFF]) {
+        let forced_utf16 = matches!(
+            settings.ingest.encoding,
+            Some(EncodingChoice::Utf16Le | EncodingChoice::Utf16Be)
+        );
+        if forced_utf16 || peek.starts_with(&[0xFF, 0xFE]) || peek.starts_with(&[0xFE, 0xFF]) {
             return Err(Error::usage(
                 format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
                 "re-save the table as UTF-8, or run without --streaming",

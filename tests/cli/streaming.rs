@@ -156,6 +156,7 @@ fn streaming_output_is_byte_identical_on_a_wide_table_and_refuses_what_it_cannot
             "margins of error",
         ),
         (vec!["-o", "x.csv", "--report", "r.html"], "HTML report"),
+        (vec!["-o", "x.csv", "--encoding", "utf-16le"], "UTF-16"),
     ] {
         let mut args = vec![
             "adjust",
