@@ -76,16 +76,7 @@ pub fn demo_plan(args: &DemoArgs) -> Result<plan::AdjustPlan> {
     } else {
         DEMO_ARGS
     };
-    let mut argv = vec!["levelfield", "adjust"];
-    argv.extend_from_slice(demo_args);
-    let cli = Cli::try_parse_from(argv)
-        .map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
-    let Command::Adjust(adjust) = cli.command else {
-        return Err(Error::usage(
-            "demo arguments are not an adjust command",
-            "report this as a bug",
-        ));
-    };
+    let adjust = demo_adjust_args(demo_args)?;
     let steps = plan::parse_steps(&adjust.steps)?;
     plan::check_step_options(&steps, adjust.base_year)?;
     let mut resolver = Resolver::builtin();
@@ -175,15 +166,21 @@ pub fn extract(dir: &std::path::Path) -> Result<()> {
 
 /// The recipe of one demo scenario, paths relative to the extracted folder.
 fn demo_recipe(demo_args: &[&str]) -> Result<String> {
+    let adjust = demo_adjust_args(demo_args)?;
+    crate::recipe::save::recipe_text(&adjust, std::path::Path::new("."))
+}
+
+/// A demo scenario's arguments, parsed as `levelfield adjust` would parse them.
+fn demo_adjust_args(demo_args: &[&str]) -> Result<Box<crate::cli::AdjustArgs>> {
     let mut argv = vec!["levelfield", "adjust"];
     argv.extend_from_slice(demo_args);
     let cli = Cli::try_parse_from(argv)
         .map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
-    let Command::Adjust(adjust) = cli.command else {
-        return Err(Error::usage(
+    match cli.command {
+        Command::Adjust(adjust) => Ok(adjust),
+        _ => Err(Error::usage(
             "demo arguments are not an adjust command",
             "report this as a bug",
-        ));
-    };
-    crate::recipe::save::recipe_text(&adjust, std::path::Path::new("."))
+        )),
+    }
 }
