@@ -357,8 +357,7 @@ fn run(
     // The pieces again, in order, with their ranks, into the output.
     let order = pipeline::output_columns(&head, settings);
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
-    let temp = tempfile::NamedTempFile::new_in(&folder)
-        .map_err(|e| Error::io(folder.display(), "create a temporary file in", e))?;
+    let temp = report::temp_beside(output)?;
     let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
     let mut counts = FlagCounts::default();
     let mut offset = 0i64;

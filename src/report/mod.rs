@@ -366,24 +366,12 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
 
 /// Writes the frame as Parquet (typed columns, full precision) atomically.
 pub fn write_parquet_atomically(path: &Path, frame: &DataFrame) -> Result<()> {
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => std::path::PathBuf::from("."),
-    };
-    let temp = tempfile::NamedTempFile::new_in(&dir)
-        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
+    let temp = temp_beside(path)?;
     let mut frame = frame.clone();
     ParquetWriter::new(temp.as_file())
         .finish(&mut frame)
         .map_err(Error::engine("writing Parquet"))?;
-    temp.persist(path).map_err(|e| {
-        Error::io(
-            path.display(),
-            "move the finished output into place",
-            e.error,
-        )
-    })?;
-    Ok(())
+    persist_atomically(temp, path)
 }
 
 /// Writes `text` to `path` through a temporary file in the same folder and a rename, so a
