@@ -103,7 +103,8 @@ pub fn run_adjust(
     let counts = FlagCounts::of(&frame)?;
     let summary = summarize(
         counts,
-        &prepared.ingested,
+        &prepared.ingested.file,
+        prepared.ingested.notes.clone(),
         rows_in,
         frame.height(),
         settings,
@@ -433,9 +434,11 @@ fn finish_intervals(frame: DataFrame, intervals: &IntervalSettings) -> Result<Da
 }
 
 #[allow(clippy::too_many_arguments)]
+/// The run summary; `file` and `reading_notes` are what reading the input decided.
 pub(crate) fn summarize(
     counts: FlagCounts,
-    ingested: &ingest::Ingested,
+    file: &str,
+    reading_notes: Vec<String>,
     rows_in: usize,
     rows_out: usize,
     settings: &PipelineSettings,
@@ -482,7 +485,7 @@ pub(crate) fn summarize(
             settings.step_settings.per
         ));
     }
-    let mut notes = ingested.notes.clone();
+    let mut notes = reading_notes;
     if settings.ingest.currency_code.is_none()
         && settings.ingest.roles.currency.is_none()
         && needs_currency(&settings.steps)
@@ -496,7 +499,7 @@ pub(crate) fn summarize(
         ));
     }
     RunSummary {
-        input: ingested.file.clone(),
+        input: file.to_string(),
         rows_in,
         rows_out,
         rows_flagged: counts.rows_flagged,

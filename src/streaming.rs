@@ -405,21 +405,10 @@ fn run(
         spilled.len(),
         stream.chunk_bytes as f64 / (1 << 20) as f64
     ));
-    let ingested = crate::ingest::Ingested {
-        rows: Vec::new(),
-        file: label.to_string(),
-        notes,
-        entity_column: String::new(),
-        has_group: false,
-        headers: Vec::new(),
-        delimiter,
-        encoding: first.encoding,
-        roles_used: Default::default(),
-        data_lines: total_lines,
-    };
     let summary = pipeline::summarize(
         counts,
-        &ingested,
+        label,
+        notes,
         rows_in,
         rows_out,
         settings,
