@@ -169,16 +169,8 @@ fn methods_html(note: &MethodsNote) -> String {
     out.push_str("</ul>");
     if let Some(recipe) = &note.recipe {
         out.push_str(&format!(
-            "<h3>Recipe</h3><p>{}{}.</p><pre>{}</pre>",
-            escape(&recipe.origin),
-            if recipe.overridden.is_empty() {
-                String::new()
-            } else {
-                escape(&format!(
-                    "; flags on the command line overrode: {}",
-                    recipe.overridden.join(", ")
-                ))
-            },
+            "<h3>Recipe</h3><p>{}</p><pre>{}</pre>",
+            escape(&recipe.provenance()),
             escape(&recipe.text)
         ));
     }

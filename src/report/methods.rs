@@ -41,6 +41,21 @@ pub struct RecipeQuote {
     pub overridden: Vec<String>,
 }
 
+impl RecipeQuote {
+    /// Where the recipe comes from and which of its keys flags overrode, as one sentence.
+    pub fn provenance(&self) -> String {
+        if self.overridden.is_empty() {
+            format!("{}.", self.origin)
+        } else {
+            format!(
+                "{}; flags on the command line overrode: {}.",
+                self.origin,
+                self.overridden.join(", ")
+            )
+        }
+    }
+}
+
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct StepLine {
     pub name: String,
@@ -254,14 +269,11 @@ pub fn render_markdown(note: &MethodsNote) -> String {
         out.push_str(&format!("- {caution}\n"));
     }
     if let Some(recipe) = &note.recipe {
-        out.push_str(&format!("\n## Recipe\n\n{}", recipe.origin));
-        if !recipe.overridden.is_empty() {
-            out.push_str(&format!(
-                "; flags on the command line overrode: {}",
-                recipe.overridden.join(", ")
-            ));
-        }
-        out.push_str(&format!(".\n\n```toml\n{}```\n", recipe.text));
+        out.push_str(&format!(
+            "\n## Recipe\n\n{}\n\n```toml\n{}```\n",
+            recipe.provenance(),
+            recipe.text
+        ));
     }
     out
 }
