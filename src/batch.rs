@@ -268,24 +268,17 @@ fn job_plan(job: &Job, output_dir: Option<&Path>) -> Result<(AdjustArgs, crate::
         }
         let keep_own = output_dir.is_none() && !job.glob && args.output.output.is_some();
         if !keep_own {
-            let stem = input
-                .file_stem()
-                .map(|s| s.to_string_lossy().into_owned())
-                .unwrap_or_else(|| "table".into());
-            let name = format!("{stem}-adjusted.{}", format.extension());
-            let folder = output_dir
-                .map(Path::to_path_buf)
-                .unwrap_or_else(|| input.parent().unwrap_or(Path::new("")).to_path_buf());
-            let out = folder.join(name);
-            let beside = |suffix: &str| {
-                let stem = out.file_stem().unwrap_or_default().to_string_lossy();
-                out.with_file_name(format!("{stem}.{suffix}"))
+            let base = adjusted_base(&input, output_dir);
+            let with_suffix = |suffix: &str| {
+                let name = base.file_name().unwrap_or_default().to_string_lossy();
+                base.with_file_name(format!("{name}.{suffix}"))
             };
+            let out = with_suffix(format.extension());
             if args.output.methods.is_some() {
-                args.output.methods = Some(beside("methods.md"));
+                args.output.methods = Some(with_suffix("methods.md"));
             }
             if args.output.report.is_some() {
-                args.output.report = Some(beside("report.html"));
+                args.output.report = Some(with_suffix("report.html"));
             }
             args.output.output = Some(out);
             args.output.format = args.output.format.or(Some(format));
@@ -386,12 +379,20 @@ fn run_jobs(jobs: &[Job], output_dir: Option<&Path>, args: &BatchArgs) -> Result
 /// Where a job will write, when that is known before its recipe is merged (pattern jobs and
 /// jobs under output_dir); used only to catch two jobs writing one file.
 fn expected_output(job: &Job, output_dir: Option<&Path>) -> Option<PathBuf> {
-    let input = job.input.as_ref()?;
-    let stem = input.file_stem()?.to_string_lossy().into_owned();
+    Some(adjusted_base(job.input.as_ref()?, output_dir))
+}
+
+/// FOLDER/STEM-adjusted for an input: beside it, or in the manifest's output_dir. Outputs add
+/// their extension to it (`.csv`, `.methods.md`, `.report.html`).
+fn adjusted_base(input: &Path, output_dir: Option<&Path>) -> PathBuf {
+    let stem = input
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "table".into());
     let folder = output_dir
         .map(Path::to_path_buf)
         .unwrap_or_else(|| input.parent().unwrap_or(Path::new("")).to_path_buf());
-    Some(folder.join(format!("{stem}-adjusted")))
+    folder.join(format!("{stem}-adjusted"))
 }
 
 /// Files a batch writes: NAME-adjusted.EXT and its methods note and report.
