@@ -263,9 +263,14 @@ fn job_plan(job: &Job, output_dir: Option<&Path>) -> Result<(AdjustArgs, crate::
                     .and_then(crate::report::Format::from_path)
             })
             .unwrap_or(crate::report::Format::Csv);
-        if format == crate::report::Format::Table {
+        // The terminal table is for reading, not for a file: a batch writes csv instead, and
+        // names the file for what it holds.
+        let format = if format == crate::report::Format::Table {
             args.output.format = Some(crate::report::Format::Csv);
-        }
+            crate::report::Format::Csv
+        } else {
+            format
+        };
         let keep_own = output_dir.is_none() && !job.glob && args.output.output.is_some();
         if !keep_own {
             let base = adjusted_base(&input, output_dir);

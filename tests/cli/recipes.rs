@@ -236,6 +236,28 @@ fn batch_runs_every_table_reports_the_broken_one_and_equals_single_runs() {
 }
 
 #[test]
+fn batch_writes_csv_named_csv_when_a_recipe_asks_for_the_terminal_table() {
+    let env = setup();
+    std::fs::create_dir(env.path("incoming")).unwrap();
+    let fees = std::fs::read_to_string(env.data("wide-country-fees.csv")).unwrap();
+    env.write("incoming/a.csv", &fees);
+    let recipe = format!(
+        "refs = \"{}\"\nsteps = [\"ppp\"]\n\n[output]\nformat = \"table\"\n",
+        env.data("country-refs")
+    );
+    env.write("fees.toml", &recipe);
+    env.write(
+        "batch.toml",
+        "[[run]]\nrecipe = \"fees.toml\"\ninputs = \"incoming/*.csv\"\n",
+    );
+    let run = env.run(&["batch", "batch.toml"]);
+    assert_eq!(run.code, 0, "{}{}", run.stdout, run.stderr);
+    let out = std::fs::read_to_string(env.path("incoming/a-adjusted.csv")).unwrap();
+    assert!(out.starts_with("row_id,"), "{out}");
+    assert!(!env.path("incoming/a-adjusted.txt").exists());
+}
+
+#[test]
 fn batch_manifest_errors_name_the_line() {
     let env = setup();
     env.write("fees.toml", "steps = []\n");
