@@ -32,9 +32,13 @@ pub fn base_currency_home(currency: &str) -> Option<&'static str> {
 
 /// Builds the lookup frame: `entity_code`, `year`, then `<prefix>_used`, `<prefix>_year` for
 /// each need, then `_factor_flags` (null when nothing to say).
+/// Builds the lookup frame. A need in `optional` (the baseline's, or a derived column's) whose
+/// table the catalog lacks gets empty columns instead of stopping the run; `missing_tables`
+/// says which.
 pub fn lookup_frame(
     keys: &HashSet<(String, i32)>,
     needs: &BTreeSet<FactorNeed>,
+    optional: &BTreeSet<FactorNeed>,
     references: Option<&References>,
     settings: &AttachSettings,
 ) -> Result<DataFrame> {
@@ -53,10 +57,23 @@ pub fn lookup_frame(
     ];
     let mut flags: Vec<Vec<String>> = vec![Vec::new(); n];
     for need in needs {
+        if optional.contains(need) && references.and_then(|r| r.get(need.kind)).is_none() {
+            columns.push(Column::full_null(
+                need.used_column().into(),
+                n,
+                &DataType::Float64,
+            ));
+            columns.push(Column::full_null(
+                need.year_column().into(),
+                n,
+                &DataType::Int32,
+            ));
+            continue;
+        }
         let table = references.and_then(|r| r.get(need.kind)).ok_or_else(|| {
             Error::usage(
                 format!("the steps need a {} table, and the reference catalog has none", need.kind.as_str()),
-                format!("add a resource of kind {} to the catalog (see reference-tables/README.md), or drop the step that needs it", need.kind.as_str()),
+                format!("add a resource with \"kind\": \"{}\" to the catalog (datapackage.json; see reference-tables/README.md), or drop the step that needs it", need.kind.as_str()),
             )
         })?;
         let home = match need.whose {

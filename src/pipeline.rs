@@ -83,7 +83,9 @@ pub fn run_adjust(
 ) -> Result<AdjustOutput> {
     let prepared = prepare(bytes, input_label, settings, resolver, references, 0)?;
     let rows_in = prepared.rows_in;
-    let lf = with_ranks_and_flags(prepared.lf, settings)?;
+    let baseline_missing = prepared.baseline_missing();
+    let missing_tables = prepared.missing_tables.clone();
+    let lf = with_ranks_and_flags(prepared.lf, settings, baseline_missing)?;
     let order = output_columns(&prepared.head_columns, settings);
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
     let frame = lf
@@ -101,7 +103,7 @@ pub fn run_adjust(
         )));
     }
     let counts = FlagCounts::of(&frame)?;
-    let summary = summarize(
+    let mut summary = summarize(
         counts,
         &prepared.ingested.file,
         prepared.ingested.notes.clone(),
@@ -112,6 +114,9 @@ pub fn run_adjust(
         prepared.deflator_used,
         references,
     );
+    summary
+        .warnings
+        .extend(missing_tables_warning(&missing_tables));
     Ok(AdjustOutput { frame, summary })
 }
 
@@ -129,6 +134,15 @@ pub(crate) struct Prepared {
     pub deflator_used: Option<adjust::Deflator>,
     /// Whether any row is a figure in the base currency (it changes the columns).
     pub any_base: bool,
+    /// Kinds the baseline (or a derived column) needs and the catalog lacks: the baseline stays
+    /// empty, flagged `no_baseline`, and the adjusted values are ranked on their own.
+    pub missing_tables: Vec<crate::reference::Kind>,
+}
+
+impl Prepared {
+    pub fn baseline_missing(&self) -> bool {
+        !self.missing_tables.is_empty()
+    }
 }
 
 pub(crate) fn prepare(
@@ -139,7 +153,7 @@ pub(crate) fn prepare(
     references: Option<&References>,
     ord_offset: u64,
 ) -> Result<Prepared> {
-    let mut ingested = ingest::ingest(bytes, input_label, &settings.ingest)?;
+    let mut ingested = ingest::ingest(bytes, input_label, &settings.ingest, Some(resolver))?;
     let base_currency = settings.step_settings.base_currency.clone();
     let (entities, bases) = resolve::resolve_rows(
         &mut ingested,
@@ -247,6 +261,7 @@ pub(crate) fn prepare(
         stage_columns,
         extra_columns,
         needs,
+        optional,
         deflator_used,
         baseline_steps,
     } = tracks::plan_tracks(
@@ -260,9 +275,15 @@ pub(crate) fn prepare(
     )?;
 
     // Factors, joined once per distinct entity and year.
+    let missing_tables: std::collections::BTreeSet<crate::reference::Kind> = optional
+        .iter()
+        .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
+        .map(|need| need.kind)
+        .collect();
     let lookup = attach::lookup_frame(
         &keys,
         &needs,
+        &optional,
         references,
         &AttachSettings {
             base_year: settings.step_settings.base_year,
@@ -321,6 +342,7 @@ pub(crate) fn prepare(
         baseline_steps,
         deflator_used,
         any_base,
+        missing_tables: missing_tables.into_iter().collect(),
     })
 }
 
@@ -328,30 +350,55 @@ pub(crate) fn prepare(
 pub(crate) fn with_ranks_and_flags(
     lf: LazyFrame,
     settings: &PipelineSettings,
+    baseline_missing: bool,
 ) -> Result<LazyFrame> {
     let ranks = rank::rank_columns(
         settings.order,
         col("_rank_eligible"),
         &[col("group"), col("year")],
+        baseline_missing,
     )
     .map_err(Error::engine("ranking"))?;
-    Ok(with_flags(lf.with_columns(ranks)))
+    Ok(with_flags(lf.with_columns(ranks), baseline_missing))
 }
 
 /// The shift and the flags column, once `rank_baseline` and `rank_adjusted` are there.
-pub(crate) fn with_flags(lf: LazyFrame) -> LazyFrame {
+pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
     let not_ranked = when(col("rank_adjusted").is_null())
         .then(lit(flags::NOT_RANKED))
         .otherwise(lit(NULL).cast(DataType::String));
+    let no_baseline = if baseline_missing {
+        lit(flags::NO_BASELINE)
+    } else {
+        lit(NULL).cast(DataType::String)
+    };
     lf.with_column(rank::shift_column()).with_column(
         concat_str(
-            [col("_flags_pre"), col("_factor_flags"), not_ranked],
+            [
+                col("_flags_pre"),
+                col("_factor_flags"),
+                no_baseline,
+                not_ranked,
+            ],
             ";",
             true,
         )
         .fill_null(lit(""))
         .alias("flags"),
     )
+}
+
+/// The warning of a run whose catalog lacks a table only the baseline needs.
+pub(crate) fn missing_tables_warning(kinds: &[crate::reference::Kind]) -> Option<String> {
+    if kinds.is_empty() {
+        return None;
+    }
+    let names: Vec<&str> = kinds.iter().map(|k| k.as_str()).collect();
+    Some(format!(
+        "the reference catalog has no {} table: the adjusted values and ranks are complete, but the baseline (the comparison without the price-level adjustment), its ranks, the rank shift and the price level index are left empty (flag no_baseline); add a resource with \"kind\": \"{}\" to the catalog to get them",
+        names.join(" or "),
+        names[0]
+    ))
 }
 
 /// Every output column in order, given the head columns of `prepare`.

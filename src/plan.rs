@@ -393,6 +393,7 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
             currency: columns.currency.clone(),
             layout,
             reserved: Vec::new(),
+            knobs: Default::default(),
         },
         currency_code: columns
             .currency_code

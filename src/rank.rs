@@ -18,11 +18,21 @@ pub enum Order {
     Asc,
 }
 
-/// Rank expressions: `rank_baseline`, `rank_adjusted` (Int64, null when not ranked).
-pub fn rank_columns(order: Order, eligible: Expr, partition: &[Expr]) -> PolarsResult<Vec<Expr>> {
-    let rankable = eligible
-        .and(col("value_adjusted").is_not_null())
-        .and(col("value_baseline").is_not_null());
+/// Rank expressions: `rank_baseline`, `rank_adjusted` (Int64, null when not ranked). With
+/// `baseline_missing` (the catalog lacks a table only the baseline needs) the adjusted values
+/// are ranked on their own and the baseline ranks stay empty.
+pub fn rank_columns(
+    order: Order,
+    eligible: Expr,
+    partition: &[Expr],
+    baseline_missing: bool,
+) -> PolarsResult<Vec<Expr>> {
+    let rankable = eligible.and(col("value_adjusted").is_not_null());
+    let rankable = if baseline_missing {
+        rankable
+    } else {
+        rankable.and(col("value_baseline").is_not_null())
+    };
     let options = RankOptions {
         method: RankMethod::Min,
         descending: order == Order::Desc,
@@ -67,7 +77,7 @@ mod tests {
             Column::new("group".into(), groups.to_vec()),
         ])
         .unwrap();
-        let mut exprs = rank_columns(order, col("ok"), &[col("group")]).unwrap();
+        let mut exprs = rank_columns(order, col("ok"), &[col("group")], false).unwrap();
         exprs.push(lit(0));
         let out = df
             .lazy()

@@ -153,6 +153,7 @@ struct Columns {
     head: Vec<String>,
     baseline_steps: Vec<&'static dyn crate::adjust::Step>,
     deflator_used: Option<crate::adjust::Deflator>,
+    missing_tables: Vec<crate::reference::Kind>,
 }
 
 /// The run needs restarting with `assume_base_rows` (a later piece holds base-currency rows).
@@ -273,6 +274,12 @@ fn run(
                     reserved: settings.ingest.roles.reserved.clone(),
                     ..ingested.roles_used.clone()
                 };
+                if ingested.dimensioned {
+                    return Err(Error::usage(
+                        format!("{label} is a statistics-office TSV (dimension codes joined in its first column), which --streaming does not cut into pieces"),
+                        "run without --streaming",
+                    ));
+                }
                 if ingested
                     .encoding
                     .is_some_and(|e| matches!(e, EncodingChoice::Utf16Le | EncodingChoice::Utf16Be))
@@ -302,6 +309,7 @@ fn run(
             head: prepared.head_columns.clone(),
             baseline_steps: prepared.baseline_steps.clone(),
             deflator_used: prepared.deflator_used,
+            missing_tables: prepared.missing_tables.clone(),
         });
         let mut keep: Vec<Expr> = columns.head.iter().map(|c| col(c.as_str())).collect();
         keep.extend(["_ord", "_flags_pre", "_factor_flags", "_rank_eligible"].map(col));
@@ -334,6 +342,7 @@ fn run(
             head,
             baseline_steps,
             deflator_used,
+            missing_tables,
         }),
     ) = (first, shape)
     else {
@@ -349,7 +358,7 @@ fn run(
     let narrow = concat_frames(narrow)?;
     let ranks = narrow
         .lazy()
-        .select(rank_exprs(settings)?)
+        .select(rank_exprs(settings, !missing_tables.is_empty())?)
         .collect()
         .map_err(Error::engine("ranking"))?;
     let rows_in = ord as usize;
@@ -369,7 +378,7 @@ fn run(
         frame
             .hstack_mut(piece_ranks.columns())
             .map_err(Error::engine("joining ranks to a piece"))?;
-        let frame = pipeline::with_flags(frame.lazy())
+        let frame = pipeline::with_flags(frame.lazy(), !missing_tables.is_empty())
             .select(selection.clone())
             .collect()
             .map_err(Error::engine("flagging a piece"))?;
@@ -405,7 +414,7 @@ fn run(
         spilled.len(),
         stream.chunk_bytes as f64 / (1 << 20) as f64
     ));
-    let summary = pipeline::summarize(
+    let mut summary = pipeline::summarize(
         counts,
         label,
         notes,
@@ -416,6 +425,9 @@ fn run(
         deflator_used,
         plan.references.as_ref(),
     );
+    summary
+        .warnings
+        .extend(pipeline::missing_tables_warning(&missing_tables));
     Ok(Ok(pipeline::AdjustOutput {
         frame: DataFrame::empty(),
         summary,
@@ -487,9 +499,14 @@ fn rank_inputs(frame: &DataFrame, groups: &mut HashMap<String, u32>) -> Result<D
 }
 
 /// The in-memory run's rank expressions, over the narrow columns (the group as a number).
-fn rank_exprs(settings: &PipelineSettings) -> Result<Vec<Expr>> {
-    crate::rank::rank_columns(settings.order, lit(true), &[col("_g"), col("year")])
-        .map_err(Error::engine("ranking"))
+fn rank_exprs(settings: &PipelineSettings, baseline_missing: bool) -> Result<Vec<Expr>> {
+    crate::rank::rank_columns(
+        settings.order,
+        lit(true),
+        &[col("_g"), col("year")],
+        baseline_missing,
+    )
+    .map_err(Error::engine("ranking"))
 }
 
 fn concat_frames(frames: Vec<DataFrame>) -> Result<DataFrame> {

@@ -21,6 +21,9 @@ pub struct TrackPlan {
     /// Derived factor columns (price_level_index, cpi_ratio).
     pub extra_columns: Vec<String>,
     pub needs: BTreeSet<FactorNeed>,
+    /// Needs of the baseline track and of derived columns only: a catalog without their table
+    /// still gives the adjusted values (those columns stay empty).
+    pub optional: BTreeSet<FactorNeed>,
     pub deflator_used: Option<Deflator>,
     pub baseline_steps: Vec<&'static dyn Step>,
 }
@@ -42,6 +45,7 @@ pub fn plan_tracks(settings: &PipelineSettings, start: &TrackStart) -> Result<Tr
         stage_columns: Vec::new(),
         extra_columns: Vec::new(),
         needs: BTreeSet::new(),
+        optional: BTreeSet::new(),
         deflator_used: None,
         baseline_steps: adjust::baseline_steps(&settings.steps),
     };
@@ -91,6 +95,10 @@ pub fn plan_tracks(settings: &PipelineSettings, start: &TrackStart) -> Result<Tr
         last.push(b.alias("_se_baseline"));
     }
     plan.batches.push(last);
+    // What only the baseline and the derived columns need is optional; the rest is required.
+    let required = plan.needs.clone();
+    plan.optional.retain(|need| !required.contains(need));
+    plan.needs.extend(plan.optional.iter().copied());
     if let Some(intervals) = &settings.intervals {
         let z = lit(intervals.level.z());
         plan.batches.push(vec![
@@ -144,10 +152,15 @@ fn run_track(
     track: Track,
     plan: &mut TrackPlan,
 ) -> Result<TrackResult> {
-    let mut ctx = context(settings, track, &mut plan.needs);
+    let needs = match track {
+        Track::Adjusted => &mut plan.needs,
+        Track::Baseline => &mut plan.optional,
+    };
+    let mut ctx = context(settings, track, needs);
     let mut state = start_state;
     let mut current = start;
     let mut se = start_se;
+    let mut derived_needs = BTreeSet::new();
     for step in steps {
         let before = state;
         let next = step.apply(current.clone(), &mut state, &mut ctx)?;
@@ -157,7 +170,8 @@ fn run_track(
         };
         if track == Track::Adjusted {
             let mut batch = vec![next.alias(step.column())];
-            for extra in step.extra_columns(&before, &mut ctx) {
+            let mut derived = context(settings, track, &mut derived_needs);
+            for extra in step.extra_columns(&before, &mut derived) {
                 if let Expr::Alias(_, name) = &extra {
                     plan.extra_columns.push(name.to_string());
                 }
@@ -170,5 +184,7 @@ fn run_track(
             current = next;
         }
     }
-    Ok((current, se, ctx.deflator_used))
+    let deflator_used = ctx.deflator_used;
+    plan.optional.extend(derived_needs);
+    Ok((current, se, deflator_used))
 }

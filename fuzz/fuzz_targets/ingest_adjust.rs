@@ -42,7 +42,7 @@ fn setup() -> (Resolver, References, PipelineSettings) {
 
 fuzz_target!(|data: &[u8]| {
     let (resolver, references, settings) = SETUP.get_or_init(setup);
-    let Ok(ingested) = levelfield::ingest::ingest(data, "fuzz.csv", &settings.ingest) else { return };
+    let Ok(ingested) = levelfield::ingest::ingest(data, "fuzz.csv", &settings.ingest, None) else { return };
     let rows_in = ingested.rows.len();
     if let Ok(out) = run_adjust(data, "fuzz.csv", settings, resolver, Some(references)) {
         assert_eq!(out.frame.height(), rows_in);

@@ -153,7 +153,7 @@ pub fn run_audit(
     }
     options.extra_columns = claims.iter().map(|c| c.column.clone()).collect();
     options.extra_columns.extend(settings.notes.columns());
-    let mut ingested = ingest::ingest(bytes, label, &options)?;
+    let mut ingested = ingest::ingest(bytes, label, &options, Some(resolver))?;
     let (entities, _) = resolve::resolve_rows(
         &mut ingested,
         resolver,
@@ -185,7 +185,7 @@ fn suggested_claims(bytes: &[u8], label: &str, options: &IngestOptions) -> Resul
         .delimiter
         .unwrap_or_else(|| ingest::table::sniff_delimiter(&decoded.text));
     let table = ingest::table::read_table(&decoded.text, delimiter, label)?;
-    let roles = ingest::layout::assign_roles(&table, &options.roles, label).ok();
+    let roles = ingest::layout::assign_roles(&table, &options.roles, label, None).ok();
     let mut taken: Vec<String> = Vec::new();
     if let Some(roles) = roles {
         taken.push(table.headers[roles.entity].clone());

@@ -57,6 +57,11 @@ const CURRENCIES_CSV: &str = include_str!("data/currencies.csv");
 /// Countries that publishers list but ISO 3166-1 does not: (alpha-3, alpha-2, name).
 const EXTRA_COUNTRIES: &[(&str, &str, &str)] = &[("XKX", "XK", "Kosovo")];
 
+/// Alpha-2 codes that ISO 3166/MA keeps exceptionally reserved for a country at the request of
+/// an international body, as Eurostat publishes them: EL for Greece, UK for the United Kingdom
+/// (from memory of the ISO 3166 reserved-code list).
+const EXCEPTIONAL_ALPHA2: &[(&str, &str)] = &[("EL", "GRC"), ("UK", "GBR")];
+
 /// Jaro-Winkler similarity a known name must reach to be offered as a suggestion. Typos
 /// of one or two letters ("Frnace") score above 0.9; unrelated names of similar length
 /// score around 0.6 to 0.8.
@@ -311,6 +316,13 @@ fn parse_builtin() -> Result<Resolver, String> {
         });
         r.alpha2.insert(alpha2.to_string(), idx);
         r.insert_name(normalize(name), idx, Origin::Builtin);
+    }
+
+    for (alpha2, alpha3) in EXCEPTIONAL_ALPHA2 {
+        let idx = *r.codes.get(*alpha3).ok_or(format!(
+            "reserved alpha-2 {alpha2}: unknown country {alpha3}"
+        ))?;
+        r.alpha2.insert(alpha2.to_string(), idx);
     }
 
     for row in data_rows(AGGREGATES_CSV, "aggregates.csv")? {

@@ -21,7 +21,7 @@ pub enum LayoutChoice {
 #[derive(Debug, Clone)]
 pub struct Roles {
     pub entity: usize,
-    pub entity_detected: bool,
+    pub entity_detected: EntityFound,
     pub group: Option<usize>,
     pub currency: Option<usize>,
     pub reserved: Vec<usize>,
@@ -47,7 +47,7 @@ pub enum YearSource {
     Fixed(i32),
 }
 
-/// The role flags as given on the command line.
+/// The role flags as given on the command line (or as a catalog resource's fields).
 #[derive(Debug, Clone, Default)]
 pub struct RoleFlags {
     pub entity: Option<String>,
@@ -59,10 +59,119 @@ pub struct RoleFlags {
     pub layout: LayoutChoice,
     /// Columns used for something else (margins of error), kept out of detection.
     pub reserved: Vec<String>,
+    /// Where the roles are set, so that an error names the flag or catalog key that fixes it.
+    pub knobs: Knobs,
 }
 
+impl RoleFlags {
+    /// Every column the user named: the header is the line that names them.
+    pub fn named_columns(&self) -> Vec<String> {
+        [
+            &self.entity,
+            &self.value,
+            &self.year,
+            &self.group,
+            &self.currency,
+        ]
+        .into_iter()
+        .flatten()
+        .chain(self.reserved.iter())
+        .cloned()
+        .collect()
+    }
+}
+
+/// Who sets the roles: command-line flags, or the fields of a catalog resource.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub enum Knobs {
+    #[default]
+    Flags,
+    Catalog {
+        resource: String,
+    },
+}
+
+/// A role a column can play, for messages.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Role {
+    Entity,
+    Value,
+    Year,
+    Group,
+    Currency,
+    Reserved,
+    Wide,
+}
+
+impl Knobs {
+    /// The flag or key that sets `role`, as named in messages.
+    pub fn name(&self, role: Role) -> String {
+        match self {
+            Knobs::Flags => match role {
+                Role::Entity => "--entity",
+                Role::Value => "--value",
+                Role::Year => "--year",
+                Role::Group => "--group",
+                Role::Currency => "--currency",
+                Role::Reserved => "--moe/--se/--ci-low/--ci-high/--sample-size",
+                Role::Wide => "--wide-years",
+            }
+            .to_string(),
+            Knobs::Catalog { resource } => format!(
+                "\"{}\" of the catalog resource \"{resource}\"",
+                Self::catalog_key(role)
+            ),
+        }
+    }
+
+    fn catalog_key(role: Role) -> &'static str {
+        match role {
+            Role::Entity => "entity_field",
+            Role::Value => "value_field",
+            Role::Year => "year_field",
+            Role::Reserved => "se_field/moe_field",
+            Role::Wide => "layout",
+            Role::Group | Role::Currency => "filter",
+        }
+    }
+
+    /// What to do so that `role` finds its column.
+    pub fn fix(&self, role: Role) -> String {
+        match self {
+            Knobs::Flags => match role {
+                Role::Wide => "check the header line, or drop --wide-years for a long table".into(),
+                _ => format!("pass {} COL with one of the header names", self.name(role)),
+            },
+            Knobs::Catalog { resource } => match role {
+                Role::Wide => format!("set \"layout\": \"long\" on the catalog resource \"{resource}\", or check the header line"),
+                _ => format!(
+                    "set \"{}\": \"COL\" on the catalog resource \"{resource}\" (datapackage.json), with one of the header names",
+                    Self::catalog_key(role)
+                ),
+            },
+        }
+    }
+}
+
+/// Words in a header that name an entity column (common practice of publishers: World Bank
+/// "Country Code", OECD "LOCATION", SDMX "REF_AREA", Eurostat "geo", UN "Country or Area").
 const ENTITY_WORDS: &[&str] = &[
     "country", "economy", "entity", "iso", "nation", "ref_area", "geo", "location",
+];
+/// Whole headers that name an entity column although they hold none of the words above.
+const ENTITY_NAMES: &[&str] = &[
+    "code",
+    "area",
+    "reporter",
+    "reporter_code",
+    "cty",
+    "ctry",
+    "cntry",
+    "state",
+    "member",
+    "partner",
+    "territory",
+    "countries",
 ];
 const CODE_WORDS: &[&str] = &["code", "iso", "alpha"];
 const VALUE_NAMES: &[&str] = &[
@@ -93,9 +202,16 @@ pub fn header_year(header: &str) -> Option<i32> {
     (1800..=2200).contains(&year).then_some(year)
 }
 
-pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<Roles> {
+pub fn assign_roles(
+    table: &TextTable,
+    flags: &RoleFlags,
+    file: &str,
+    resolver: Option<&crate::entity::Resolver>,
+) -> Result<Roles> {
     let headers = &table.headers;
-    let find = |flag: &str, name: &str| find_column(headers, name, flag, file);
+    let at = table.header_line;
+    let knobs = &flags.knobs;
+    let find = |role: Role, name: &str| find_column(headers, name, role, knobs, file, at);
     let year_columns: Vec<(usize, i32)> = headers
         .iter()
         .enumerate()
@@ -106,10 +222,13 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
         LayoutChoice::Wide => {
             if year_columns.is_empty() {
                 return Err(Error::bad_input(
-                    Location::line(file, 1),
-                    "--wide-years was given but no header is a four-digit year",
+                    Location::line(file, at),
+                    format!(
+                        "{} says the table is wide, but no header is a four-digit year",
+                        knobs.name(Role::Wide)
+                    ),
                     "headers such as 2019, 2020 (or 2019 [YR2019])",
-                    "check the header line, or drop --wide-years for a long table",
+                    knobs.fix(Role::Wide),
                 ));
             }
             true
@@ -120,66 +239,71 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
         }
     };
 
-    let mut taken: Vec<usize> = Vec::new();
+    let mut taken: Taken = Taken::default();
     if wide {
         taken.extend(year_columns.iter().map(|(i, _)| *i));
     }
     let group = flags
         .group
         .as_deref()
-        .map(|g| find("--group", g))
+        .map(|g| find(Role::Group, g))
         .transpose()?;
     let currency = flags
         .currency
         .as_deref()
-        .map(|c| find("--currency", c))
+        .map(|c| find(Role::Currency, c))
         .transpose()?;
     taken.extend(group);
     taken.extend(currency);
     let reserved = flags
         .reserved
         .iter()
-        .map(|r| find("--moe/--se/--ci-low/--ci-high/--sample-size", r))
+        .map(|r| find(Role::Reserved, r))
         .collect::<Result<Vec<_>>>()?;
     taken.extend(reserved.iter().copied());
 
     let (entity, entity_detected) = match &flags.entity {
-        Some(name) => (find("--entity", name)?, false),
-        None => (detect_entity(headers, &taken, file)?, true),
+        Some(name) => (find(Role::Entity, name)?, EntityFound::Given),
+        None => detect_entity(table, &taken, knobs, file, resolver)?,
     };
-    taken.push(entity);
+    taken.insert(entity);
 
     let shape = if wide {
         Shape::Wide { year_columns }
     } else {
-        let year =
-            match (&flags.year, flags.year_value) {
-                (Some(name), _) => YearSource::Column {
-                    index: find("--year", name)?,
-                    detected: false,
+        let year = match (&flags.year, flags.year_value) {
+            (Some(name), _) => YearSource::Column {
+                index: find(Role::Year, name)?,
+                detected: false,
+            },
+            (None, Some(year)) => YearSource::Fixed(year),
+            (None, None) => match position_named(headers, YEAR_NAMES, &taken) {
+                Some(index) => YearSource::Column {
+                    index,
+                    detected: true,
                 },
-                (None, Some(year)) => YearSource::Fixed(year),
-                (None, None) => match position_named(headers, YEAR_NAMES, &taken) {
-                    Some(index) => YearSource::Column {
-                        index,
-                        detected: true,
+                None => return Err(Error::bad_input(
+                    Location::line(file, at),
+                    format!("no year column among {}", list(headers)),
+                    "a column named year (or one column per year, such as 2019, 2020)",
+                    match knobs {
+                        Knobs::Flags => {
+                            "pass --year COL, or --year-value YYYY when the whole table is one year"
+                                .to_string()
+                        }
+                        Knobs::Catalog { .. } => knobs.fix(Role::Year),
                     },
-                    None => return Err(Error::bad_input(
-                        Location::line(file, 1),
-                        format!("no year column among {}", list(headers)),
-                        "a column named year (or one column per year, such as 2019, 2020)",
-                        "pass --year COL, or --year-value YYYY when the whole table is one year",
-                    )),
-                },
-            };
+                )),
+            },
+        };
         if let YearSource::Column { index, .. } = year {
-            taken.push(index);
+            taken.insert(index);
         }
         let (value, value_detected) = match &flags.value {
-            Some(name) => (find("--value", name)?, false),
-            None => (detect_value(headers, &taken, file)?, true),
+            Some(name) => (find(Role::Value, name)?, false),
+            None => (detect_value(headers, &taken, knobs, file, at)?, true),
         };
-        taken.push(value);
+        taken.insert(value);
         Shape::Long {
             value,
             value_detected,
@@ -203,7 +327,14 @@ pub fn assign_roles(table: &TextTable, flags: &RoleFlags, file: &str) -> Result<
     })
 }
 
-fn find_column(headers: &[String], name: &str, flag: &str, file: &str) -> Result<usize> {
+fn find_column(
+    headers: &[String],
+    name: &str,
+    role: Role,
+    knobs: &Knobs,
+    file: &str,
+    at: usize,
+) -> Result<usize> {
     if let Some(i) = headers.iter().position(|h| h == name) {
         return Ok(i);
     }
@@ -215,20 +346,44 @@ fn find_column(headers: &[String], name: &str, flag: &str, file: &str) -> Result
         return Ok(i);
     }
     Err(Error::bad_input(
-        Location::line(file, 1),
-        format!("{flag} names the column \"{name}\", which is not in the header"),
+        Location::line(file, at),
+        format!(
+            "{} names the column \"{}\", which is not in the header",
+            knobs.name(role),
+            crate::ingest::table::shorten(name)
+        ),
         format!("one of {}", list(headers)),
-        format!("pass {flag} with one of the header names"),
+        knobs.fix(role),
     ))
 }
 
-fn detect_entity(headers: &[String], taken: &[usize], file: &str) -> Result<usize> {
+/// Columns given a role so far (a set, so that tables with many columns stay linear).
+type Taken = std::collections::HashSet<usize>;
+
+/// How the entity column was found.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum EntityFound {
+    Given,
+    Header,
+    Content,
+}
+
+fn detect_entity(
+    table: &TextTable,
+    taken: &Taken,
+    knobs: &Knobs,
+    file: &str,
+    resolver: Option<&crate::entity::Resolver>,
+) -> Result<(usize, EntityFound)> {
+    let headers = &table.headers;
     let candidates: Vec<usize> = headers
         .iter()
         .enumerate()
         .filter(|(i, h)| {
-            let lower = h.to_lowercase();
-            !taken.contains(i) && ENTITY_WORDS.iter().any(|w| lower.contains(w))
+            let lower = h.trim().to_lowercase();
+            !taken.contains(i)
+                && (ENTITY_WORDS.iter().any(|w| lower.contains(w))
+                    || ENTITY_NAMES.contains(&lower.as_str()))
         })
         .map(|(i, _)| i)
         .collect();
@@ -237,20 +392,61 @@ fn detect_entity(headers: &[String], taken: &[usize], file: &str) -> Result<usiz
         let lower = headers[i].to_lowercase();
         CODE_WORDS.iter().any(|w| lower.contains(w))
     });
-    coded.or(candidates.first().copied()).ok_or_else(|| {
-        Error::bad_input(
-            Location::line(file, 1),
-            format!(
-                "no column header names a country, economy, entity or ISO code among {}",
-                list(headers)
-            ),
-            "a column of country names or ISO 3166 codes",
-            "pass --entity COL",
-        )
-    })
+    if let Some(i) = coded.or(candidates.first().copied()) {
+        return Ok((i, EntityFound::Header));
+    }
+    if let Some(i) = resolver.and_then(|r| entity_by_content(table, taken, r)) {
+        return Ok((i, EntityFound::Content));
+    }
+    Err(Error::bad_input(
+        Location::line(file, table.header_line),
+        format!(
+            "no column header names a country, economy, entity or ISO code among {}, and no column's cells are country names or codes",
+            list(headers)
+        ),
+        "a column of country names or ISO 3166 codes",
+        knobs.fix(Role::Entity),
+    ))
 }
 
-fn detect_value(headers: &[String], taken: &[usize], file: &str) -> Result<usize> {
+/// The column whose cells resolve as entities: of its first 100 filled cells (words, not
+/// numbers), at least 90% name a country, aggregate or alias. Numbers are left out because a
+/// small number is also an ISO numeric code.
+fn entity_by_content(
+    table: &TextTable,
+    taken: &Taken,
+    resolver: &crate::entity::Resolver,
+) -> Option<usize> {
+    let mut best: Option<(usize, usize)> = None;
+    for column in (0..table.headers.len()).filter(|i| !taken.contains(i)) {
+        let cells: Vec<&str> = table
+            .records
+            .iter()
+            .map(|r| r.cells[column].trim())
+            .filter(|c| !c.is_empty())
+            .take(100)
+            .collect();
+        if cells.is_empty() || !cells.iter().all(|c| c.chars().any(char::is_alphabetic)) {
+            continue;
+        }
+        let found = cells
+            .iter()
+            .filter(|c| matches!(resolver.resolve(c), crate::entity::Resolution::Found(_)))
+            .count();
+        if found * 10 >= cells.len() * 9 && best.is_none_or(|(_, b)| found > b) {
+            best = Some((column, found));
+        }
+    }
+    best.map(|(column, _)| column)
+}
+
+fn detect_value(
+    headers: &[String],
+    taken: &Taken,
+    knobs: &Knobs,
+    file: &str,
+    at: usize,
+) -> Result<usize> {
     if let Some(i) = position_named(headers, VALUE_NAMES, taken) {
         return Ok(i);
     }
@@ -258,18 +454,18 @@ fn detect_value(headers: &[String], taken: &[usize], file: &str) -> Result<usize
     match free.as_slice() {
         [only] => Ok(*only),
         _ => Err(Error::bad_input(
-            Location::line(file, 1),
+            Location::line(file, at),
             format!(
                 "cannot tell which column holds the figures: {}",
                 list(&free.iter().map(|&i| headers[i].clone()).collect::<Vec<_>>())
             ),
             "one column named value (or the only column besides entity, year and group)",
-            "pass --value COL",
+            knobs.fix(Role::Value),
         )),
     }
 }
 
-fn position_named(headers: &[String], names: &[&str], taken: &[usize]) -> Option<usize> {
+fn position_named(headers: &[String], names: &[&str], taken: &Taken) -> Option<usize> {
     headers
         .iter()
         .enumerate()
@@ -277,9 +473,20 @@ fn position_named(headers: &[String], names: &[&str], taken: &[usize]) -> Option
         .map(|(i, _)| i)
 }
 
-fn list(headers: &[String]) -> String {
-    let quoted: Vec<String> = headers.iter().map(|h| format!("\"{h}\"")).collect();
-    quoted.join(", ")
+/// The headers for a message: at most a few dozen, then how many more.
+pub fn list(headers: &[String]) -> String {
+    const SHOWN: usize = 24;
+    let quoted: Vec<String> = headers
+        .iter()
+        .take(SHOWN)
+        .map(|h| format!("\"{}\"", crate::ingest::table::shorten(h)))
+        .collect();
+    let more = headers.len().saturating_sub(SHOWN);
+    if more > 0 {
+        format!("{} and {more} more", quoted.join(", "))
+    } else {
+        quoted.join(", ")
+    }
 }
 
 /// Reads a year cell of a long table. Fiscal-year labels (`2019/20`, `FY2021`) are refused:
@@ -307,7 +514,7 @@ mod tests {
 
     fn roles(text: &str, flags: RoleFlags) -> Result<Roles> {
         let table = read_table(text, b',', "t.csv").unwrap();
-        assign_roles(&table, &flags, "t.csv")
+        assign_roles(&table, &flags, "t.csv", None)
     }
 
     #[test]
@@ -328,7 +535,7 @@ mod tests {
         )
         .unwrap();
         assert_eq!(r.entity, 1);
-        assert!(r.entity_detected);
+        assert_eq!(r.entity_detected, EntityFound::Header);
         assert!(
             matches!(r.shape, Shape::Wide { ref year_columns } if year_columns == &vec![(2, 2019), (3, 2020)])
         );

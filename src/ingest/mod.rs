@@ -73,9 +73,18 @@ pub struct Ingested {
     pub encoding: Option<encoding::EncodingChoice>,
     pub roles_used: RoleFlags,
     pub data_lines: usize,
+    /// The table was a statistics-office TSV whose first column joined dimension codes.
+    pub dimensioned: bool,
 }
 
-pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Ingested> {
+/// Reads a user's table. `resolver`, when given, lets the entity column be found by its
+/// content when no header names it.
+pub fn ingest(
+    bytes: &[u8],
+    file: &str,
+    options: &IngestOptions,
+    resolver: Option<&Resolver>,
+) -> Result<Ingested> {
     let (decoded, delimiter, mut sheet_notes, formula_rows) = if file
         .to_ascii_lowercase()
         .ends_with(".parquet")
@@ -112,14 +121,24 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         };
         (decoded, delimiter, Vec::new(), Vec::new())
     };
-    let table = table::read_table_from(&decoded.text, delimiter, file, options.line_offset)?;
     let mut role_flags = options.roles.clone();
     let margin_count = options.margins.columns().len();
     role_flags.reserved = options.margins.columns();
     role_flags
         .reserved
         .extend(options.extra_columns.iter().cloned());
-    let roles = layout::assign_roles(&table, &role_flags, file)?;
+    let table = table::find_table(
+        &decoded.text,
+        delimiter,
+        file,
+        &table::FindOptions {
+            hints: role_flags.named_columns(),
+            header_line: options.header_row,
+            lenient: options.lenient,
+            line_offset: options.line_offset,
+        },
+    )?;
+    let roles = layout::assign_roles(&table, &role_flags, file, resolver)?;
     if !role_flags.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
         return Err(Error::usage(
             "margin and claim columns need a long table (one row per entity and year, with the margin or claim beside the value)",
@@ -134,13 +153,16 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         table.records.len()
     )];
     notes.append(&mut sheet_notes);
+    notes.extend(reading_notes(&table));
     let entity_column = table.headers[roles.entity].clone();
     notes.push(format!(
         "entity column: \"{entity_column}\"{}",
-        if roles.entity_detected {
-            " (detected from its header; --entity to choose another)"
-        } else {
-            ""
+        match roles.entity_detected {
+            layout::EntityFound::Header =>
+                " (detected from its header; --entity to choose another)",
+            layout::EntityFound::Content =>
+                " (detected: its cells are country names or codes; --entity to choose another)",
+            layout::EntityFound::Given => "",
         }
     ));
     match &roles.shape {
@@ -173,13 +195,6 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     if table.records.is_empty() {
         notes.push("the table has no data rows (only a header)".into());
     }
-    if !table.skipped.is_empty() {
-        notes.push(format!(
-            "set aside {} line(s) that are not part of the table: {}",
-            table.skipped.len(),
-            table.skipped.join("; ")
-        ));
-    }
     if !roles.ignored.is_empty() {
         notes.push(format!("columns not used: {}", roles.ignored.join(", ")));
     }
@@ -196,6 +211,35 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
         Some(code) => Some(checked_currency(code, None, file)?),
         None => None,
     };
+    // A statistics-office TSV: dimensions other than the entity that take several values in
+    // the file become the group (unless --group names one), so that each series ranks alone.
+    let auto_group: Vec<usize> = if roles.group.is_none() {
+        table
+            .dimensions
+            .iter()
+            .copied()
+            .filter(|&d| d != roles.entity)
+            .filter(|&d| {
+                let first = table.records.first().map(|r| r.cells[d].trim());
+                table
+                    .records
+                    .iter()
+                    .any(|r| Some(r.cells[d].trim()) != first)
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
+    if !auto_group.is_empty() {
+        let names: Vec<&str> = auto_group
+            .iter()
+            .map(|&d| table.headers[d].as_str())
+            .collect();
+        notes.push(format!(
+            "group: the dimension(s) {} take several values, so each of their series is ranked on its own (--group DIM to choose)",
+            names.join(", ")
+        ));
+    }
     let reader = RowReader {
         file,
         options,
@@ -205,16 +249,26 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
     for (index, record) in table.records.iter().enumerate() {
         let data_row = index + 1 + options.row_offset;
         let entity_input = record.cells[roles.entity].to_string();
-        let group = roles
-            .group
-            .map(|g| record.cells[g].trim().to_string())
-            .filter(|g| !g.is_empty());
+        let group = if auto_group.is_empty() {
+            roles
+                .group
+                .map(|g| record.cells[g].trim().to_string())
+                .filter(|g| !g.is_empty())
+        } else {
+            Some(
+                auto_group
+                    .iter()
+                    .map(|&d| record.cells[d].trim())
+                    .collect::<Vec<_>>()
+                    .join(","),
+            )
+        };
         let currency_cell = roles
             .currency
             .map(|c| (table.headers[c].as_str(), &record.cells[c]));
         match &roles.shape {
             Shape::Long { value, year, .. } => {
-                let mut row_flags = Vec::new();
+                let mut row_flags = quote_flags(record);
                 let year = match year {
                     YearSource::Fixed(y) => Some(*y),
                     YearSource::Column { index, .. } => reader.year(
@@ -268,7 +322,7 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
                         &record.cells[column],
                         &table.headers[column],
                         currency_cell,
-                        Vec::new(),
+                        quote_flags(record),
                     )?);
                 }
             }
@@ -305,14 +359,16 @@ pub fn ingest(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Inges
             Shape::Wide { .. } => LayoutChoice::Wide,
         },
         reserved: Vec::new(),
+        knobs: layout::Knobs::Flags,
     };
     Ok(Ingested {
         rows,
         file: file.to_string(),
         notes,
         entity_column,
-        has_group: roles.group.is_some(),
+        has_group: roles.group.is_some() || !auto_group.is_empty(),
         data_lines: table.records.len(),
+        dimensioned: !table.dimensions.is_empty(),
         headers: table.headers,
         delimiter,
         encoding: decoded.encoding,
@@ -335,6 +391,47 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
             )
         })?;
     crate::report::render_csv(&frame, crate::report::format::Rounding::Full)
+}
+
+fn quote_flags(record: &table::TextRecord) -> Vec<String> {
+    if record.unbalanced_quote {
+        vec![flags::UNBALANCED_QUOTE.into()]
+    } else {
+        Vec::new()
+    }
+}
+
+/// What the table finder decided, for the run summary (and `levelfield refs`).
+pub fn reading_notes(table: &table::TextTable) -> Vec<String> {
+    let mut notes = vec![format!("header: {}", table.header_reason)];
+    if table.trailing_delimiter {
+        notes.push("every line ends with the delimiter: the empty last column was dropped".into());
+    }
+    if !table.dimensions.is_empty() {
+        let names: Vec<&str> = table
+            .dimensions
+            .iter()
+            .map(|&i| table.headers[i].as_str())
+            .collect();
+        notes.push(format!(
+            "statistics-office layout: the first column joins the dimensions {}",
+            names.join(", ")
+        ));
+    }
+    if !table.skipped.is_empty() {
+        notes.push(format!(
+            "set aside {} line(s) that are not part of the table: {}",
+            table.skipped.len(),
+            table.skipped.join("; ")
+        ));
+    }
+    let quoted = table.records.iter().filter(|r| r.unbalanced_quote).count();
+    if quoted > 0 {
+        notes.push(format!(
+            "{quoted} line(s) inside an unclosed quote read as written and flagged unbalanced_quote (--lenient)"
+        ));
+    }
+    notes
 }
 
 struct RowReader<'a> {
@@ -478,7 +575,7 @@ mod tests {
     use super::*;
 
     fn run(text: &str, options: IngestOptions) -> Result<Ingested> {
-        ingest(text.as_bytes(), "t.csv", &options)
+        ingest(text.as_bytes(), "t.csv", &options, None)
     }
 
     #[test]

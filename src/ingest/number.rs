@@ -67,7 +67,7 @@ const FOOTNOTE_SYMBOLS: &[char] = &[
 /// Reads one cell.
 pub fn parse_cell(text: &str, style: NumberStyle) -> Result<Cell, NumberError> {
     let trimmed = trim_spaces(text);
-    if is_missing_mark(trimmed) {
+    if is_missing_mark(trimmed) || is_flagged_missing(trimmed) {
         return Ok(Cell::Missing);
     }
     let (body, footnote) = strip_footnote(trimmed);
@@ -117,6 +117,15 @@ fn error(reason: impl Into<String>, hint: impl Into<String>) -> NumberError {
 fn trim_spaces(text: &str) -> &str {
     text.trim_matches(|c: char| {
         c.is_whitespace() || c == '\u{a0}' || c == '\u{202f}' || c == '\u{2009}'
+    })
+}
+
+/// A statistics office's missing mark with a status letter: `: c` (confidential), `: z` (not
+/// applicable), `:u` (common practice at Eurostat: `:` means not available).
+fn is_flagged_missing(text: &str) -> bool {
+    text.strip_prefix(':').is_some_and(|rest| {
+        let letters = rest.trim();
+        (1..=3).contains(&letters.len()) && letters.chars().all(|c| STATUS_LETTERS.contains(c))
     })
 }
 

@@ -1,10 +1,26 @@
-//! Reading decoded text as a delimited table: sniffing the delimiter, checking the header and
-//! keeping the physical line of every record so that later errors can point at it.
+//! The table finder: reading decoded text as a delimited table and finding the table inside it.
+//! Every delimited input, every reference table and every spreadsheet sheet (as text) goes
+//! through `find_table`, so they all follow the same rules:
 //!
-//! This file knows nothing about countries or numbers; `ingest::layout` gives the columns their
-//! roles.
+//! - The header is found by structure, never by position: the line that names the columns the
+//!   user gave, or else the line that heads the longest block of lines holding figures (each
+//!   filled cell of those lines under a filled header cell), the nearest one above that block
+//!   when several qualify (a title above a header covers the same block, and loses).
+//! - Everything above the header is set aside and listed: titles, source and "last updated"
+//!   lines and blank lines, whatever delimiters they contain.
+//! - A trailing delimiter on every line is an empty last column, and it is dropped.
+//! - Below the last data line only notes may follow; a line there that holds figures is an
+//!   error, never a silently dropped row.
+//! - A quote that swallows a line's worth of delimiters (or runs to the end of the file) is an
+//!   error naming the line where it opened; with `lenient` its lines become rows flagged
+//!   `unbalanced_quote`.
+//! - A statistics-office TSV whose first header cell joins dimension names
+//!   (`freq,unit,geo\TIME_PERIOD`) has that column split into one column per dimension.
+//!
+//! It knows nothing about countries; `ingest::layout` gives the columns their roles.
 
 use crate::error::{Error, Location, Result};
+use crate::ingest::number::{self, Cell, NumberStyle};
 
 /// A delimited table as text cells, with the line each record starts on.
 #[derive(Debug, Clone)]
@@ -12,8 +28,15 @@ pub struct TextTable {
     pub headers: Vec<String>,
     pub records: Vec<TextRecord>,
     pub delimiter: u8,
-    /// Title lines above the header and note lines below the table, set aside.
+    /// Lines set aside above the header and below the table, described for the summary.
     pub skipped: Vec<String>,
+    /// The physical line of the header and why it was chosen.
+    pub header_line: usize,
+    pub header_reason: String,
+    /// Set when every line ended with the delimiter (the empty last column was dropped).
+    pub trailing_delimiter: bool,
+    /// Dimension columns of a statistics-office TSV (indices into `headers`), empty otherwise.
+    pub dimensions: Vec<usize>,
 }
 
 #[derive(Debug, Clone)]
@@ -21,33 +44,56 @@ pub struct TextRecord {
     pub line: usize,
     /// The cells, indexable as `&str` (one allocation per record, not one per cell).
     pub cells: csv::StringRecord,
+    /// The line was cut out of a runaway quote (`--lenient`): its cells are as written.
+    pub unbalanced_quote: bool,
+}
+
+/// What the caller knows about the table.
+#[derive(Debug, Clone, Default)]
+pub struct FindOptions {
+    /// Column names the user gave (flags or catalog fields): the header is the line naming them.
+    pub hints: Vec<String>,
+    /// The header's physical line, when the user forced it (`--header-row`).
+    pub header_line: Option<usize>,
+    /// Runaway quotes become flagged rows instead of an error.
+    pub lenient: bool,
+    /// A piece of a larger file (`--streaming`): lines before this piece.
+    pub line_offset: usize,
 }
 
 const CANDIDATES: &[u8] = b",\t;|";
+/// Records searched for the header, and records looked at below each candidate.
+const HEADER_SEARCH: usize = 1000;
+const BLOCK_WINDOW: usize = 200;
 
-/// Picks the delimiter that splits the first lines into the same number of fields, preferring
-/// the one that splits the header most. Quoted text is skipped.
+/// Picks the delimiter that splits the most lines into the same number of fields, preferring
+/// the one that splits them most. Quoted text is skipped. Title lines above the header do not
+/// decide: every line of the first twenty votes.
 pub fn sniff_delimiter(text: &str) -> u8 {
     let lines: Vec<&str> = text
         .lines()
         .filter(|l| !l.trim().is_empty())
-        .take(20)
+        .take(40)
         .collect();
-    let Some(header) = lines.first() else {
+    if lines.is_empty() {
         return b',';
-    };
+    }
     let mut best = (b',', 0usize, 0usize);
     for &candidate in CANDIDATES {
-        let in_header = count_outside_quotes(header, candidate);
-        if in_header == 0 {
-            continue;
-        }
-        let agreeing = lines
+        let counts: Vec<usize> = lines
             .iter()
-            .filter(|l| count_outside_quotes(l, candidate) == in_header)
-            .count();
-        if (agreeing, in_header) > (best.1, best.2) {
-            best = (candidate, agreeing, in_header);
+            .map(|l| count_outside_quotes(l, candidate))
+            .collect();
+        // The most common non-zero count is this delimiter's table width.
+        let mut tally: std::collections::BTreeMap<usize, usize> = Default::default();
+        for &c in counts.iter().filter(|&&c| c > 0) {
+            *tally.entry(c).or_default() += 1;
+        }
+        let Some((&width, &agreeing)) = tally.iter().max_by_key(|(w, n)| (**n, **w)) else {
+            continue;
+        };
+        if (agreeing, width) > (best.1, best.2) {
+            best = (candidate, agreeing, width);
         }
     }
     best.0
@@ -76,25 +122,92 @@ pub fn delimiter_name(delimiter: u8) -> &'static str {
     }
 }
 
-/// Parses the whole table. Every record must have as many fields as the header; a ragged
-/// record is an error naming its line, because a shifted cell would put a number under the
-/// wrong year. Title lines above the header and note lines below the table (lines with at most
-/// one filled cell, as spreadsheet exports write them) are set aside and listed in `skipped`,
-/// never read as data.
+/// The finder with no hints (tests, and tables whose columns nobody named).
 pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
-    read_table_from(text, delimiter, file, 0)
+    find_table(text, delimiter, file, &FindOptions::default())
 }
 
-/// As `read_table`, for a piece of a larger file: every line number is shifted by
-/// `line_offset` (the piece's header is a copy; its data lines keep their place in the file).
-pub fn read_table_from(
+/// Reads a reference file's bytes with the detected encoding and delimiter.
+pub fn read_bytes(bytes: &[u8], file: &str, hints: &[String]) -> Result<TextTable> {
+    let decoded = crate::ingest::encoding::decode(bytes, None, file)?;
+    let delimiter = if file.ends_with(".tsv") || file.ends_with(".tab") {
+        b'\t'
+    } else {
+        sniff_delimiter(&decoded.text)
+    };
+    find_table(
+        &decoded.text,
+        delimiter,
+        file,
+        &FindOptions {
+            hints: hints.to_vec(),
+            ..Default::default()
+        },
+    )
+}
+
+/// What a cell holds, as far as finding the table is concerned.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum CellClass {
+    Empty,
+    Year,
+    Number,
+    Text,
+}
+
+fn classify(cell: &str) -> CellClass {
+    let t = cell.trim();
+    if t.is_empty() {
+        return CellClass::Empty;
+    }
+    if crate::ingest::layout::header_year(t).is_some() {
+        return CellClass::Year;
+    }
+    match number::parse_cell(t, NumberStyle::default()) {
+        Ok(Cell::Number { .. }) => CellClass::Number,
+        Ok(Cell::Missing) => CellClass::Empty,
+        Err(_) => CellClass::Text,
+    }
+}
+
+/// One parsed record before the table is known.
+struct Raw {
+    line: usize,
+    /// Byte range of the record in the text (for cutting a runaway quote into lines).
+    start: usize,
+    end: usize,
+    record: csv::StringRecord,
+}
+
+impl Raw {
+    fn filled(&self) -> usize {
+        self.record.iter().filter(|c| !c.trim().is_empty()).count()
+    }
+
+    fn classes(&self) -> Vec<CellClass> {
+        self.record.iter().map(classify).collect()
+    }
+
+    /// The line as written (cells joined by the delimiter), shortened for a message.
+    fn text(&self, delimiter: u8) -> String {
+        let joined = self
+            .record
+            .iter()
+            .collect::<Vec<_>>()
+            .join(&(delimiter as char).to_string());
+        shorten(joined.trim_end_matches(delimiter as char).trim())
+    }
+}
+
+/// Finds the table in `text`; see the module documentation for the rules.
+pub fn find_table(
     text: &str,
     delimiter: u8,
     file: &str,
-    line_offset: usize,
+    options: &FindOptions,
 ) -> Result<TextTable> {
     if let Some(position) = text.find('\0') {
-        let line = text[..position].matches('\n').count() + 1 + line_offset;
+        let line = text[..position].matches('\n').count() + 1 + options.line_offset;
         return Err(Error::bad_input(
             Location::line(file, line),
             "a NUL byte: the file looks binary, or is UTF-16 without a byte-order mark",
@@ -102,81 +215,76 @@ pub fn read_table_from(
             "check that the right file was given; for UTF-16 without a byte-order mark pass --encoding utf-16le (or utf-16be)",
         ));
     }
-    let mut reader = csv::ReaderBuilder::new()
-        .delimiter(delimiter)
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(text.as_bytes());
-    let mut all: Vec<(usize, csv::StringRecord)> = Vec::new();
-    let mut lines = LineCounter::new(text);
-    lines.line += line_offset;
-    for result in reader.records() {
-        let record = result.map_err(|e| csv_error(e, file, line_offset))?;
-        let line = record
-            .position()
-            .map(|p| lines.line_of(p.byte() as usize))
-            .unwrap_or(0);
-        all.push((line, record));
-    }
-    let filled = |r: &csv::StringRecord| r.iter().filter(|c| !c.trim().is_empty()).count();
-    // A line with one filled cell is a title or a note only if that cell is words, not a figure:
-    // a lone number is more likely a data line that lost its cells, and must stop the run.
-    let note_like = |r: &csv::StringRecord| {
-        filled(r) == 1
-            && r.iter().any(|c| {
-                c.trim()
-                    .chars()
-                    .any(|ch| ch.is_alphabetic() || "*†‡§#¹²³(".contains(ch))
-            })
-    };
-    let data_like = |r: &csv::StringRecord| filled(r) >= 2 || (filled(r) == 1 && !note_like(r));
-    let Some(header_index) = all
-        .iter()
-        .position(|(_, r)| filled(r) >= 2)
-        .or(if all.is_empty() { None } else { Some(0) })
-    else {
+    let mut all = parse_records(text, delimiter, file, options.line_offset)?;
+    if all.is_empty() {
         return Err(Error::bad_input(
             Location::file(file),
             "the file is empty",
             "a header line naming the columns, then one line per figure",
             "check that the right file was given",
         ));
-    };
+    }
+    let (header_index, header_reason) = choose_header(&all, options, file)?;
+    let header_line = all[header_index].line;
     let mut skipped: Vec<String> = all[..header_index]
         .iter()
-        .filter(|(_, r)| filled(r) > 0)
-        .map(|(line, r)| {
+        .filter(|r| r.filled() > 0)
+        .map(|r| {
             format!(
-                "line {line} above the header: \"{}\"",
-                shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
+                "line {} above the header: \"{}\"",
+                r.line,
+                r.text(delimiter)
             )
         })
         .collect();
-    let headers = clean_headers(&all[header_index].1, file)?;
-    let width = headers.len();
-    // The table ends at the last line with two or more filled cells; below it, only notes.
+    let blank_above = header_line
+        .saturating_sub(1 + options.line_offset)
+        .saturating_sub(header_index);
+    if blank_above > 0 {
+        skipped.push(format!("{blank_above} blank line(s) above the header"));
+    }
+    // The table ends at the last line that holds data; only notes may follow it.
     let last_data = all
         .iter()
-        .rposition(|(_, r)| data_like(r))
-        .unwrap_or(header_index);
-    let tail = last_data.max(header_index) + 1;
+        .rposition(|r| !is_note(r, delimiter))
+        .unwrap_or(header_index)
+        .max(header_index);
+    let tail = last_data + 1;
     skipped.extend(
         all[tail..]
             .iter()
-            .filter(|(_, r)| filled(r) > 0)
-            .map(|(line, r)| {
-                format!(
-                    "line {line} below the table: \"{}\"",
-                    shorten(r.iter().collect::<Vec<_>>().join(" ").trim())
-                )
-            }),
+            .filter(|r| r.filled() > 0)
+            .map(|r| format!("line {} below the table: \"{}\"", r.line, r.text(delimiter))),
     );
-    // Records move out of `all` (no copy of their text).
+    let trailing_delimiter = all[header_index..tail]
+        .iter()
+        .all(|r| r.record.len() >= 2 && r.record[r.record.len() - 1].trim().is_empty());
+    let mut header_record = all[header_index].record.clone();
+    if trailing_delimiter {
+        header_record.truncate(header_record.len() - 1);
+    }
+    let mut headers = clean_headers(&header_record, file, header_line)?;
+    let width = headers.len();
     let mut records = Vec::with_capacity(tail.saturating_sub(header_index + 1));
-    for (line, mut record) in all.drain(header_index + 1..tail.max(header_index + 1)) {
-        if filled(&record) == 0 {
+    for raw in all.drain(header_index + 1..tail) {
+        if raw.filled() == 0 {
             continue;
         }
+        if let Some(opened) = runaway_quote(&raw, width, delimiter) {
+            if !options.lenient {
+                return Err(Error::bad_input(
+                    Location::line(file, raw.line),
+                    format!(
+                        "a quote opened on this line is not closed until line {opened} (or the end of the file): it swallows the lines between"
+                    ),
+                    "balanced double quotes: a cell that starts with \" must end with \"",
+                    "remove or close the stray quote on this line, or pass --lenient to keep those lines as rows flagged `unbalanced_quote`",
+                ));
+            }
+            records.extend(cut_runaway(text, &raw, delimiter, width));
+            continue;
+        }
+        let mut record = raw.record;
         // Spreadsheet exports pad lines with empty cells; only filled extra cells are an error.
         let mut len = record.len();
         while len > width && record[len - 1].trim().is_empty() {
@@ -184,24 +292,312 @@ pub fn read_table_from(
         }
         record.truncate(len);
         if record.len() != width {
-            return Err(Error::bad_input(
-                Location::line(file, line),
-                format!("{} field(s) on this line, but the header has {width}", record.len()),
-                format!("{width} fields separated by the {} delimiter", delimiter_name(delimiter)),
-                "fix the line (a stray delimiter or a missing quote is the usual cause), or pass --delimiter if the wrong one was detected",
-            ));
+            return Err(ragged(file, raw.line, record.len(), width, delimiter));
         }
         records.push(TextRecord {
-            line,
+            line: raw.line,
             cells: record,
+            unbalanced_quote: false,
         });
     }
+    let dimensions = split_dimensions(&mut headers, &mut records, file, header_line)?;
     Ok(TextTable {
         headers,
         records,
         delimiter,
         skipped,
+        header_line,
+        header_reason,
+        trailing_delimiter,
+        dimensions,
     })
+}
+
+fn parse_records(text: &str, delimiter: u8, file: &str, line_offset: usize) -> Result<Vec<Raw>> {
+    let mut reader = csv::ReaderBuilder::new()
+        .delimiter(delimiter)
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(text.as_bytes());
+    let mut all: Vec<Raw> = Vec::new();
+    let mut lines = LineCounter::new(text);
+    lines.line += line_offset;
+    for result in reader.records() {
+        let record = result.map_err(|e| csv_error(e, file, line_offset))?;
+        let start = record.position().map(|p| p.byte() as usize).unwrap_or(0);
+        let line = lines.line_of(start);
+        if let Some(previous) = all.last_mut() {
+            previous.end = start;
+        }
+        all.push(Raw {
+            line,
+            start,
+            end: text.len(),
+            record,
+        });
+    }
+    Ok(all)
+}
+
+/// The header: the line the user forced, the line naming the given columns, or the line that
+/// heads the longest block of figures (the nearest such line above the block).
+fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usize, String)> {
+    if let Some(wanted) = options.header_line {
+        let wanted = wanted + options.line_offset;
+        return all
+            .iter()
+            .position(|r| r.line == wanted && r.filled() > 0)
+            .map(|i| (i, format!("line {wanted}, as --header-row says")))
+            .ok_or_else(|| {
+                Error::bad_input(
+                    Location::line(file, wanted),
+                    "--header-row names a line that is empty or past the end of the file",
+                    "the line of the table's header",
+                    "pass --header-row with the line that names the columns, or leave it out to let the header be found",
+                )
+            });
+    }
+    let window = &all[..all.len().min(HEADER_SEARCH)];
+    let hints: Vec<String> = options
+        .hints
+        .iter()
+        .map(|h| h.trim().to_lowercase())
+        .filter(|h| !h.is_empty())
+        .collect();
+    if !hints.is_empty() {
+        let named = window.iter().position(|r| {
+            let cells: Vec<String> = r.record.iter().map(|c| c.trim().to_lowercase()).collect();
+            hints.iter().all(|h| cells.contains(h))
+        });
+        if let Some(i) = named {
+            return Ok((
+                i,
+                format!(
+                    "line {}: it names the columns given ({})",
+                    window[i].line,
+                    options.hints.join(", ")
+                ),
+            ));
+        }
+    }
+    let classes: Vec<Vec<CellClass>> = window.iter().map(Raw::classes).collect();
+    let header_like = |i: usize| {
+        let c = &classes[i];
+        c.iter().filter(|k| **k != CellClass::Empty).count() >= 2 && !c.contains(&CellClass::Number)
+    };
+    let mut best: Option<(usize, (usize, usize))> = None;
+    for h in (0..window.len()).filter(|&i| header_like(i)) {
+        let score = block_score(window, &classes, h);
+        if score.0 + score.1 == 0 {
+            continue;
+        }
+        // Ties go to the later line: a title above a header covers the same block.
+        if best.is_none_or(|(_, b)| score >= b) {
+            best = Some((h, score));
+        }
+    }
+    if let Some((h, (exact, covered))) = best {
+        return Ok((
+            h,
+            format!(
+                "line {}: it heads the longest block of figures ({} line(s) below it)",
+                window[h].line,
+                exact.max(covered)
+            ),
+        ));
+    }
+    let first = (0..window.len())
+        .find(|&i| header_like(i))
+        .or_else(|| window.iter().position(|r| r.filled() >= 2))
+        .unwrap_or(0);
+    Ok((
+        first,
+        format!(
+            "line {}: the first line naming two or more columns (no line below holds figures)",
+            window[first].line
+        ),
+    ))
+}
+
+/// How well header candidate `h` heads the lines below it: (lines holding figures with as many
+/// fields as `h`, lines holding figures whose filled cells all sit under filled cells of `h`).
+/// The count stops at the first line with a filled cell beyond `h`'s width.
+fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, usize) {
+    let header = &classes[h];
+    let width = window[h].record.len();
+    let (mut exact, mut covered) = (0, 0);
+    for i in (h + 1..window.len()).take(BLOCK_WINDOW) {
+        let row = &classes[i];
+        let span = row
+            .iter()
+            .rposition(|c| *c != CellClass::Empty)
+            .map_or(0, |p| p + 1);
+        if span > width {
+            break;
+        }
+        let figures = row.contains(&CellClass::Number) || row.contains(&CellClass::Year);
+        if !figures {
+            continue;
+        }
+        let under_header = row
+            .iter()
+            .enumerate()
+            .all(|(j, c)| *c == CellClass::Empty || header[j] != CellClass::Empty);
+        covered += under_header as usize;
+        exact += (window[i].record.len() == width) as usize;
+    }
+    (exact, covered)
+}
+
+/// A line below the table that is a note: one filled cell of words, or words that open with a
+/// note marker (`Source:`, `Note`, `*`), holding no figure but years.
+fn is_note(raw: &Raw, delimiter: u8) -> bool {
+    // A cell that runs over several lines with delimiters in it is a stray quote, not a note.
+    if raw
+        .record
+        .iter()
+        .any(|c| c.contains('\n') && c.as_bytes().contains(&delimiter))
+    {
+        return false;
+    }
+    let filled: Vec<&str> = raw
+        .record
+        .iter()
+        .map(str::trim)
+        .filter(|c| !c.is_empty())
+        .collect();
+    let Some(first) = filled.first() else {
+        return true;
+    };
+    let words = |c: &&str| {
+        c.chars()
+            .any(|ch| ch.is_alphabetic() || "*†‡§#¹²³(".contains(ch))
+    };
+    if filled.len() == 1 {
+        return words(first);
+    }
+    let lower = first.to_lowercase();
+    let marker = [
+        "source",
+        "note",
+        "notes",
+        "*",
+        "†",
+        "‡",
+        "§",
+        "(a)",
+        "(1)",
+        "1)",
+        "footnote",
+        "data from",
+        "last updated",
+        "©",
+        "copyright",
+    ]
+    .iter()
+    .any(|m| lower.starts_with(m));
+    marker && raw.record.iter().all(|c| classify(c) != CellClass::Number)
+}
+
+/// The last line swallowed by an open quote in `raw`, when a field holds a line break and at
+/// least a line's worth of delimiters (a quoted cell with a line break in it is fine).
+fn runaway_quote(raw: &Raw, width: usize, delimiter: u8) -> Option<usize> {
+    let needed = width.saturating_sub(1).max(1);
+    raw.record.iter().find_map(|field| {
+        let breaks = field.trim_end().matches('\n').count();
+        let delimiters = field.bytes().filter(|&b| b == delimiter).count();
+        (breaks >= 1 && delimiters >= needed).then_some(raw.line + breaks)
+    })
+}
+
+/// The lines of a runaway quote, each read as written (quotes as characters), flagged.
+fn cut_runaway(text: &str, raw: &Raw, delimiter: u8, width: usize) -> Vec<TextRecord> {
+    let body = &text[raw.start.min(text.len())..raw.end.min(text.len())];
+    let mut out = Vec::new();
+    for (offset, line) in body.split('\n').enumerate() {
+        let line = line.trim_end_matches('\r');
+        if line.trim().is_empty() {
+            continue;
+        }
+        let mut cells: Vec<&str> = line.split(delimiter as char).collect();
+        while cells.len() > width && cells.last().is_some_and(|c| c.trim().is_empty()) {
+            cells.pop();
+        }
+        cells.resize(width.max(cells.len()), "");
+        cells.truncate(width);
+        out.push(TextRecord {
+            line: raw.line + offset,
+            cells: csv::StringRecord::from(cells),
+            unbalanced_quote: true,
+        });
+    }
+    out
+}
+
+fn ragged(file: &str, line: usize, found: usize, width: usize, delimiter: u8) -> Error {
+    Error::bad_input(
+        Location::line(file, line),
+        format!("{found} field(s) on this line, but the header has {width}"),
+        format!(
+            "{width} fields separated by the {} delimiter",
+            delimiter_name(delimiter)
+        ),
+        "fix the line (a stray delimiter or a missing quote is the usual cause), or pass --delimiter if the wrong one was detected",
+    )
+}
+
+/// A statistics-office TSV: the first header cell joins the dimension names with commas and a
+/// backslash before the time dimension (`freq,unit,geo\TIME_PERIOD`), and the first cell of
+/// each row joins that row's codes (`A,NR,AT`). The column becomes one column per dimension.
+fn split_dimensions(
+    headers: &mut Vec<String>,
+    records: &mut [TextRecord],
+    file: &str,
+    header_line: usize,
+) -> Result<Vec<usize>> {
+    let Some((names, _time)) = headers.first().and_then(|h| h.split_once('\\')) else {
+        return Ok(Vec::new());
+    };
+    let names: Vec<String> = names.split(',').map(|n| n.trim().to_string()).collect();
+    if names.iter().any(String::is_empty) {
+        return Err(Error::bad_input(
+            Location::line(file, header_line),
+            format!("the first header cell \"{}\" has an empty dimension name", headers[0]),
+            "dimension names joined by commas, then a backslash and the time dimension (freq,unit,geo\\TIME_PERIOD)",
+            "fix the header cell",
+        ));
+    }
+    let n = names.len();
+    for record in records.iter_mut() {
+        let codes: Vec<String> = record.cells[0]
+            .split(',')
+            .map(|c| c.trim().to_string())
+            .collect();
+        if codes.len() != n {
+            return Err(Error::bad_input(
+                Location::cell(file, record.line, &headers[0]),
+                format!(
+                    "\"{}\" has {} code(s), but the header names {n} dimension(s)",
+                    shorten(&record.cells[0]),
+                    codes.len()
+                ),
+                format!("{n} codes joined by commas ({})", names.join(",")),
+                "fix the row's first cell",
+            ));
+        }
+        let mut cells = csv::StringRecord::new();
+        for code in &codes {
+            cells.push_field(code);
+        }
+        for cell in record.cells.iter().skip(1) {
+            cells.push_field(cell);
+        }
+        record.cells = cells;
+    }
+    let mut expanded = names;
+    expanded.extend(headers.drain(1..));
+    *headers = expanded;
+    Ok((0..n).collect())
 }
 
 /// The number of line breaks in `bytes` as `LineCounter` counts them (`\n`, `\r\n`, lone `\r`).
@@ -252,13 +648,6 @@ impl<'a> LineCounter<'a> {
     }
 }
 
-/// Reads a file's bytes as a table with the detected encoding and delimiter (reference tables:
-/// no options to force either).
-pub fn read_bytes(bytes: &[u8], file: &str) -> Result<TextTable> {
-    let decoded = crate::ingest::encoding::decode(bytes, None, file)?;
-    read_table(&decoded.text, sniff_delimiter(&decoded.text), file)
-}
-
 /// A cell or line cut to a length that fits in a message.
 pub fn shorten(text: &str) -> String {
     const MAX: usize = 60;
@@ -269,8 +658,9 @@ pub fn shorten(text: &str) -> String {
     }
 }
 
-fn clean_headers(record: &csv::StringRecord, file: &str) -> Result<Vec<String>> {
+fn clean_headers(record: &csv::StringRecord, file: &str, line: usize) -> Result<Vec<String>> {
     let mut headers: Vec<String> = Vec::with_capacity(record.len());
+    let mut seen: std::collections::HashMap<String, usize> = Default::default();
     for (i, raw) in record.iter().enumerate() {
         let name = raw.trim().trim_start_matches('\u{feff}').to_string();
         let name = if name.is_empty() {
@@ -278,13 +668,14 @@ fn clean_headers(record: &csv::StringRecord, file: &str) -> Result<Vec<String>> 
         } else {
             name
         };
-        if let Some(first) = headers.iter().position(|h| h == &name) {
+        if let Some(first) = seen.insert(name.clone(), i) {
             return Err(Error::bad_input(
-                Location::line(file, 1),
+                Location::line(file, line),
                 format!(
-                    "the header names column {} and column {} both \"{name}\"",
+                    "the header names column {} and column {} both \"{}\"",
                     first + 1,
-                    i + 1
+                    i + 1,
+                    shorten(&name)
                 ),
                 "a header with a different name for every column",
                 "rename one of the columns",
@@ -319,6 +710,11 @@ mod tests {
         assert_eq!(sniff_delimiter("a\tb\tc\n1,5\t2\t3\n"), b'\t');
         assert_eq!(sniff_delimiter("country;2019;2020\nFrance;1,5;2,5\n"), b';');
         assert_eq!(sniff_delimiter("\"a,x\"|b\n1|2\n"), b'|');
+        // A title with commas above a semicolon table does not decide.
+        assert_eq!(
+            sniff_delimiter("Fees, invented, 2020\ncountry;fee\nA;1\nB;2\n"),
+            b';'
+        );
     }
 
     #[test]
@@ -333,22 +729,131 @@ mod tests {
         let text = "Table 3: Fees\nInvented figures\n\ncountry,2020\nFrance,1\n\nSource: invented\n* estimate\n";
         let table = read_table(text, b',', "t.csv").unwrap();
         assert_eq!(table.headers, vec!["country", "2020"]);
+        assert_eq!(table.header_line, 4);
         assert_eq!(table.records.len(), 1);
-        assert_eq!(table.skipped.len(), 4, "{:?}", table.skipped);
-        assert!(table.skipped[3].contains("line 8 below the table"));
+        assert!(table
+            .skipped
+            .iter()
+            .any(|s| s.contains("line 8 below the table")));
+        assert!(table.skipped.iter().any(|s| s.contains("1 blank line(s)")));
         let padded =
             read_table("country,2020,,\nFrance,1,,\nSource: x,,,\n", b',', "t.csv").unwrap();
-        assert_eq!(
-            (
-                padded.headers.len(),
-                padded.records.len(),
-                padded.skipped.len()
-            ),
-            (4, 1, 1)
-        );
+        assert_eq!((padded.records.len(), padded.skipped.len()), (1, 1));
         let padded = read_table("country,2020\nFrance,1,,\nSource: x,,\n", b',', "t.csv").unwrap();
         assert_eq!(padded.records.len(), 1);
         assert_eq!(padded.skipped.len(), 1);
+    }
+
+    #[test]
+    fn a_title_with_the_delimiter_is_not_the_header() {
+        // The failing case of a title line with a comma above a long table.
+        let text =
+            "Prices of a standard item, 2017\ncountry,year,price\nChile,2017,12\nPeru,2017,14\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.headers, vec!["country", "year", "price"]);
+        assert_eq!(table.records.len(), 2);
+        assert!(
+            table.header_reason.contains("longest block"),
+            "{}",
+            table.header_reason
+        );
+        // A title of words only, as wide as the table, loses to the header nearer the data.
+        let text = "Fees, invented\ncountry,fee\nChile,12\nPeru,14\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.headers, vec!["country", "fee"]);
+        // A title wider than the table.
+        let text = "Gross domestic product, million dollars, (invented), 2020\ncountry,2019,2020\nChile,1,2\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.headers, vec!["country", "2019", "2020"]);
+    }
+
+    #[test]
+    fn a_bulk_download_preamble_and_trailing_delimiters() {
+        // The layout of a data bank's bulk download: preamble lines with blank lines between,
+        // quoted cells, a trailing comma on every line, empty years, aggregates at the end.
+        let text = "\"Data Source\",\"Invented Indicators\",\n\n\"Last Updated Date\",\"2024-06-28\",\n\n\
+            \"Country Name\",\"Country Code\",\"Indicator Name\",\"Indicator Code\",\"2019\",\"2020\",\n\
+            \"Aruba\",\"ABW\",\"Population\",\"SP.POP\",\"\",\"\",\n\
+            \"Chile\",\"CHL\",\"Population\",\"SP.POP\",\"19\",\"19.5\",\n\
+            \"World\",\"WLD\",\"Population\",\"SP.POP\",\"7700\",\"7800\",\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.header_line, 5);
+        assert_eq!(table.headers.len(), 6, "{:?}", table.headers);
+        assert!(table.trailing_delimiter);
+        assert_eq!(table.records.len(), 3);
+        assert_eq!(table.skipped.len(), 3, "{:?}", table.skipped);
+    }
+
+    #[test]
+    fn the_given_column_names_choose_the_header() {
+        let text = "a,b\nx,y\nplace,fee\nChile,1\n";
+        let options = FindOptions {
+            hints: vec!["place".into(), "FEE".into()],
+            ..Default::default()
+        };
+        let table = find_table(text, b',', "t.csv", &options).unwrap();
+        assert_eq!(table.header_line, 3);
+        assert!(table.header_reason.contains("names the columns given"));
+    }
+
+    #[test]
+    fn a_data_line_that_looks_like_a_title_stays_in_the_table() {
+        // Aruba has no figures: words only, but it sits inside the block.
+        let text = "country,code,2019\nAruba,ABW,\nChile,CHL,3\nPeru,PER,4\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.header_line, 1);
+        assert_eq!(table.records.len(), 3);
+    }
+
+    #[test]
+    fn figures_below_the_table_are_an_error_not_a_note() {
+        let err = read_table("country,fee\nChile,1\nSource: x\nPeru,2,3\n", b',', "t.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains("line 3"), "{err}");
+    }
+
+    #[test]
+    fn a_stray_quote_is_an_error_at_its_line_or_flagged_rows_when_lenient() {
+        let text = "country,fee\nChile,1\n\"Peru,2\nBolivia,3\nEcuador,4\n";
+        let err = read_table(text, b',', "t.csv").unwrap_err().to_string();
+        assert!(
+            err.contains("t.csv, line 3") && err.contains("quote"),
+            "{err}"
+        );
+        let options = FindOptions {
+            lenient: true,
+            ..Default::default()
+        };
+        let table = find_table(text, b',', "t.csv", &options).unwrap();
+        assert_eq!(table.records.len(), 4);
+        let lines: Vec<usize> = table.records.iter().map(|r| r.line).collect();
+        assert_eq!(lines, vec![2, 3, 4, 5]);
+        assert!(table.records[1..].iter().all(|r| r.unbalanced_quote));
+        assert_eq!(&table.records[2].cells[0], "Bolivia");
+        // A quoted cell with a line break but no swallowed delimiters is fine.
+        let table = read_table("a,b\n\"two\nlines\",1\n", b',', "t.csv").unwrap();
+        assert_eq!(table.records.len(), 1);
+    }
+
+    #[test]
+    fn statistics_office_tsv_dimensions_are_split() {
+        let text = "freq,unit,geo\\TIME_PERIOD\t2019 \t2020 \nA,NR,AT\t8858 \t8901 p\nA,NR,EL\t10725 e\t:\n";
+        let table = read_table(text, b'\t', "t.tsv").unwrap();
+        assert_eq!(table.headers, vec!["freq", "unit", "geo", "2019", "2020"]);
+        assert_eq!(table.dimensions, vec![0, 1, 2]);
+        assert_eq!(&table.records[1].cells[2], "EL");
+        assert_eq!(&table.records[1].cells[4], ":");
+    }
+
+    #[test]
+    fn a_forced_header_row_wins() {
+        let options = FindOptions {
+            header_line: Some(2),
+            ..Default::default()
+        };
+        let table = find_table("x,y\ncountry,fee\nChile,1\n", b',', "t.csv", &options).unwrap();
+        assert_eq!(table.headers, vec!["country", "fee"]);
     }
 
     #[test]
@@ -361,14 +866,17 @@ mod tests {
 
     #[test]
     fn ragged_and_duplicate_headers_are_errors_with_lines() {
-        let err = read_table("a,b\n1,2\n3\n", b',', "t.csv")
+        let err = read_table("a,b\n1,2\n3,4,5\n", b',', "t.csv")
             .unwrap_err()
             .to_string();
         assert!(err.contains("t.csv, line 3"), "{err}");
-        let err = read_table("a,a\n1,2\n", b',', "t.csv")
+        let err = read_table("x\na,a\n1,2\n", b',', "t.csv")
             .unwrap_err()
             .to_string();
-        assert!(err.contains("both \"a\""), "{err}");
+        assert!(
+            err.contains("line 2") && err.contains("both \"a\""),
+            "{err}"
+        );
         let err = read_table("", b',', "t.csv").unwrap_err().to_string();
         assert!(err.contains("empty"), "{err}");
     }

@@ -19,6 +19,8 @@ pub struct TableCoverage {
     pub gaps: Vec<(String, Vec<i32>)>,
     pub warnings: Vec<String>,
     pub error: Option<String>,
+    /// How the file was read: header line, layout, entity column, what was set aside.
+    pub reading: Vec<String>,
 }
 
 pub fn survey(
@@ -46,6 +48,7 @@ pub fn survey(
                 gaps: Vec::new(),
                 warnings: Vec::new(),
                 error: Some(e.to_string()),
+                reading: Vec::new(),
             },
         });
     }
@@ -82,6 +85,7 @@ fn coverage_of(t: &RefTable) -> TableCoverage {
         gaps,
         warnings,
         error: None,
+        reading: t.notes.clone(),
     }
 }
 
@@ -126,6 +130,12 @@ pub fn render(title: &str, tables: &[TableCoverage]) -> String {
     table.with(Style::rounded());
     let mut out = format!("Reference catalog: {title}\n{table}\n");
     for t in tables {
+        if !t.reading.is_empty() {
+            out.push_str(&format!("\nread {} ({}):\n", t.resource.name, t.file));
+            for note in &t.reading {
+                out.push_str(&format!("  {note}\n"));
+            }
+        }
         if let Some(error) = &t.error {
             out.push_str(&format!(
                 "\nERROR in {} ({}):\n{error}\n",

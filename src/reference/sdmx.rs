@@ -34,6 +34,12 @@ const NOT_DIMENSIONS: &[&str] = &[
     "OBS_COMMENT",
     "COMMENT",
     "UNIT_MEASURE_LABEL",
+    "LAST UPDATE",
+    "LAST_UPDATE",
+    "GEO",
+    "LOCATION",
+    "COUNTRY",
+    "REPORTING_COUNTRY",
 ];
 
 /// The code part of a header or cell: `REF_AREA: Reference area` → `REF_AREA`.
@@ -41,38 +47,69 @@ fn code(text: &str) -> &str {
     text.split_once(':').map(|(c, _)| c).unwrap_or(text).trim()
 }
 
+/// Reference-area dimensions as agencies name them (SDMX's REF_AREA; Eurostat's geo; OECD's
+/// older LOCATION; IMF's COUNTRY), in order of preference.
+const AREA_NAMES: &[&str] = &[
+    "REF_AREA",
+    "GEO",
+    "LOCATION",
+    "COUNTRY",
+    "REPORTING_COUNTRY",
+];
+
+fn area_column(headers: &[String]) -> Option<usize> {
+    AREA_NAMES
+        .iter()
+        .find_map(|name| headers.iter().position(|h| h == name))
+}
+
+/// Whether a header is SDMX-CSV: a DATAFLOW or STRUCTURE/STRUCTURE_ID column, a reference-area
+/// dimension, TIME_PERIOD and OBS_VALUE.
+pub fn looks_like_sdmx(headers: &[String]) -> bool {
+    let codes: Vec<String> = headers.iter().map(|h| code(h).to_uppercase()).collect();
+    let has = |name: &str| codes.iter().any(|c| c == name);
+    (has("DATAFLOW") || has("STRUCTURE") || has("STRUCTURE_ID"))
+        && has("TIME_PERIOD")
+        && has("OBS_VALUE")
+        && area_column(&codes).is_some()
+}
+
 pub fn load_sdmx(
+    text_table: &table::TextTable,
     bytes: &[u8],
     file: &str,
     resource: &Resource,
     resolver: &Resolver,
 ) -> Result<RefTable> {
-    let text_table = table::read_bytes(bytes, file)?;
     let headers: Vec<String> = text_table
         .headers
         .iter()
         .map(|h| code(h).to_uppercase())
         .collect();
     let column = |name: &str| headers.iter().position(|h| h == name);
+    let at = text_table.header_line;
     let missing = |name: &str| {
         Error::bad_input(
-            Location::line(file, 1),
+            Location::line(file, at),
             format!("no {name} column in an SDMX-CSV file"),
-            "SDMX-CSV columns REF_AREA, TIME_PERIOD and OBS_VALUE (version 1 or 2)",
-            "check the file's layout, or remove \"format\": \"sdmx-csv\" from the catalog for a plain table",
+            "SDMX-CSV columns REF_AREA (or another reference-area dimension), TIME_PERIOD and OBS_VALUE (version 1 or 2)",
+            format!("check the file's layout, or remove \"format\": \"sdmx-csv\" from the catalog resource \"{}\" for a plain table", resource.name),
         )
     };
-    let area = column("REF_AREA").ok_or_else(|| missing("REF_AREA"))?;
+    let area = area_column(&headers).ok_or_else(|| missing("REF_AREA"))?;
     let time = column("TIME_PERIOD").ok_or_else(|| missing("TIME_PERIOD"))?;
     let value = column("OBS_VALUE").ok_or_else(|| missing("OBS_VALUE"))?;
     let unit_mult = column("UNIT_MULT");
     for dimension in resource.filter.keys() {
         if column(&dimension.to_uppercase()).is_none() {
             return Err(Error::bad_input(
-                Location::line(file, 1),
+                Location::line(file, at),
                 format!("the catalog filters on {dimension}, which is not a column of the file"),
                 format!("one of {}", headers.join(", ")),
-                "fix the resource's \"filter\" in the catalog",
+                format!(
+                    "fix \"filter\" on the catalog resource \"{}\"",
+                    resource.name
+                ),
             ));
         }
     }
@@ -165,7 +202,7 @@ pub fn load_sdmx(
                     found.into_iter().map(String::as_str).collect::<Vec<_>>().join(" | ")
                 ),
                 "one series per entity and year",
-                "add a \"filter\" to the catalog resource that picks one series (for example a measure or unit code)",
+                format!("add a \"filter\" to the catalog resource \"{}\" that picks one series (for example a measure or unit code)", resource.name),
             ));
         }
         insert_factor(
@@ -184,6 +221,24 @@ pub fn load_sdmx(
 mod tests {
     use super::*;
     use crate::reference::catalog::parse_catalog;
+
+    fn load(text: &str, file: &str, r: &Resource, resolver: &Resolver) -> Result<RefTable> {
+        let t = table::read_bytes(text.as_bytes(), file, &[])?;
+        load_sdmx(&t, text.as_bytes(), file, r, resolver)
+    }
+
+    #[test]
+    fn recognised_by_the_header_without_a_format_key() {
+        let t = table::read_bytes(V1.as_bytes(), "p.csv", &[]).unwrap();
+        assert!(looks_like_sdmx(&t.headers));
+        let t = table::read_bytes(V2.as_bytes(), "p.csv", &[]).unwrap();
+        assert!(looks_like_sdmx(&t.headers));
+        assert!(!looks_like_sdmx(&[
+            "country".into(),
+            "TIME_PERIOD".into(),
+            "OBS_VALUE".into()
+        ]));
+    }
 
     fn resource(filter: &str) -> Resource {
         let json = format!(
@@ -211,13 +266,7 @@ mod tests {
     #[test]
     fn version_1_with_a_filter_and_unit_mult_3() {
         let resolver = Resolver::builtin();
-        let t = load_sdmx(
-            V1.as_bytes(),
-            "p.csv",
-            &resource(r#"{"MEASURE":"PPP"}"#),
-            &resolver,
-        )
-        .unwrap();
+        let t = load(V1, "p.csv", &resource(r#"{"MEASURE":"PPP"}"#), &resolver).unwrap();
         assert_eq!(t.lookup("FRA", 2021, 0).unwrap().value, 0.73);
         assert_eq!(t.lookup("CHL", 2021, 0).unwrap().value, 420.0);
     }
@@ -227,7 +276,7 @@ mod tests {
         let resolver = Resolver::builtin();
         let mut r = resource("{}");
         r.kind = crate::reference::Kind::Population;
-        let t = load_sdmx(V2.as_bytes(), "pop.csv", &r, &resolver).unwrap();
+        let t = load(V2, "pop.csv", &r, &resolver).unwrap();
         assert_eq!(t.lookup("FRA", 2021, 0).unwrap().value, 67_700_000.0);
         assert_eq!(t.lookup("CHL", 2021, 0).unwrap().value, 19_493_000.0);
     }
@@ -235,7 +284,7 @@ mod tests {
     #[test]
     fn several_series_for_one_entity_year_is_an_error_listing_them() {
         let resolver = Resolver::builtin();
-        let err = load_sdmx(V1.as_bytes(), "p.csv", &resource("{}"), &resolver)
+        let err = load(V1, "p.csv", &resource("{}"), &resolver)
             .unwrap_err()
             .to_string();
         assert!(err.contains("several series for FRA in 2021"), "{err}");

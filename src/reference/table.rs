@@ -8,7 +8,7 @@
 
 use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
-use crate::ingest::layout::{self, RoleFlags, Shape, YearSource};
+use crate::ingest::layout::{self, Knobs, RoleFlags, Shape, YearSource};
 use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
@@ -27,6 +27,8 @@ pub struct RefTable {
     pub rows_read: usize,
     /// sha256 of the file as read, so a run can be reproduced.
     pub sha256: String,
+    /// How the file was read (header line, layout, columns, what was set aside).
+    pub notes: Vec<String>,
 }
 
 /// A factor found for an entity and year.
@@ -80,22 +82,83 @@ impl RefTable {
     }
 }
 
+/// Loads one reference table through the same table finder as inputs. SDMX-CSV is recognised by
+/// its header (a DATAFLOW or STRUCTURE column, a reference-area dimension, TIME_PERIOD and
+/// OBS_VALUE) whether or not the catalog says `"format": "sdmx-csv"`.
 pub fn load_table(
     bytes: &[u8],
     file: &str,
     resource: &Resource,
     resolver: &Resolver,
 ) -> Result<RefTable> {
-    match resource.format.as_deref() {
-        Some("sdmx-csv") => super::sdmx::load_sdmx(bytes, file, resource, resolver),
-        None | Some("csv") => load_plain(bytes, file, resource, resolver),
-        Some(other) => Err(Error::bad_input(
-            Location::file(file),
-            format!("format \"{other}\""),
-            "csv or sdmx-csv",
-            "fix the resource's \"format\" in the catalog",
-        )),
+    let hints: Vec<String> = [
+        &resource.entity_field,
+        &resource.year_field,
+        &resource.value_field,
+        &resource.se_field,
+        &resource.moe_field,
+    ]
+    .into_iter()
+    .flatten()
+    .cloned()
+    .collect();
+    let text_table = table::read_bytes(bytes, file, &hints)?;
+    let is_sdmx = super::sdmx::looks_like_sdmx(&text_table.headers);
+    let mut notes = crate::ingest::reading_notes(&text_table);
+    let mut loaded = match resource.format.as_deref() {
+        Some("sdmx-csv") => super::sdmx::load_sdmx(&text_table, bytes, file, resource, resolver)?,
+        None if is_sdmx => {
+            notes.push("layout: SDMX-CSV (recognised by its header)".into());
+            super::sdmx::load_sdmx(&text_table, bytes, file, resource, resolver)?
+        }
+        None | Some("csv") => {
+            if !resource.filter.is_empty() && text_table.dimensions.is_empty() {
+                return Err(Error::bad_input(
+                    Location::file(format!("{file} (catalog resource \"{}\")", resource.name)),
+                    "a \"filter\" on a table that is neither SDMX-CSV nor a statistics-office TSV with dimension codes",
+                    "a filter only on tables whose columns are SDMX dimensions (REF_AREA, TIME_PERIOD, OBS_VALUE, ...) or on a dimensioned TSV (freq,unit,geo\\TIME_PERIOD)",
+                    format!("remove \"filter\" from the catalog resource \"{}\", or point it at the SDMX file", resource.name),
+                ));
+            }
+            load_plain(&text_table, bytes, file, resource, resolver, &mut notes)?
+        }
+        Some(other) => {
+            return Err(Error::bad_input(
+                Location::file(format!("{file} (catalog resource \"{}\")", resource.name)),
+                format!("format \"{other}\""),
+                "csv or sdmx-csv (or no format: the layout is recognised)",
+                format!(
+                    "fix \"format\" on the catalog resource \"{}\", or remove it",
+                    resource.name
+                ),
+            ))
+        }
+    };
+    notes.push(format!(
+        "{} factor(s) for {} entit(ies){}",
+        loaded.rows_read,
+        loaded.series.len(),
+        loaded
+            .years()
+            .map(|(a, b)| format!(", years {a}-{b}"))
+            .unwrap_or_default()
+    ));
+    loaded.notes = notes;
+    if loaded.series.is_empty() && !text_table.records.is_empty() {
+        return Err(Error::bad_input(
+            Location::file(format!("{file} (catalog resource \"{}\")", resource.name)),
+            format!(
+                "no factor could be read: {} data line(s), but no entity resolves or every cell is missing{}",
+                text_table.records.len(),
+                if loaded.unresolved.is_empty() { String::new() } else {
+                    format!(" (unresolved: {})", loaded.unresolved.iter().take(5).map(|(n, _)| format!("\"{}\"", table::shorten(n))).collect::<Vec<_>>().join(", "))
+                }
+            ),
+            "a column of country names or ISO 3166 codes and cells with figures",
+            format!("set \"entity_field\" (and \"year_field\"/\"value_field\" or \"layout\") on the catalog resource \"{}\" to the right columns", resource.name),
+        ));
     }
+    Ok(loaded)
 }
 
 /// Adds one factor, refusing a second for the same entity and year.
@@ -137,6 +200,7 @@ pub(crate) fn empty_table(bytes: &[u8], file: &str, resource: &Resource) -> RefT
         sha256: crate::report::methods::sha256_hex(bytes),
         unresolved: Vec::new(),
         rows_read: 0,
+        notes: Vec::new(),
     }
 }
 
@@ -164,12 +228,13 @@ pub(crate) fn check_positive(
 }
 
 fn load_plain(
+    text_table: &table::TextTable,
     bytes: &[u8],
     file: &str,
     resource: &Resource,
     resolver: &Resolver,
+    notes: &mut Vec<String>,
 ) -> Result<RefTable> {
-    let text_table = table::read_bytes(bytes, file)?;
     let flags = RoleFlags {
         entity: resource.entity_field.clone(),
         value: resource.value_field.clone(),
@@ -181,9 +246,12 @@ fn load_plain(
             .chain(resource.moe_field.iter())
             .cloned()
             .collect(),
+        knobs: Knobs::Catalog {
+            resource: resource.name.clone(),
+        },
         ..Default::default()
     };
-    let roles = layout::assign_roles(&text_table, &flags, file)?;
+    let roles = layout::assign_roles(text_table, &flags, file, Some(resolver))?;
     if !roles.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
         return Err(Error::bad_input(
             Location::file(file),
@@ -192,59 +260,65 @@ fn load_plain(
             "reshape the table to long form, or remove the margin property from the catalog",
         ));
     }
+    check_wide_headers(text_table, &roles, file, resource)?;
+    notes.push(describe_roles(text_table, &roles));
+    let dimensions: Vec<usize> = text_table
+        .dimensions
+        .iter()
+        .copied()
+        .filter(|&d| d != roles.entity)
+        .collect();
+    let filter = dimension_filter(text_table, resource, file)?;
     let mut loaded = empty_table(bytes, file, resource);
     let mut first_line: HashMap<(String, i32), usize> = HashMap::new();
+    let mut series_of: HashMap<(String, i32), String> = HashMap::new();
+    let mut codes: HashMap<String, Option<String>> = HashMap::new();
     for record in &text_table.records {
+        if !filter
+            .iter()
+            .all(|(i, wanted)| record.cells[*i].trim() == wanted)
+        {
+            continue;
+        }
         let entity_text = record.cells[roles.entity].trim();
-        let code = match resolver.resolve(entity_text) {
-            Resolution::Found(entity) => entity.code.clone(),
-            Resolution::Unresolved { .. } => {
-                if !loaded.unresolved.iter().any(|(n, _)| n == entity_text) {
-                    loaded
-                        .unresolved
-                        .push((entity_text.to_string(), record.line));
-                }
-                continue;
+        let code = codes
+            .entry(entity_text.to_string())
+            .or_insert_with(|| match resolver.resolve(entity_text) {
+                Resolution::Found(entity) => Some(entity.code.clone()),
+                Resolution::Unresolved { .. } => None,
+            })
+            .clone();
+        let Some(code) = code else {
+            if !loaded.unresolved.iter().any(|(n, _)| n == entity_text) {
+                loaded
+                    .unresolved
+                    .push((entity_text.to_string(), record.line));
             }
+            continue;
         };
-        let cells: Vec<(i32, usize)> = match &roles.shape {
-            Shape::Wide { year_columns } => year_columns.iter().map(|&(c, y)| (y, c)).collect(),
-            Shape::Long { value, year, .. } => {
-                let year = match year {
-                    YearSource::Fixed(y) => *y,
-                    YearSource::Column { index, .. } => {
-                        match layout::parse_year_cell(&record.cells[*index]) {
-                            Ok(Some(y)) => y,
-                            _ => {
-                                return Err(Error::bad_input(
-                                    Location::cell(file, record.line, &text_table.headers[*index]),
-                                    format!("\"{}\" is not a calendar year", &record.cells[*index]),
-                                    "a four-digit year",
-                                    "fix the reference table",
-                                ))
-                            }
-                        }
-                    }
-                };
-                vec![(year, *value)]
-            }
-        };
-        for (year, column) in cells {
+        let series = dimensions
+            .iter()
+            .map(|&i| format!("{}={}", text_table.headers[i], record.cells[i].trim()))
+            .collect::<Vec<_>>()
+            .join(",");
+        for (year, column) in year_cells(text_table, &roles, record, file)? {
             let header = &text_table.headers[column];
             let cell = &record.cells[column];
-            let value = match number::parse_cell(cell, NumberStyle::default()) {
-                Ok(Cell::Missing) => continue,
-                Ok(Cell::Number { float, .. }) => float,
-                Err(e) => {
-                    return Err(Error::bad_input(
-                        Location::cell(file, record.line, header),
-                        e.reason,
-                        format!("a {} factor ({})", resource.kind.as_str(), e.hint),
-                        "fix the reference table; mark a missing factor with .. or leave the cell empty",
-                    ))
-                }
+            let Some(value) = factor_cell(cell, resource, file, record.line, header)? else {
+                continue;
             };
-            check_positive(value, cell, resource, file, record.line, header)?;
+            if let Some(previous) = series_of.insert((code.clone(), year), series.clone()) {
+                if previous != series {
+                    return Err(several_series(
+                        file,
+                        record.line,
+                        &code,
+                        year,
+                        &previous,
+                        &series,
+                    ));
+                }
+            }
             insert_factor(
                 &mut loaded,
                 &mut first_line,
@@ -254,24 +328,190 @@ fn load_plain(
                 record.line,
             )?;
             if let Some(&margin_column) = roles.reserved.first() {
-                let margin_cell = &record.cells[margin_column];
-                if let Ok(Cell::Number { float: margin, .. }) =
-                    number::parse_cell(margin_cell, NumberStyle::default())
-                {
-                    let margin = margin * resource.multiplier;
-                    let se = match (resource.moe_field.is_some(), resource.moe_level) {
-                        (true, Some(level)) => {
-                            margin
-                                / crate::uncertainty::normal::two_sided_critical(
-                                    level as f64 / 100.0,
-                                )
-                        }
-                        _ => margin,
-                    };
+                if let Some(se) = margin_se(&record.cells[margin_column], resource) {
                     loaded.se.insert((code.clone(), year), se);
                 }
             }
         }
     }
     Ok(loaded)
+}
+
+/// The (year, column) cells of one record: every year column of a wide table, or the value
+/// column at the record's year.
+fn year_cells(
+    text_table: &table::TextTable,
+    roles: &layout::Roles,
+    record: &table::TextRecord,
+    file: &str,
+) -> Result<Vec<(i32, usize)>> {
+    Ok(match &roles.shape {
+        Shape::Wide { year_columns } => year_columns.iter().map(|&(c, y)| (y, c)).collect(),
+        Shape::Long { value, year, .. } => {
+            let year = match year {
+                YearSource::Fixed(y) => *y,
+                YearSource::Column { index, .. } => {
+                    match layout::parse_year_cell(&record.cells[*index]) {
+                        Ok(Some(y)) => y,
+                        _ => {
+                            return Err(Error::bad_input(
+                                Location::cell(file, record.line, &text_table.headers[*index]),
+                                format!(
+                                    "\"{}\" is not a calendar year",
+                                    table::shorten(&record.cells[*index])
+                                ),
+                                "a four-digit year",
+                                "fix the reference table",
+                            ))
+                        }
+                    }
+                }
+            };
+            vec![(year, *value)]
+        }
+    })
+}
+
+/// A factor cell: None for a missing mark, an error for anything that is not a positive number.
+fn factor_cell(
+    cell: &str,
+    resource: &Resource,
+    file: &str,
+    line: usize,
+    header: &str,
+) -> Result<Option<f64>> {
+    let value =
+        match number::parse_cell(cell, NumberStyle::default()) {
+            Ok(Cell::Missing) => return Ok(None),
+            Ok(Cell::Number { float, .. }) => float,
+            Err(e) => return Err(Error::bad_input(
+                Location::cell(file, line, header),
+                e.reason,
+                format!("a {} factor ({})", resource.kind.as_str(), e.hint),
+                "fix the reference table; mark a missing factor with .. or leave the cell empty",
+            )),
+        };
+    check_positive(value, cell, resource, file, line, header)?;
+    Ok(Some(value))
+}
+
+/// The standard error from a margin cell (a margin at the catalog's level, or an SE).
+fn margin_se(cell: &str, resource: &Resource) -> Option<f64> {
+    let Ok(Cell::Number { float: margin, .. }) = number::parse_cell(cell, NumberStyle::default())
+    else {
+        return None;
+    };
+    let margin = margin * resource.multiplier;
+    Some(match (resource.moe_field.is_some(), resource.moe_level) {
+        (true, Some(level)) => {
+            margin / crate::uncertainty::normal::two_sided_critical(level as f64 / 100.0)
+        }
+        _ => margin,
+    })
+}
+
+/// The catalog's `filter` as (dimension column, code) of a dimensioned TSV.
+fn dimension_filter(
+    text_table: &table::TextTable,
+    resource: &Resource,
+    file: &str,
+) -> Result<Vec<(usize, String)>> {
+    resource
+        .filter
+        .iter()
+        .map(|(dimension, code)| {
+            text_table
+                .dimensions
+                .iter()
+                .copied()
+                .find(|&i| text_table.headers[i].eq_ignore_ascii_case(dimension))
+                .map(|i| (i, code.clone()))
+                .ok_or_else(|| {
+                    let names: Vec<String> = text_table
+                        .dimensions
+                        .iter()
+                        .map(|&i| text_table.headers[i].clone())
+                        .collect();
+                    Error::bad_input(
+                        Location::file(format!("{file} (catalog resource \"{}\")", resource.name)),
+                        format!("the catalog filters on {dimension}, which is not a dimension of the file"),
+                        format!("one of {}", names.join(", ")),
+                        format!("fix \"filter\" on the catalog resource \"{}\"", resource.name),
+                    )
+                })
+        })
+        .collect()
+}
+
+fn several_series(file: &str, line: usize, code: &str, year: i32, a: &str, b: &str) -> Error {
+    Error::bad_input(
+        Location::line(file, line),
+        format!("several series for {code} in {year}: {a} | {b}"),
+        "one series per entity and year",
+        "add a \"filter\" to the catalog resource that picks one series (for example a unit code)",
+    )
+}
+
+/// Wide reference tables: a header that holds digits but is not a year is most likely a year
+/// written another way (`2023e`, `Y2023`), and dropping its column would lose factors silently.
+fn check_wide_headers(
+    text_table: &table::TextTable,
+    roles: &layout::Roles,
+    file: &str,
+    resource: &Resource,
+) -> Result<()> {
+    let Shape::Wide { year_columns } = &roles.shape else {
+        return Ok(());
+    };
+    let years: std::collections::HashSet<usize> = year_columns.iter().map(|(c, _)| *c).collect();
+    let odd = text_table.headers.iter().enumerate().find(|(i, h)| {
+        !years.contains(i)
+            && *i != roles.entity
+            && h.chars().any(|c| c.is_ascii_digit())
+            && !h.starts_with("column_")
+    });
+    match odd {
+        None => Ok(()),
+        Some((_, header)) => Err(Error::bad_input(
+            Location::cell(file, text_table.header_line, header.clone()),
+            format!("the header \"{}\" is neither a year nor a descriptive field", table::shorten(header)),
+            "year columns headed by four-digit years (2019, or 2019 [YR2019]) beside descriptive columns",
+            format!("rename the column to its year (or remove it) in the file; if the table is long, set \"layout\": \"long\" with \"year_field\" and \"value_field\" on the catalog resource \"{}\"", resource.name),
+        )),
+    }
+}
+
+/// One line for `levelfield refs`: the columns the table was read by.
+fn describe_roles(text_table: &table::TextTable, roles: &layout::Roles) -> String {
+    let entity = &text_table.headers[roles.entity];
+    let how = match roles.entity_detected {
+        layout::EntityFound::Given => "entity_field",
+        layout::EntityFound::Header => "detected from its header",
+        layout::EntityFound::Content => "detected: its cells are country names or codes",
+    };
+    let shape = match &roles.shape {
+        Shape::Wide { year_columns } => format!(
+            "wide, {} year column(s) {}-{}",
+            year_columns.len(),
+            year_columns.iter().map(|(_, y)| *y).min().unwrap_or(0),
+            year_columns.iter().map(|(_, y)| *y).max().unwrap_or(0)
+        ),
+        Shape::Long { value, year, .. } => format!(
+            "long, value column \"{}\"{}",
+            text_table.headers[*value],
+            match year {
+                YearSource::Column { index, .. } =>
+                    format!(", year column \"{}\"", text_table.headers[*index]),
+                YearSource::Fixed(y) => format!(", every row {y}"),
+            }
+        ),
+    };
+    let mut text = format!("layout: {shape}; entity column \"{entity}\" ({how})");
+    if !roles.ignored.is_empty() {
+        text.push_str(&format!(
+            "; columns not used: {}",
+            layout::list(&roles.ignored)
+        ));
+    }
+    text
 }

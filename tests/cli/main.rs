@@ -14,6 +14,7 @@ mod recipes;
 mod refs;
 mod streaming;
 mod uncertainty;
+mod world;
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
