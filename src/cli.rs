@@ -31,6 +31,8 @@ pub enum Command {
     Adjust(Box<AdjustArgs>),
     /// List the reference tables of a catalog folder: coverage, gaps and validation errors.
     Refs(RefsArgs),
+    /// Draft a datapackage.json for a folder of downloaded reference tables, for you to review.
+    Catalog(CatalogArgs),
     /// Run the bundled, invented scenario end to end and print the comparison.
     Demo(DemoArgs),
     /// Is a lead between two shares of one poll larger than its margin of error?
@@ -404,7 +406,8 @@ pub struct ColumnArgs {
     #[arg(long, value_name = "NAME|INDEX", help_heading = "Reading")]
     pub sheet: Option<String>,
 
-    /// Spreadsheet input: the row that holds the header (default: found past title rows).
+    /// The line (or spreadsheet row) that holds the header (default: found by structure, past
+    /// title and source lines).
     #[arg(long, value_name = "N", help_heading = "Reading")]
     pub header_row: Option<usize>,
 
@@ -466,6 +469,25 @@ pub struct RefsArgs {
     pub dir: PathBuf,
 
     /// Alias files whose names the reference tables may use.
+    #[arg(long, value_name = "FILE")]
+    pub aliases: Vec<PathBuf>,
+}
+
+#[derive(Debug, Args)]
+pub struct CatalogArgs {
+    /// Folder of downloaded tables (.csv, .tsv) as the sources publish them.
+    #[arg(value_name = "DIR")]
+    pub dir: PathBuf,
+
+    /// Write the draft to FILE instead of DIR/datapackage.json.
+    #[arg(short = 'o', long = "output", value_name = "FILE")]
+    pub output: Option<PathBuf>,
+
+    /// Replace an existing catalog.
+    #[arg(long)]
+    pub force: bool,
+
+    /// Alias files whose names the tables may use.
     #[arg(long, value_name = "FILE")]
     pub aliases: Vec<PathBuf>,
 }

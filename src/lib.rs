@@ -84,6 +84,24 @@ pub fn run(cli: Cli) -> Result<Outcome> {
                 Outcome::Ok
             })
         }
+        Command::Catalog(args) => {
+            let mut resolver = entity::Resolver::builtin();
+            for path in &args.aliases {
+                resolver.add_alias_file(path)?;
+            }
+            let drafted = reference::draft::draft(&args.dir, &resolver)?;
+            let path =
+                reference::draft::write(&args.dir, args.output.as_deref(), args.force, &drafted)?;
+            for line in &drafted.lines {
+                eprintln!("  {line}");
+            }
+            eprintln!(
+                "wrote a draft catalog to {}: review each resource (kind, unit, vintage, sources), then run `levelfield refs {}`",
+                path.display(),
+                args.dir.display()
+            );
+            Ok(Outcome::Ok)
+        }
         Command::Demo(args) => demo::run(&args),
         Command::Audit(args) => {
             let plan = plan::resolve_audit(&args)?;

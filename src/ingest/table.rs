@@ -37,6 +37,8 @@ pub struct TextTable {
     pub trailing_delimiter: bool,
     /// Dimension columns of a statistics-office TSV (indices into `headers`), empty otherwise.
     pub dimensions: Vec<usize>,
+    /// The cells of the filled lines above the header (titles, "Data Source", "Last Updated").
+    pub above: Vec<Vec<String>>,
 }
 
 #[derive(Debug, Clone)]
@@ -237,6 +239,11 @@ pub fn find_table(
             )
         })
         .collect();
+    let above: Vec<Vec<String>> = all[..header_index]
+        .iter()
+        .filter(|r| r.filled() > 0)
+        .map(|r| r.record.iter().map(|c| c.trim().to_string()).collect())
+        .collect();
     let blank_above = header_line
         .saturating_sub(1 + options.line_offset)
         .saturating_sub(header_index);
@@ -310,6 +317,7 @@ pub fn find_table(
         header_reason,
         trailing_delimiter,
         dimensions,
+        above,
     })
 }
 

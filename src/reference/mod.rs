@@ -6,6 +6,7 @@
 
 pub mod catalog;
 pub mod coverage;
+pub mod draft;
 pub mod sdmx;
 pub mod table;
 

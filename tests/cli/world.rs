@@ -261,3 +261,59 @@ fn reference_errors_name_the_catalog_key_that_fixes_them() {
         run.stderr
     );
 }
+
+#[test]
+fn a_drafted_catalog_for_downloaded_files_runs_without_edits_where_the_files_state_their_kind() {
+    let env = setup();
+    let folder = env.path("downloads");
+    std::fs::create_dir(&folder).unwrap();
+    let source = env.repo.join("tests/data/world");
+    for file in ["ppp.csv", "population.csv", "fx.csv"] {
+        std::fs::copy(source.join("wb-bulk").join(file), folder.join(file)).unwrap();
+    }
+    let dir = folder.display().to_string();
+    let run = env.run(&["catalog", &dir]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert!(
+        run.stderr
+            .contains("kind ppp, from \"PPP conversion factor"),
+        "{}",
+        run.stderr
+    );
+    let catalog = std::fs::read_to_string(folder.join("datapackage.json")).unwrap();
+    assert!(catalog.contains("\"vintage\": \"2024-06-28\""), "{catalog}");
+    // A second run does not replace the catalog the user may have edited.
+    let again = env.run(&["catalog", &dir]);
+    assert_eq!(again.code, 2);
+    assert!(again.stderr.contains("exists already"), "{}", again.stderr);
+    let input = source.join("gdp-long-titled.csv").display().to_string();
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &dir,
+        "--steps",
+        "ppp,per-capita",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(check_against_published(&env, &run, false), 120);
+
+    // A file that does not say what it measures gets an empty kind, and the summary says so.
+    std::fs::copy(source.join("sdmx/ppp-v1.csv"), folder.join("agency.csv")).unwrap();
+    let run = env.run(&[
+        "catalog",
+        &dir,
+        "-o",
+        &env.path("draft.json").display().to_string(),
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    assert!(
+        run.stderr
+            .contains("agency.csv: header line 1; SDMX-CSV; KIND LEFT EMPTY"),
+        "{}",
+        run.stderr
+    );
+    let draft = std::fs::read_to_string(env.path("draft.json")).unwrap();
+    assert!(draft.contains("\"kind\": \"\""), "{draft}");
+}
