@@ -15,6 +15,9 @@ pub struct AttachSettings {
     pub base_year: Option<i32>,
     pub nearest_year: u32,
     pub base_currency: String,
+    /// One kind's row-year factors are taken this many years from the row's year (None but in
+    /// the audit's neighbouring-year diagnosis).
+    pub year_offset: Option<(crate::reference::Kind, i32)>,
 }
 
 /// The entity whose CPI stands for the base currency. The euro has no single country, so its
@@ -90,8 +93,12 @@ pub fn lookup_frame(
         let mut used: Vec<Option<f64>> = Vec::with_capacity(n);
         let mut years: Vec<Option<i32>> = Vec::with_capacity(n);
         for (i, (code, row_year)) in keys.iter().enumerate() {
+            let offset = match settings.year_offset {
+                Some((kind, d)) if kind == need.kind => d,
+                _ => 0,
+            };
             let year = match need.at {
-                At::RowYear => *row_year,
+                At::RowYear => *row_year + offset,
                 At::BaseYear => settings.base_year.unwrap_or(*row_year),
             };
             let entity = home.unwrap_or(code.as_str());

@@ -70,10 +70,20 @@ pub struct AuditArgs {
     #[arg(long, value_name = "DIR")]
     pub refs: PathBuf,
 
-    /// What a column claims, ROLE=COL (repeatable). Roles: usd, intl, real, per-capita, share,
-    /// change, rank. Without --claim, roles are suggested by header words and the report says so.
+    /// What a column claims, ROLE=COL (repeatable). Roles: usd, intl, real, per-capita,
+    /// per-income (steps, chained with + in the order applied: real+intl+per-capita), share,
+    /// change, rank (ranks follow the longest route claimed). Without --claim, roles are
+    /// suggested by header words and the report says so.
     #[arg(long, value_name = "ROLE=COL")]
     pub claim: Vec<String>,
+
+    /// How per-income claims state affordability.
+    #[arg(long, value_enum, default_value_t = IncomeAs::Share)]
+    pub income_as: IncomeAs,
+
+    /// Accept a reference factor up to N years from the figure's year, as adjust does.
+    #[arg(long, default_value_t = 0, value_name = "N")]
+    pub nearest_year: u32,
 
     /// Base year of `real` claims.
     #[arg(long, value_name = "YYYY")]

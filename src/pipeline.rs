@@ -35,6 +35,9 @@ pub struct PipelineSettings {
     /// Plan the tracks as if some row were in the base currency (`--streaming` sets it when
     /// any piece of the file holds such a row, so every piece has the same columns).
     pub assume_base_rows: bool,
+    /// Take one kind's row-year factors from this many years away (the audit's
+    /// neighbouring-year diagnosis; None for every adjustment).
+    pub factor_year_offset: Option<(crate::reference::Kind, i32)>,
 }
 
 impl std::fmt::Debug for dyn Step {
@@ -249,6 +252,15 @@ pub(crate) fn prepare(
         ],
     )
     .map_err(Error::engine("building the input frame"))?;
+    // Columns carried as text for the audit (claimed figures, notes), with each row's line.
+    let carried = carried_columns(rows, settings.ingest.extra_columns.len());
+    let carried_names: Vec<String> = carried.iter().map(|c| c.name().to_string()).collect();
+    let mut frame = frame;
+    for column in carried {
+        frame
+            .with_column(column)
+            .map_err(Error::engine("building the input frame"))?;
+    }
 
     // Both tracks, built as expressions; the factors they name are collected in `needs`.
     let start_unit = if whole_table_in_base {
@@ -289,6 +301,7 @@ pub(crate) fn prepare(
             base_year: settings.step_settings.base_year,
             nearest_year: settings.nearest_year,
             base_currency: base_currency.clone(),
+            year_offset: settings.factor_year_offset,
         },
     )?;
     let mut lf = frame.lazy().join(
@@ -333,6 +346,7 @@ pub(crate) fn prepare(
     if settings.intervals.is_some() {
         head.extend(["moe_baseline", "moe_adjusted", "ci_low", "ci_high"].map(String::from));
     }
+    head.extend(carried_names);
     ingested.rows = Vec::new();
     Ok(Prepared {
         lf,
@@ -344,6 +358,27 @@ pub(crate) fn prepare(
         any_base,
         missing_tables: missing_tables.into_iter().collect(),
     })
+}
+
+/// `_line` and `_extra_0`, `_extra_1`, ...: the rows' lines and the text of
+/// `IngestOptions::extra_columns` (none when no extra column is asked for).
+fn carried_columns(rows: &[ingest::CanonicalRow], extras: usize) -> Vec<Column> {
+    if extras == 0 {
+        return Vec::new();
+    }
+    let mut columns = vec![Column::new(
+        "_line".into(),
+        rows.iter().map(|r| r.line as u64).collect::<Vec<u64>>(),
+    )];
+    for i in 0..extras {
+        columns.push(Column::new(
+            format!("_extra_{i}").into(),
+            rows.iter()
+                .map(|r| r.extra.get(i).map(String::as_str).unwrap_or(""))
+                .collect::<Vec<&str>>(),
+        ));
+    }
+    columns
 }
 
 /// Ranks per group and year, the shift, and the flags column.

@@ -137,23 +137,7 @@ pub fn pipeline_settings(
     ingest: IngestOptions,
     references: Option<&References>,
 ) -> PipelineSettings {
-    let base_currency = references
-        .and_then(|r| r.get(Kind::Ppp).or(r.get(Kind::Fx)))
-        .map(|t| t.resource.base_currency.clone())
-        .unwrap_or_else(|| "USD".into());
-    let income_basis = references
-        .and_then(|r| r.get(Kind::Income))
-        .map(|t| t.resource.basis)
-        .unwrap_or(Basis::Lcu);
-    let uncertain_factors: std::collections::BTreeSet<Kind> = references
-        .map(|r| {
-            r.tables
-                .iter()
-                .filter(|t| t.has_margins())
-                .map(|t| t.resource.kind)
-                .collect()
-        })
-        .unwrap_or_default();
+    let (base_currency, income_basis, uncertain_factors) = reference_facts(references);
     let u = &args.uncertainty;
     let has_margins = ingest.margins != MarginSpec::None || !uncertain_factors.is_empty();
     let intervals = has_margins.then(|| IntervalSettings {
@@ -186,7 +170,33 @@ pub fn pipeline_settings(
         order: args.order,
         intervals,
         assume_base_rows: false,
+        factor_year_offset: None,
     }
+}
+
+/// What the steps take from the catalog: the base currency, the income table's basis, and the
+/// kinds whose tables carry margins.
+fn reference_facts(
+    references: Option<&References>,
+) -> (String, Basis, std::collections::BTreeSet<Kind>) {
+    let base_currency = references
+        .and_then(|r| r.get(Kind::Ppp).or(r.get(Kind::Fx)))
+        .map(|t| t.resource.base_currency.clone())
+        .unwrap_or_else(|| "USD".into());
+    let income_basis = references
+        .and_then(|r| r.get(Kind::Income))
+        .map(|t| t.resource.basis)
+        .unwrap_or(Basis::Lcu);
+    let uncertain_factors = references
+        .map(|r| {
+            r.tables
+                .iter()
+                .filter(|t| t.has_margins())
+                .map(|t| t.resource.kind)
+                .collect()
+        })
+        .unwrap_or_default();
+    (base_currency, income_basis, uncertain_factors)
 }
 
 /// A resolved audit: input read, aliases and references loaded, claims parsed.
@@ -221,18 +231,38 @@ pub fn resolve_audit(args: &crate::cli::AuditArgs) -> Result<AuditPlan> {
     if ingest.roles.layout == LayoutChoice::Auto {
         ingest.roles.layout = LayoutChoice::Long;
     }
+    // The engine's settings, as `adjust` would build them; each claim brings its steps. Margins
+    // are not read: the audit compares figures, not intervals.
+    let (base_currency, income_basis, _) = reference_facts(Some(&references));
+    let pipeline = PipelineSettings {
+        ingest,
+        steps: Vec::new(),
+        step_settings: StepSettings {
+            base_year: args.base_year,
+            deflator: None,
+            per: args.per,
+            income_as: args.income_as,
+            income_basis,
+            base_currency,
+            proportion: false,
+            uncertain_factors: Default::default(),
+        },
+        nearest_year: args.nearest_year,
+        allow_unresolved: args.allow_unresolved,
+        rank_aggregates: false,
+        order: args.order,
+        intervals: None,
+        assume_base_rows: false,
+        factor_year_offset: None,
+    };
     Ok(AuditPlan {
         input_bytes,
         input_label,
         settings: crate::audit::AuditSettings {
-            ingest,
+            pipeline,
             claims,
-            base_year: args.base_year,
-            per: args.per,
-            order: args.order,
             notes,
             min_n: args.min_n,
-            allow_unresolved: args.allow_unresolved,
         },
         resolver,
         references,

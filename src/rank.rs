@@ -33,23 +33,50 @@ pub fn rank_columns(
     } else {
         rankable.and(col("value_baseline").is_not_null())
     };
-    let options = RankOptions {
-        method: RankMethod::Min,
-        descending: order == Order::Desc,
-    };
     let rank_of = |column: &str| -> PolarsResult<Expr> {
         let masked = when(rankable.clone())
             .then(col(column))
             .otherwise(lit(NULL).cast(DataType::Float64));
-        Ok(masked
-            .rank(options, None)
-            .over(partition)?
-            .cast(DataType::Int64))
+        rank_within(masked, order, partition)
     };
     Ok(vec![
         rank_of("value_baseline")?.alias("rank_baseline"),
         rank_of("value_adjusted")?.alias("rank_adjusted"),
     ])
+}
+
+/// Standard competition ranks of `values` (null: not ranked) within `partition`, as Int64.
+/// The one ranking rule of the tool: `adjust` ranks with it and `audit` checks with it.
+pub fn rank_within(values: Expr, order: Order, partition: &[Expr]) -> PolarsResult<Expr> {
+    let options = RankOptions {
+        method: RankMethod::Min,
+        descending: order == Order::Desc,
+    };
+    Ok(values
+        .rank(options, None)
+        .over(partition)?
+        .cast(DataType::Int64))
+}
+
+/// Standard competition ranks of plain values within their keys (the audit's comparisons).
+pub fn ranks_of(
+    values: Vec<Option<f64>>,
+    keys: Vec<String>,
+    order: Order,
+) -> PolarsResult<Vec<Option<i64>>> {
+    let n = values.len();
+    let frame = DataFrame::new(
+        n,
+        vec![
+            Column::new("v".into(), values),
+            Column::new("k".into(), keys),
+        ],
+    )?;
+    let ranked = frame
+        .lazy()
+        .select([rank_within(col("v"), order, &[col("k")])?.alias("r")])
+        .collect()?;
+    Ok(ranked.column("r")?.i64()?.iter().collect())
 }
 
 /// `rank_shift` = rank_baseline − rank_adjusted: positive means the row moved up.
@@ -121,6 +148,21 @@ mod tests {
         let values = [Some(10.0), None, Some(30.0), Some(20.0)];
         let (desc, _) = ranks(&values, &[true, true, false, true], &["g"; 4], Order::Desc);
         assert_eq!(desc, vec![Some(2), None, None, Some(1)]);
+    }
+
+    #[test]
+    fn plain_values_rank_within_their_keys() {
+        // Standard competition ranking, "1224" (common practice, no source).
+        let ranks = ranks_of(
+            vec![Some(3.0), Some(5.0), Some(5.0), None, Some(1.0), Some(9.0)],
+            ["a", "a", "a", "a", "a", "b"].map(String::from).to_vec(),
+            Order::Desc,
+        )
+        .unwrap();
+        assert_eq!(
+            ranks,
+            vec![Some(3), Some(1), Some(1), None, Some(4), Some(1)]
+        );
     }
 
     #[test]

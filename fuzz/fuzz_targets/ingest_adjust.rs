@@ -36,6 +36,7 @@ fn setup() -> (Resolver, References, PipelineSettings) {
         order: Order::Desc,
         intervals: None,
         assume_base_rows: false,
+        factor_year_offset: None,
     };
     (resolver, references, settings)
 }

@@ -3,25 +3,28 @@
 
 use crate::error::{Error, Result};
 
-/// The kinds of claimed figures `audit` can recompute.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, serde::Serialize)]
+/// The kinds of claimed figures `audit` can recompute. The first five are adjustment steps of
+/// the engine (`adjust::STEPS`); share, change and rank are comparisons within the table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Role {
     Usd,
     Intl,
     Real,
     PerCapita,
+    PerIncome,
     Share,
     Change,
     Rank,
 }
 
 impl Role {
-    pub const ALL: [Role; 7] = [
+    pub const ALL: [Role; 8] = [
         Role::Usd,
         Role::Intl,
         Role::Real,
         Role::PerCapita,
+        Role::PerIncome,
         Role::Share,
         Role::Change,
         Role::Rank,
@@ -33,6 +36,7 @@ impl Role {
             Role::Intl => "intl",
             Role::Real => "real",
             Role::PerCapita => "per-capita",
+            Role::PerIncome => "per-income",
             Role::Share => "share",
             Role::Change => "change",
             Role::Rank => "rank",
@@ -45,44 +49,102 @@ impl Role {
             Role::Intl => "international dollars (PPP)",
             Role::Real => "base-year prices",
             Role::PerCapita => "per capita",
+            Role::PerIncome => "relative to income per capita",
             Role::Share => "percentage share of the group total",
             Role::Change => "percent change from the previous year",
             Role::Rank => "rank",
         }
     }
 
+    /// The adjustment step that makes a figure of this role (the same step `adjust` runs).
+    pub fn step(self) -> Option<&'static str> {
+        match self {
+            Role::Usd => Some("market"),
+            Role::Intl => Some("ppp"),
+            Role::Real => Some("deflate"),
+            Role::PerCapita => Some("per-capita"),
+            Role::PerIncome => Some("per-income"),
+            Role::Share | Role::Change | Role::Rank => None,
+        }
+    }
+
     fn parse(text: &str) -> Option<Role> {
+        let text = text.trim().to_lowercase();
         Role::ALL
             .into_iter()
-            .find(|r| r.name() == text.trim().to_lowercase())
+            .find(|r| r.name() == text || r.step() == Some(text.as_str()))
     }
 }
 
-/// One claimed column.
+/// One claimed column: the route of steps that made it (`intl`, `real+intl+per-capita`), or a
+/// comparison role alone (share, change, rank).
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
 pub struct Claim {
-    pub role: Role,
+    pub route: Vec<Role>,
     pub column: String,
     /// True when the role was read from the header rather than given with --claim.
     pub assumed: bool,
 }
 
-/// Parses `ROLE=COL`.
+impl Claim {
+    /// The route as written: `real+intl`.
+    pub fn name(&self) -> String {
+        self.route
+            .iter()
+            .map(|r| r.name())
+            .collect::<Vec<_>>()
+            .join("+")
+    }
+
+    /// The role of the figure: the last step of the route.
+    pub fn role(&self) -> Role {
+        *self.route.last().unwrap_or(&Role::Rank)
+    }
+
+    /// The engine's step names of the route (empty for share, change and rank).
+    pub fn steps(&self) -> Vec<&'static str> {
+        self.route.iter().filter_map(|r| r.step()).collect()
+    }
+
+    pub fn describe(&self) -> String {
+        self.route
+            .iter()
+            .map(|r| r.describe())
+            .collect::<Vec<_>>()
+            .join(", then ")
+    }
+}
+
+/// Parses `ROUTE=COL`, where ROUTE is one role or steps joined by `+`.
 pub fn parse_claim(text: &str) -> Result<Claim> {
-    let (role, column) = text.split_once('=').ok_or_else(|| {
+    let (route, column) = text.split_once('=').ok_or_else(|| {
         Error::usage(
             format!("--claim \"{text}\" is not ROLE=COL"),
-            "write for example --claim intl=\"Fee (PPP $)\"",
+            "write for example --claim intl=\"Fee (PPP $)\" or --claim real+intl=fee_ppp_2023",
         )
     })?;
-    let role = Role::parse(role).ok_or_else(|| {
-        Error::usage(
-            format!("unknown claim role \"{role}\""),
-            format!("use one of {}", Role::ALL.map(Role::name).join(", ")),
-        )
-    })?;
+    let roles = route
+        .split('+')
+        .map(|part| {
+            Role::parse(part).ok_or_else(|| {
+                Error::usage(
+                    format!("unknown claim role \"{}\"", part.trim()),
+                    format!(
+                        "use one of {} (steps may be chained with +, as in real+intl)",
+                        Role::ALL.map(Role::name).join(", ")
+                    ),
+                )
+            })
+        })
+        .collect::<Result<Vec<_>>>()?;
+    if roles.len() > 1 && roles.iter().any(|r| r.step().is_none()) {
+        return Err(Error::usage(
+            format!("--claim \"{route}\" chains share, change or rank with other roles"),
+            "chain only the steps usd, intl, real, per-capita and per-income; give share, change and rank on their own",
+        ));
+    }
     Ok(Claim {
-        role,
+        route: roles,
         column: column.trim().to_string(),
         assumed: false,
     })
@@ -118,9 +180,9 @@ pub fn suggest(headers: &[String], taken: &[String]) -> Vec<Claim> {
             None
         };
         if let Some(role) = role {
-            if !out.iter().any(|c| c.role == role) {
+            if !out.iter().any(|c| c.route == [role]) {
                 out.push(Claim {
-                    role,
+                    route: vec![role],
                     column: header.clone(),
                     assumed: true,
                 });
@@ -168,15 +230,19 @@ mod tests {
 
     #[test]
     fn claims_parse_and_header_words_suggest_roles() {
-        assert_eq!(parse_claim("intl=Fee PPP").unwrap().role, Role::Intl);
+        assert_eq!(parse_claim("intl=Fee PPP").unwrap().route, vec![Role::Intl]);
+        let chained = parse_claim("real+ppp+per-capita=x").unwrap();
+        assert_eq!(chained.steps(), vec!["deflate", "ppp", "per-capita"]);
+        assert_eq!(chained.name(), "real+intl+per-capita");
         assert!(parse_claim("gdp=x").is_err());
         assert!(parse_claim("intl").is_err());
+        assert!(parse_claim("intl+rank=x").is_err());
         let headers: Vec<String> = ["country", "fee", "Fee (PPP $)", "Rank", "Fee, US$"]
             .map(String::from)
             .to_vec();
         let roles: Vec<Role> = suggest(&headers, &["country".into(), "fee".into()])
             .iter()
-            .map(|c| c.role)
+            .map(|c| c.role())
             .collect();
         assert_eq!(roles, vec![Role::Intl, Role::Rank, Role::Usd]);
     }

@@ -1,21 +1,22 @@
-//! `levelfield audit`: recompute what a received table claims from its raw figures and the
-//! user's reference tables, explain every claim that does not hold, and gate publication with an
-//! exit code.
+//! `levelfield audit`: recompute what a received table claims with the adjust engine itself,
+//! explain every claim that does not hold, and gate publication with an exit code.
 //!
-//! - `claims`: claim roles, header suggestions, the rounding tolerance
-//! - `recompute`: the figure each claim should have, and the diagnoses for a mismatch
+//! - `claims`: claim roles and routes (`intl`, `real+intl+per-capita`), header suggestions, the
+//!   rounding rule
+//! - `routes`: a claim's route run through `pipeline::run_adjust` (and the variants diagnoses need)
+//! - `checks`: tolerance, comparison, diagnoses, ranks, coverage and provenance
 //! - `report`: the findings as a terminal report, a Markdown memo or JSON
 
+pub mod checks;
 pub mod claims;
-pub mod recompute;
 pub mod report;
+pub mod routes;
 
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::ingest::{self, IngestOptions};
-use crate::rank::Order;
+use crate::pipeline::PipelineSettings;
 use crate::reference::References;
-use crate::resolve::{self, ResolveOptions};
 use claims::{Claim, Role};
 
 /// How serious a finding is. Ordered from most to least serious.
@@ -24,7 +25,7 @@ use claims::{Claim, Role};
 pub enum Severity {
     /// A claim that does not hold.
     Error,
-    /// Coverage problems: missing factors, mixed years, currency mismatches, shares off 100.
+    /// Coverage problems: missing factors, mixed years, currencies no step converts, shares off 100.
     Warning,
     /// Provenance notes: small samples, missing or narrow sources.
     Caution,
@@ -97,16 +98,14 @@ impl NoteColumns {
     }
 }
 
+/// The audit's settings: the engine's (the same as `adjust` would use, without steps: each
+/// claim brings its route), the claims and the provenance checks.
 #[derive(Debug, Clone)]
 pub struct AuditSettings {
-    pub ingest: IngestOptions,
+    pub pipeline: PipelineSettings,
     pub claims: Vec<Claim>,
-    pub base_year: Option<i32>,
-    pub per: u32,
-    pub order: Order,
     pub notes: NoteColumns,
     pub min_n: f64,
-    pub allow_unresolved: bool,
 }
 
 /// The audit's result.
@@ -134,45 +133,43 @@ pub fn run_audit(
     resolver: &Resolver,
     references: &References,
 ) -> Result<AuditReport> {
-    let mut options = settings.ingest.clone();
-    let mut claims = settings.claims.clone();
-    if claims.is_empty() {
-        claims = suggested_claims(bytes, label, &options)?;
-        if claims.is_empty() {
+    let mut settings = settings.clone();
+    if settings.claims.is_empty() {
+        settings.claims = suggested_claims(bytes, label, &settings.pipeline.ingest)?;
+        if settings.claims.is_empty() {
             return Err(Error::usage(
                 "no claimed column was given or recognised from the header",
-                "declare what the table claims with --claim ROLE=COL (roles: usd, intl, real, per-capita, share, change, rank)",
+                "declare what the table claims with --claim ROLE=COL (roles: usd, intl, real, per-capita, per-income, share, change, rank; steps chain with +, as in real+intl)",
             ));
         }
     }
-    if claims.iter().any(|c| c.role == Role::Real) && settings.base_year.is_none() {
+    if settings
+        .claims
+        .iter()
+        .any(|c| c.route.contains(&Role::Real))
+        && settings.pipeline.step_settings.base_year.is_none()
+    {
         return Err(Error::usage(
             "a real claim needs the base year of its prices",
             "pass --base-year YYYY",
         ));
     }
-    options.extra_columns = claims.iter().map(|c| c.column.clone()).collect();
-    options.extra_columns.extend(settings.notes.columns());
-    let mut ingested = ingest::ingest(bytes, label, &options, Some(resolver))?;
-    let (entities, _) = resolve::resolve_rows(
-        &mut ingested,
-        resolver,
-        &ResolveOptions {
-            allow_unresolved: settings.allow_unresolved,
-            rank_aggregates: true,
-            base_currency: "USD",
-        },
-    )?;
-    let context = recompute::Context::new(&ingested, &entities, &claims, settings, references);
-    let mut findings = context.check_claims();
-    findings.extend(context.check_coverage());
-    findings.extend(context.check_provenance());
+    let ingest = &mut settings.pipeline.ingest;
+    ingest.extra_columns = settings.claims.iter().map(|c| c.column.clone()).collect();
+    ingest.extra_columns.extend(settings.notes.columns());
+    let cells = ingest.extra_columns.len();
+    let engine = routes::Engine::new(bytes, label, &settings.pipeline, resolver, references);
+    let rows = engine.rows(cells)?;
+    let checks = checks::Checks::new(rows, &settings.claims, &settings, &engine);
+    let mut findings = checks.check_claims()?;
+    findings.extend(checks.check_coverage()?);
+    findings.extend(checks.check_provenance());
     findings.sort_by(|a, b| a.severity.cmp(&b.severity).then(a.line.cmp(&b.line)));
     Ok(AuditReport {
         input: label.to_string(),
-        rows: ingested.rows.len(),
-        claims_checked: context.claims_checked(),
-        claims,
+        rows: checks.rows.len(),
+        claims_checked: checks.claims_checked(),
+        claims: settings.claims.clone(),
         findings,
         references: references.describe(),
     })

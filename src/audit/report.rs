@@ -32,7 +32,7 @@ fn headline(report: &AuditReport) -> String {
         .map(|c| {
             format!(
                 "{} = \"{}\"{}",
-                c.role.name(),
+                c.name(),
                 c.column,
                 if c.assumed {
                     " (assumed from the header; --claim to override)"

@@ -119,6 +119,25 @@ fn group_thousands(text: &str) -> String {
     format!("{sign}{grouped}{fraction}")
 }
 
+/// A float column's cells (all null when the column is absent).
+pub fn floats(frame: &DataFrame, name: &str) -> Vec<Option<f64>> {
+    frame
+        .column(name)
+        .ok()
+        .and_then(|c| c.f64().ok().map(|ca| ca.iter().collect()))
+        .unwrap_or_else(|| vec![None; frame.height()])
+}
+
+/// An integer column's cells as i64 (all null when the column is absent).
+pub fn ints(frame: &DataFrame, name: &str) -> Vec<Option<i64>> {
+    frame
+        .column(name)
+        .ok()
+        .and_then(|c| c.cast(&DataType::Int64).ok())
+        .and_then(|c| c.i64().ok().map(|ca| ca.iter().collect()))
+        .unwrap_or_else(|| vec![None; frame.height()])
+}
+
 /// A column as text cells (empty for null).
 pub fn column_texts(
     frame: &DataFrame,

@@ -5,7 +5,7 @@
 use crate::error::{Error, Result};
 use crate::pipeline::RunSummary;
 use crate::report::charts::{self, Point};
-use crate::report::format::{column_texts, Rounding};
+use crate::report::format::{column_texts, floats, ints, Rounding};
 use crate::report::methods::MethodsNote;
 use polars::prelude::*;
 use std::collections::BTreeMap;
@@ -35,23 +35,6 @@ fn escape(text: &str) -> String {
         .replace('<', "&lt;")
         .replace('>', "&gt;")
         .replace('"', "&quot;")
-}
-
-fn floats(frame: &DataFrame, name: &str) -> Vec<Option<f64>> {
-    frame
-        .column(name)
-        .ok()
-        .and_then(|c| c.f64().ok().map(|ca| ca.iter().collect()))
-        .unwrap_or_else(|| vec![None; frame.height()])
-}
-
-fn ints(frame: &DataFrame, name: &str) -> Vec<Option<i64>> {
-    frame
-        .column(name)
-        .ok()
-        .and_then(|c| c.cast(&DataType::Int64).ok())
-        .and_then(|c| c.i64().ok().map(|ca| ca.iter().collect()))
-        .unwrap_or_else(|| vec![None; frame.height()])
 }
 
 /// Chart points per (group, year), ranked rows only.

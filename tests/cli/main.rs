@@ -4,6 +4,7 @@
 
 mod adjust;
 mod audit;
+mod audit_engine;
 mod browser;
 mod corpus;
 mod errors;

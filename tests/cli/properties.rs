@@ -45,6 +45,7 @@ fn settings(steps: &[&str]) -> PipelineSettings {
         order: Order::Desc,
         intervals: None,
         assume_base_rows: false,
+        factor_year_offset: None,
     }
 }
 
