@@ -387,14 +387,20 @@ pub(crate) fn with_ranks_and_flags(
     settings: &PipelineSettings,
     baseline_missing: bool,
 ) -> Result<LazyFrame> {
+    let entity = coalesce(&[col("entity_code"), col("entity_input")]);
+    let several = rank::several_series(&[entity, col("group"), col("year")])
+        .map_err(Error::engine("ranking"))?;
     let ranks = rank::rank_columns(
         settings.order,
-        col("_rank_eligible"),
+        col("_rank_eligible").and(col("_several").not()),
         &[col("group"), col("year")],
         baseline_missing,
     )
     .map_err(Error::engine("ranking"))?;
-    Ok(with_flags(lf.with_columns(ranks), baseline_missing))
+    Ok(with_flags(
+        lf.with_column(several).with_columns(ranks),
+        baseline_missing,
+    ))
 }
 
 /// The shift and the flags column, once `rank_baseline` and `rank_adjusted` are there.
@@ -407,12 +413,16 @@ pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
     } else {
         lit(NULL).cast(DataType::String)
     };
+    let several = when(col("_several"))
+        .then(lit(flags::SEVERAL_SERIES))
+        .otherwise(lit(NULL).cast(DataType::String));
     lf.with_column(rank::shift_column()).with_column(
         concat_str(
             [
                 col("_flags_pre"),
                 col("_factor_flags"),
                 no_baseline,
+                several,
                 not_ranked,
             ],
             ";",
@@ -567,6 +577,12 @@ pub(crate) fn summarize(
             settings.step_settings.per
         ));
     }
+    let mut warnings: Vec<String> = references.map(|r| r.warnings()).unwrap_or_default();
+    if let Some(n) = counts.by_flag.get(flags::SEVERAL_SERIES) {
+        warnings.push(format!(
+            "{n} row(s) share their entity, group and year with another row: the table holds several series, so those rows are not ranked (flag several_series); pass --group COL with the column that tells the series apart (see the columns not used above)"
+        ));
+    }
     let mut notes = reading_notes;
     if settings.ingest.currency_code.is_none()
         && settings.ingest.roles.currency.is_none()
@@ -594,7 +610,7 @@ pub(crate) fn summarize(
         notes,
         method_notes,
         references: references.map(|r| r.describe()).unwrap_or_default(),
-        warnings: references.map(|r| r.warnings()).unwrap_or_default(),
+        warnings,
         baseline_unit: describe_track(&baseline_names, &settings.step_settings, starts_in_base),
         adjusted_unit: describe_track(&names, &settings.step_settings, starts_in_base),
     }

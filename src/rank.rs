@@ -79,6 +79,13 @@ pub fn ranks_of(
     Ok(ranked.column("r")?.i64()?.iter().collect())
 }
 
+/// `_several`: the row shares its entity, group and year with another row. Such a table holds
+/// several series in one ranking (a bulk export with two indicators, say), so those rows are
+/// not ranked against each other.
+pub fn several_series(key: &[Expr]) -> PolarsResult<Expr> {
+    Ok(len().over(key)?.gt(lit(1)).alias("_several"))
+}
+
 /// `rank_shift` = rank_baseline − rank_adjusted: positive means the row moved up.
 pub fn shift_column() -> Expr {
     (col("rank_baseline") - col("rank_adjusted")).alias("rank_shift")

@@ -219,6 +219,7 @@ fn run(
     let mut spilled: Vec<Spilled> = Vec::new();
     let mut narrow: Vec<DataFrame> = Vec::new();
     let mut groups: HashMap<String, u32> = HashMap::new();
+    let mut entities: HashMap<String, u32> = HashMap::new();
     let mut lines_before = 0usize;
     let mut rows_before = 0usize;
     let mut ord = 0u64;
@@ -323,7 +324,7 @@ fn run(
                 ComputeError: "{} rows in, {} rows out", prepared.rows_in, frame.height()
             )));
         }
-        narrow.push(rank_inputs(&frame, &mut groups)?);
+        narrow.push(rank_inputs(&frame, &mut groups, &mut entities)?);
         let path = spill_dir
             .path()
             .join(format!("piece-{:05}.parquet", spilled.len()));
@@ -356,9 +357,14 @@ fn run(
 
     // Ranks, once, over the narrow columns of every piece.
     let narrow = concat_frames(narrow)?;
+    let several = crate::rank::several_series(&[col("_e"), col("_g"), col("year")])
+        .map_err(Error::engine("ranking"))?;
+    let mut rank_columns = rank_exprs(settings, !missing_tables.is_empty())?;
+    rank_columns.push(col("_several"));
     let ranks = narrow
         .lazy()
-        .select(rank_exprs(settings, !missing_tables.is_empty())?)
+        .with_column(several)
+        .select(rank_columns)
         .collect()
         .map_err(Error::engine("ranking"))?;
     let rows_in = ord as usize;
@@ -461,24 +467,32 @@ fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
 
 /// What ranks need of a piece: the group as a number, the year, and the two values, null where
 /// the row is not ranked.
-fn rank_inputs(frame: &DataFrame, groups: &mut HashMap<String, u32>) -> Result<DataFrame> {
-    let engine = Error::engine("collecting what ranks need");
-    let group = frame
-        .column("group")
-        .and_then(|c| c.str().cloned())
-        .map_err(engine)?;
-    let ids: Vec<Option<u32>> = group
-        .iter()
-        .map(|g| {
-            g.map(|g| {
-                let next = groups.len() as u32;
-                *groups.entry(g.to_string()).or_insert(next)
-            })
+fn rank_inputs(
+    frame: &DataFrame,
+    groups: &mut HashMap<String, u32>,
+    entities: &mut HashMap<String, u32>,
+) -> Result<DataFrame> {
+    let text = |name: &str| {
+        frame
+            .column(name)
+            .and_then(|c| c.str().cloned())
+            .map_err(Error::engine("collecting what ranks need"))
+    };
+    let id = |text: Option<&str>, ids: &mut HashMap<String, u32>| {
+        text.map(|t| {
+            let next = ids.len() as u32;
+            *ids.entry(t.to_string()).or_insert(next)
         })
+    };
+    let ids: Vec<Option<u32>> = text("group")?.iter().map(|g| id(g, groups)).collect();
+    let (codes, inputs) = (text("entity_code")?, text("entity_input")?);
+    let entity_ids: Vec<Option<u32>> = codes
+        .iter()
+        .zip(inputs.iter())
+        .map(|(code, input)| id(code.or(input), entities))
         .collect();
-    let eligible = col("_rank_eligible")
-        .and(col("value_adjusted").is_not_null())
-        .and(col("value_baseline").is_not_null());
+    // Only eligibility here: the ranks themselves decide whether a baseline is required.
+    let eligible = col("_rank_eligible");
     let masked = |name: &str| {
         when(eligible.clone())
             .then(col(name))
@@ -490,6 +504,7 @@ fn rank_inputs(frame: &DataFrame, groups: &mut HashMap<String, u32>) -> Result<D
         .lazy()
         .select([
             lit(Series::new("_g".into(), ids)).alias("_g"),
+            lit(Series::new("_e".into(), entity_ids)).alias("_e"),
             col("year"),
             masked("value_baseline"),
             masked("value_adjusted"),
@@ -502,7 +517,7 @@ fn rank_inputs(frame: &DataFrame, groups: &mut HashMap<String, u32>) -> Result<D
 fn rank_exprs(settings: &PipelineSettings, baseline_missing: bool) -> Result<Vec<Expr>> {
     crate::rank::rank_columns(
         settings.order,
-        lit(true),
+        col("_several").not(),
         &[col("_g"), col("year")],
         baseline_missing,
     )

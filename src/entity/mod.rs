@@ -34,6 +34,10 @@
 //!   and the South Sandwich Islands, and Zimbabwe (whose 2024 currency, ZWG, is not yet in
 //!   the ISO 4217 list shipped with iso-codes 4.15).
 //!
+//! Publishers' own codes are read where they name one entity beyond doubt (from memory of
+//! their conventions): Our World in Data's `OWID_WRL` (World) and `OWID_KOS` (Kosovo), and
+//! Eurostat's `EU27_2020`, `EU28`, `EA20` and `EA19`, kept as aggregates of their own.
+//!
 //! Kosovo (XKX) is the one country outside ISO 3166-1: the EU and the World Bank give it
 //! XKX, a code in the user-assigned range, and XK as its alpha-2 (common practice).
 

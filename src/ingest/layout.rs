@@ -22,6 +22,9 @@ pub enum LayoutChoice {
 pub struct Roles {
     pub entity: usize,
     pub entity_detected: EntityFound,
+    /// A name column beside a detected code column: rows whose code is empty (regions in some
+    /// publishers' tables) are read by their name.
+    pub entity_fallback: Option<usize>,
     pub group: Option<usize>,
     pub currency: Option<usize>,
     pub reserved: Vec<usize>,
@@ -187,6 +190,19 @@ const VALUE_NAMES: &[&str] = &[
 ];
 const YEAR_NAMES: &[&str] = &["year", "time", "time_period", "period"];
 
+/// The calendar years a table may hold: long historical series start before 1800, and a
+/// four-digit header beyond 2200 is more likely a code than a year.
+pub const YEARS: std::ops::RangeInclusive<i32> = 1000..=2200;
+
+/// Whether a header cell names a column the way headers do: an entity, year or value word.
+pub fn is_role_word(cell: &str) -> bool {
+    let lower = cell.trim().to_lowercase();
+    ENTITY_WORDS.iter().any(|w| lower.contains(w))
+        || ENTITY_NAMES.contains(&lower.as_str())
+        || VALUE_NAMES.contains(&lower.as_str())
+        || YEAR_NAMES.contains(&lower.as_str())
+}
+
 /// Reads a header as a year column: `2019`, ` 2019 `, `2019 [YR2019]`.
 pub fn header_year(header: &str) -> Option<i32> {
     let trimmed = header.trim();
@@ -199,7 +215,7 @@ pub fn header_year(header: &str) -> Option<i32> {
         return None;
     }
     let year: i32 = digits.parse().ok()?;
-    (1800..=2200).contains(&year).then_some(year)
+    YEARS.contains(&year).then_some(year)
 }
 
 pub fn assign_roles(
@@ -262,11 +278,12 @@ pub fn assign_roles(
         .collect::<Result<Vec<_>>>()?;
     taken.extend(reserved.iter().copied());
 
-    let (entity, entity_detected) = match &flags.entity {
-        Some(name) => (find(Role::Entity, name)?, EntityFound::Given),
+    let (entity, entity_detected, entity_fallback) = match &flags.entity {
+        Some(name) => (find(Role::Entity, name)?, EntityFound::Given, None),
         None => detect_entity(table, &taken, knobs, file, resolver)?,
     };
     taken.insert(entity);
+    taken.extend(entity_fallback);
 
     let shape = if wide {
         Shape::Wide { year_columns }
@@ -319,6 +336,7 @@ pub fn assign_roles(
     Ok(Roles {
         entity,
         entity_detected,
+        entity_fallback,
         group,
         currency,
         reserved,
@@ -374,7 +392,7 @@ fn detect_entity(
     knobs: &Knobs,
     file: &str,
     resolver: Option<&crate::entity::Resolver>,
-) -> Result<(usize, EntityFound)> {
+) -> Result<(usize, EntityFound, Option<usize>)> {
     let headers = &table.headers;
     let candidates: Vec<usize> = headers
         .iter()
@@ -387,16 +405,21 @@ fn detect_entity(
         })
         .map(|(i, _)| i)
         .collect();
-    // A code column is exact where a name column may be spelled many ways, so it wins.
-    let coded = candidates.iter().copied().find(|&i| {
+    // A code column is exact where a name column may be spelled many ways, so it wins; the
+    // name column beside it serves the rows whose code is empty.
+    let is_code = |i: usize| {
         let lower = headers[i].to_lowercase();
         CODE_WORDS.iter().any(|w| lower.contains(w))
-    });
-    if let Some(i) = coded.or(candidates.first().copied()) {
-        return Ok((i, EntityFound::Header));
+    };
+    let coded = candidates.iter().copied().find(|&i| is_code(i));
+    let named = candidates.iter().copied().find(|&i| !is_code(i));
+    match (coded, named) {
+        (Some(code), name) => return Ok((code, EntityFound::Header, name)),
+        (None, Some(name)) => return Ok((name, EntityFound::Header, None)),
+        (None, None) => {}
     }
     if let Some(i) = resolver.and_then(|r| entity_by_content(table, taken, r)) {
-        return Ok((i, EntityFound::Content));
+        return Ok((i, EntityFound::Content, None));
     }
     Err(Error::bad_input(
         Location::line(file, table.header_line),
@@ -500,7 +523,7 @@ pub fn parse_year_cell(text: &str) -> std::result::Result<Option<i32>, String> {
     let digits = trimmed.strip_suffix(".0").unwrap_or(trimmed);
     if digits.len() == 4 && digits.bytes().all(|b| b.is_ascii_digit()) {
         let year: i32 = digits.parse().map_err(|_| trimmed.to_string())?;
-        if (1800..=2200).contains(&year) {
+        if YEARS.contains(&year) {
             return Ok(Some(year));
         }
     }
@@ -539,7 +562,8 @@ mod tests {
         assert!(
             matches!(r.shape, Shape::Wide { ref year_columns } if year_columns == &vec![(2, 2019), (3, 2020)])
         );
-        assert_eq!(r.ignored, vec!["Country Name".to_string()]);
+        assert_eq!(r.entity_fallback, Some(0));
+        assert!(r.ignored.is_empty());
     }
 
     #[test]

@@ -146,15 +146,29 @@ pub fn ingest(
         ));
     }
 
-    let mut notes = vec![format!(
-        "read {file}: {}, {} delimiter, {} data line(s)",
-        decoded.description,
-        table::delimiter_name(delimiter),
-        table.records.len()
-    )];
+    let mut notes = vec![if decoded.encoding.is_some() {
+        format!(
+            "read {file}: {}, {} delimiter, {} data line(s)",
+            decoded.description,
+            table::delimiter_name(delimiter),
+            table.records.len()
+        )
+    } else {
+        format!(
+            "read {file}: {}, {} data line(s)",
+            decoded.description,
+            table.records.len()
+        )
+    }];
     notes.append(&mut sheet_notes);
     notes.extend(reading_notes(&table));
     let entity_column = table.headers[roles.entity].clone();
+    if let Some(name) = roles.entity_fallback {
+        notes.push(format!(
+            "rows with an empty \"{entity_column}\" are read by their \"{}\"",
+            table.headers[name]
+        ));
+    }
     notes.push(format!(
         "entity column: \"{entity_column}\"{}",
         match roles.entity_detected {
@@ -194,9 +208,6 @@ pub fn ingest(
     }
     if table.records.is_empty() {
         notes.push("the table has no data rows (only a header)".into());
-    }
-    if !roles.ignored.is_empty() {
-        notes.push(format!("columns not used: {}", roles.ignored.join(", ")));
     }
     if let Some(text) = options.margins.describe() {
         notes.push(format!("uncertainty: {text}"));
@@ -240,15 +251,32 @@ pub fn ingest(
             names.join(", ")
         ));
     }
+    let unused: Vec<String> = roles
+        .ignored
+        .iter()
+        .filter(|h| !auto_group.iter().any(|&d| &table.headers[d] == *h))
+        .cloned()
+        .collect();
+    if !unused.is_empty() {
+        notes.push(format!("columns not used: {}", layout::list(&unused)));
+    }
     let reader = RowReader {
         file,
         options,
         currency_code: currency_code.as_deref(),
     };
+    let marks = RecordMarks::find(&table, &roles);
+    notes.extend(marks.describe(&table));
     let mut rows = Vec::new();
     for (index, record) in table.records.iter().enumerate() {
         let data_row = index + 1 + options.row_offset;
-        let entity_input = record.cells[roles.entity].to_string();
+        let entity_input = match roles.entity_fallback {
+            Some(name) if record.cells[roles.entity].trim().is_empty() => {
+                record.cells[name].to_string()
+            }
+            _ => record.cells[roles.entity].to_string(),
+        };
+        let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
         let group = if auto_group.is_empty() {
             roles
                 .group
@@ -268,7 +296,7 @@ pub fn ingest(
             .map(|c| (table.headers[c].as_str(), &record.cells[c]));
         match &roles.shape {
             Shape::Long { value, year, .. } => {
-                let mut row_flags = quote_flags(record);
+                let mut row_flags = marks.flags(record);
                 let year = match year {
                     YearSource::Fixed(y) => Some(*y),
                     YearSource::Column { index, .. } => reader.year(
@@ -284,8 +312,11 @@ pub fn ingest(
                     entity_input,
                     year,
                     group,
-                    &record.cells[*value],
-                    &table.headers[*value],
+                    Figure {
+                        cell: &record.cells[*value],
+                        column: &table.headers[*value],
+                        multiplier,
+                    },
                     currency_cell,
                     row_flags,
                 )?;
@@ -295,12 +326,11 @@ pub fn ingest(
                         .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
                         .collect(),
                 };
-                let multiplier = options.value_multiplier.map(number::to_f64).unwrap_or(1.0);
                 row.se = margins::standard_error(
                     &options.margins,
                     row.value,
                     &cells,
-                    multiplier,
+                    multiplier.map(number::to_f64).unwrap_or(1.0),
                     file,
                     record.line,
                     &mut row.flags,
@@ -319,10 +349,13 @@ pub fn ingest(
                         entity_input.clone(),
                         Some(year),
                         group.clone(),
-                        &record.cells[column],
-                        &table.headers[column],
+                        Figure {
+                            cell: &record.cells[column],
+                            column: &table.headers[column],
+                            multiplier,
+                        },
                         currency_cell,
-                        quote_flags(record),
+                        marks.flags(record),
                     )?);
                 }
             }
@@ -393,11 +426,114 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
     crate::report::render_csv(&frame, crate::report::format::Rounding::Full)
 }
 
-fn quote_flags(record: &table::TextRecord) -> Vec<String> {
-    if record.unbalanced_quote {
-        vec![flags::UNBALANCED_QUOTE.into()]
-    } else {
-        Vec::new()
+/// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a
+/// unit-multiplier column's power of ten).
+struct Figure<'a> {
+    cell: &'a str,
+    column: &'a str,
+    multiplier: Option<Decimal>,
+}
+
+/// What a record says about its figures beyond the value: a footnote column (a data portal's
+/// "Value Footnotes"), a unit-multiplier column (OECD's "PowerCode Code", SDMX's UNIT_MULT:
+/// a power of ten), and the line's quoting.
+pub(crate) struct RecordMarks {
+    footnotes: Vec<usize>,
+    power: Option<usize>,
+}
+
+/// Headers of unit-multiplier columns: the figure is times ten to the cell (common practice of
+/// OECD.Stat exports and SDMX).
+const POWER_HEADERS: &[&str] = &[
+    "powercode code",
+    "unit_mult",
+    "unit multiplier",
+    "unit_multiplier",
+];
+
+impl RecordMarks {
+    pub(crate) fn find(table: &table::TextTable, roles: &layout::Roles) -> RecordMarks {
+        let ignored: std::collections::HashSet<&str> =
+            roles.ignored.iter().map(String::as_str).collect();
+        let unused = |i: &usize| ignored.contains(table.headers[*i].as_str());
+        let columns = 0..table.headers.len();
+        RecordMarks {
+            footnotes: columns
+                .clone()
+                .filter(unused)
+                .filter(|&i| table.headers[i].to_lowercase().contains("footnote"))
+                .collect(),
+            power: columns.filter(unused).find(|&i| {
+                POWER_HEADERS.contains(&table.headers[i].trim().to_lowercase().as_str())
+            }),
+        }
+    }
+
+    pub(crate) fn describe(&self, table: &table::TextTable) -> Vec<String> {
+        let mut notes = Vec::new();
+        if let Some(p) = self.power {
+            notes.push(format!(
+                "figures scaled by ten to the power in column \"{}\"",
+                table.headers[p]
+            ));
+        }
+        for &f in &self.footnotes {
+            notes.push(format!(
+                "rows with a footnote in column \"{}\" are flagged footnote",
+                table.headers[f]
+            ));
+        }
+        notes
+    }
+
+    fn flags(&self, record: &table::TextRecord) -> Vec<String> {
+        let mut out = Vec::new();
+        if record.unbalanced_quote {
+            out.push(flags::UNBALANCED_QUOTE.into());
+        }
+        if self
+            .footnotes
+            .iter()
+            .any(|&f| !record.cells[f].trim().is_empty())
+        {
+            out.push(flags::FOOTNOTE.into());
+        }
+        out
+    }
+
+    /// The row's multiplier: `--value-multiplier` times ten to the power in the unit-multiplier
+    /// column, exactly.
+    pub(crate) fn multiplier(
+        &self,
+        record: &table::TextRecord,
+        given: Option<Decimal>,
+        file: &str,
+    ) -> Result<Option<Decimal>> {
+        let Some(p) = self.power else {
+            return Ok(given);
+        };
+        let text = record.cells[p].trim();
+        if text.is_empty() {
+            return Ok(given);
+        }
+        let power = text
+            .parse::<i32>()
+            .ok()
+            .filter(|k| (-12..=12).contains(k))
+            .ok_or_else(|| {
+                Error::bad_input(
+                    Location::cell(file, record.line, text),
+                    format!("\"{}\" is not a power of ten", table::shorten(text)),
+                    "an integer from -12 to 12 (3 for thousands, 6 for millions)",
+                    "fix the cell",
+                )
+            })?;
+        let scale = if power >= 0 {
+            Decimal::from(10i64.pow(power as u32))
+        } else {
+            Decimal::new(1, (-power) as u32)
+        };
+        Ok(Some(given.unwrap_or(Decimal::ONE) * scale))
     }
 }
 
@@ -449,11 +585,15 @@ impl RowReader<'_> {
         entity_input: String,
         year: Option<i32>,
         group: Option<String>,
-        cell: &str,
-        column: &str,
+        figure: Figure,
         currency_cell: Option<(&str, &str)>,
         mut row_flags: Vec<String>,
     ) -> Result<CanonicalRow> {
+        let Figure {
+            cell,
+            column,
+            multiplier,
+        } = figure;
         let value = match number::parse_cell(cell, self.options.number_style) {
             Ok(Cell::Number {
                 value,
@@ -463,7 +603,7 @@ impl RowReader<'_> {
                 if footnote {
                     row_flags.push(flags::FOOTNOTE.into());
                 }
-                match self.options.value_multiplier {
+                match multiplier {
                     Some(m) => Some(number::to_f64(value.checked_mul(m).ok_or_else(|| {
                         Error::bad_input(
                             Location::cell(self.file, line, column),
@@ -546,7 +686,7 @@ impl RowReader<'_> {
             Err(text) => Err(Error::bad_input(
                 Location::cell(self.file, line, column),
                 format!("\"{text}\" is not a calendar year"),
-                "a four-digit calendar year such as 2021; fiscal-year labels (2019/20, FY2021) are not matched to reference years automatically",
+                "a four-digit calendar year (1000-2200) such as 2021; fiscal-year labels (2019/20, FY2021) are not matched to reference years automatically",
                 "relabel the year with the calendar year your reference tables use for it, or pass --lenient to keep the row flagged `unparsed_year`",
             )),
         }

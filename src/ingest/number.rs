@@ -370,7 +370,8 @@ fn valid_grouping(groups: &[&str]) -> bool {
     let all_digits = groups
         .iter()
         .all(|g| !g.is_empty() && g.bytes().all(|b| b.is_ascii_digit()));
-    if !all_digits || groups.len() < 2 || groups[0].len() > 3 {
+    // A leading zero group (0,800 or 00,800) groups no thousands: it is a decimal comma.
+    if !all_digits || groups.len() < 2 || groups[0].len() > 3 || groups[0].starts_with('0') {
         return false;
     }
     let tail = &groups[1..];
@@ -421,6 +422,15 @@ mod tests {
 
     fn dec(s: &str) -> Decimal {
         Decimal::from_str(s).unwrap()
+    }
+
+    #[test]
+    fn a_leading_zero_group_is_not_a_thousands_grouping() {
+        // "0,800" is 0.8 with a decimal comma; read as 800 it would be off by a thousand.
+        assert!(parse_cell("0,800", NumberStyle::default()).is_err());
+        assert!(parse_cell("00,800", NumberStyle::default()).is_err());
+        assert_eq!(comma("0,800"), dec("0.8"));
+        assert_eq!(num("1,800"), dec("1800"));
     }
 
     #[test]

@@ -129,8 +129,18 @@ pub fn read_table(text: &str, delimiter: u8, file: &str) -> Result<TextTable> {
     find_table(text, delimiter, file, &FindOptions::default())
 }
 
-/// Reads a reference file's bytes with the detected encoding and delimiter.
+/// Reads a reference file's bytes with the detected encoding and delimiter (or its first
+/// sheet, for a spreadsheet).
 pub fn read_bytes(bytes: &[u8], file: &str, hints: &[String]) -> Result<TextTable> {
+    if crate::ingest::spreadsheet::is_spreadsheet(file) {
+        // The first sheet, as text with one line per sheet row, through the same finder.
+        let (text, _, _) = crate::ingest::spreadsheet::sheet_to_csv(bytes, file, None, None)?;
+        let options = FindOptions {
+            hints: hints.to_vec(),
+            ..Default::default()
+        };
+        return find_table(&text, b',', file, &options);
+    }
     let decoded = crate::ingest::encoding::decode(bytes, None, file)?;
     let delimiter = if file.ends_with(".tsv") || file.ends_with(".tab") {
         b'\t'
@@ -186,8 +196,27 @@ impl Raw {
         self.record.iter().filter(|c| !c.trim().is_empty()).count()
     }
 
+    /// The classes of the cells. Several four-digit numbers count as years only where they look
+    /// like the year columns of a header, in increasing or decreasing order: an unordered
+    /// 1180,1144,1292 is figures (prices, rates and counts often fall in the range of years).
     fn classes(&self) -> Vec<CellClass> {
-        self.record.iter().map(classify).collect()
+        let mut classes: Vec<CellClass> = self.record.iter().map(classify).collect();
+        let years: Vec<i32> = self
+            .record
+            .iter()
+            .zip(&classes)
+            .filter(|(_, c)| **c == CellClass::Year)
+            .filter_map(|(cell, _)| crate::ingest::layout::header_year(cell))
+            .collect();
+        let ordered = years.len() < 2
+            || years.windows(2).all(|w| w[0] < w[1])
+            || years.windows(2).all(|w| w[0] > w[1]);
+        if !ordered {
+            for class in classes.iter_mut().filter(|c| **c == CellClass::Year) {
+                *class = CellClass::Number;
+            }
+        }
+        classes
     }
 
     /// The line as written (cells joined by the delimiter), shortened for a message.
@@ -250,8 +279,13 @@ pub fn find_table(
     if blank_above > 0 {
         skipped.push(format!("{blank_above} blank line(s) above the header"));
     }
-    // The table ends at the last line that holds data; only notes may follow it.
-    let last_data = all
+    // The table ends at the last line that holds data; only notes may follow it. A footnote
+    // block (a data portal's "footnoteSeqID","Footnote" table below the data) is notes too.
+    let notes_from = all[header_index + 1..]
+        .iter()
+        .position(starts_footnotes)
+        .map_or(all.len(), |p| p + header_index + 1);
+    let last_data = all[..notes_from]
         .iter()
         .rposition(|r| !is_note(r, delimiter))
         .unwrap_or(header_index)
@@ -263,19 +297,46 @@ pub fn find_table(
             .filter(|r| r.filled() > 0)
             .map(|r| format!("line {} below the table: \"{}\"", r.line, r.text(delimiter))),
     );
-    let trailing_delimiter = all[header_index..tail]
-        .iter()
-        .all(|r| r.record.len() >= 2 && r.record[r.record.len() - 1].trim().is_empty());
+    // Empty header cells at the end whose column holds nothing: a trailing delimiter (on every
+    // line, or on some), dropped rather than counted.
     let mut header_record = all[header_index].record.clone();
-    if trailing_delimiter {
-        header_record.truncate(header_record.len() - 1);
+    let mut dropped = 0;
+    while header_record.len() > 1 {
+        let last = header_record.len() - 1;
+        let empty = header_record[last].trim().is_empty()
+            && all[header_index + 1..tail]
+                .iter()
+                .all(|r| r.record.get(last).is_none_or(|c| c.trim().is_empty()));
+        if !empty {
+            break;
+        }
+        header_record.truncate(last);
+        dropped += 1;
     }
+    let trailing_delimiter = dropped > 0;
     let mut headers = clean_headers(&header_record, file, header_line)?;
     let width = headers.len();
+    let header_key: Vec<String> = headers.iter().map(|h| h.to_lowercase()).collect();
+    let mut empty_lines: Vec<usize> = Vec::new();
     let mut records = Vec::with_capacity(tail.saturating_sub(header_index + 1));
     for raw in all.drain(header_index + 1..tail) {
         if raw.filled() == 0 {
+            empty_lines.push(raw.line);
             continue;
+        }
+        if raw
+            .record
+            .iter()
+            .map(|c| c.trim().to_lowercase())
+            .take(width)
+            .eq(header_key.iter().cloned())
+        {
+            return Err(Error::bad_input(
+                Location::line(file, raw.line),
+                format!("this line repeats the header of line {header_line}: the file holds two tables"),
+                "one table per file (one header, then its rows)",
+                "split the file into one file per table, or delete the second header and check that the rows below it are in the same columns",
+            ));
         }
         if let Some(opened) = runaway_quote(&raw, width, delimiter) {
             if !options.lenient {
@@ -306,6 +367,15 @@ pub fn find_table(
             cells: record,
             unbalanced_quote: false,
         });
+    }
+    if !empty_lines.is_empty() {
+        let shown: Vec<String> = empty_lines.iter().take(10).map(|l| l.to_string()).collect();
+        skipped.push(format!(
+            "{} empty line(s) inside the table (line {}{})",
+            empty_lines.len(),
+            shown.join(", "),
+            if empty_lines.len() > 10 { ", ..." } else { "" }
+        ));
     }
     let dimensions = split_dimensions(&mut headers, &mut records, file, header_line)?;
     Ok(TextTable {
@@ -393,24 +463,31 @@ fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usiz
         let c = &classes[i];
         c.iter().filter(|k| **k != CellClass::Empty).count() >= 2 && !c.contains(&CellClass::Number)
     };
-    let mut best: Option<(usize, (usize, usize))> = None;
+    // The most lines of figures headed; among equals the line that names more columns the way
+    // headers do (country, code, year, value ...), for a title covers the same block as the
+    // header below it; then the earliest.
+    let mut best: Option<(usize, (usize, usize, usize))> = None;
     for h in (0..window.len()).filter(|&i| header_like(i)) {
-        let score = block_score(window, &classes, h);
-        if score.0 + score.1 == 0 {
+        let (covered, exact) = block_score(window, &classes, h);
+        if covered + exact == 0 {
             continue;
         }
-        // Ties go to the later line: a title above a header covers the same block.
-        if best.is_none_or(|(_, b)| score >= b) {
+        let names = window[h]
+            .record
+            .iter()
+            .filter(|c| crate::ingest::layout::is_role_word(c))
+            .count();
+        let score = (covered, exact, names);
+        if best.is_none_or(|(_, b)| score > b) {
             best = Some((h, score));
         }
     }
-    if let Some((h, (exact, covered))) = best {
+    if let Some((h, _)) = best {
         return Ok((
             h,
             format!(
-                "line {}: it heads the longest block of figures ({} line(s) below it)",
-                window[h].line,
-                exact.max(covered)
+                "line {}: it heads the longest block of lines holding figures",
+                window[h].line
             ),
         ));
     }
@@ -427,8 +504,8 @@ fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usiz
     ))
 }
 
-/// How well header candidate `h` heads the lines below it: (lines holding figures with as many
-/// fields as `h`, lines holding figures whose filled cells all sit under filled cells of `h`).
+/// How well header candidate `h` heads the lines below it: (lines holding figures whose filled
+/// cells all sit under filled cells of `h`, lines holding figures with as many fields as `h`).
 /// The count stops at the first line with a filled cell beyond `h`'s width.
 fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, usize) {
     let header = &classes[h];
@@ -443,8 +520,8 @@ fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, 
         if span > width {
             break;
         }
-        let figures = row.contains(&CellClass::Number) || row.contains(&CellClass::Year);
-        if !figures {
+        // Years alone do not make a line of figures: a header of years is not data.
+        if !row.contains(&CellClass::Number) {
             continue;
         }
         let under_header = row
@@ -454,7 +531,17 @@ fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, 
         covered += under_header as usize;
         exact += (window[i].record.len() == width) as usize;
     }
-    (exact, covered)
+    (covered, exact)
+}
+
+/// The first line of a footnote block below the table (a data portal's `"footnoteSeqID",
+/// "Footnote"` header).
+fn starts_footnotes(raw: &Raw) -> bool {
+    raw.record
+        .iter()
+        .map(str::trim)
+        .find(|c| !c.is_empty())
+        .is_some_and(|c| c.to_lowercase().starts_with("footnote"))
 }
 
 /// A line below the table that is a note: one filled cell of words, or words that open with a
@@ -811,6 +898,68 @@ mod tests {
         let table = read_table(text, b',', "t.csv").unwrap();
         assert_eq!(table.header_line, 1);
         assert_eq!(table.records.len(), 3);
+    }
+
+    #[test]
+    fn a_footnote_block_below_the_table_is_set_aside() {
+        // A data portal's layout: the data, a blank line, then a small table of footnotes.
+        let text = "\"Country or Area\",\"Year\",\"Value\",\"Value Footnotes\"\n\"Chile\",\"2006\",\"12\",\"1\"\n\n\"footnoteSeqID\",\"Footnote\"\n\"1\",\"Provisional data.\"\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.records.len(), 1);
+        assert!(
+            table.skipped.iter().any(|s| s.contains("Provisional data")),
+            "{:?}",
+            table.skipped
+        );
+    }
+
+    #[test]
+    fn figures_in_the_range_of_years_are_figures() {
+        // Exchange rates of about 1,100 to 1,300 won per dollar read like years; unordered,
+        // they are figures, and a lone one below a header does not take its place.
+        let text = "Country Name,Country Code,2020,2021\n\"Korea, Rep.\",KOR,1180,1144\nTurkiye,TUR,7.0,8.9\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.header_line, 1);
+        let table = read_table("country,fee\nChile,1180\nPeru,980\n", b',', "t.csv").unwrap();
+        assert_eq!((table.header_line, table.records.len()), (1, 2));
+    }
+
+    #[test]
+    fn a_repeated_header_is_two_tables_not_a_data_row() {
+        let err = read_table("country,fee\nChile,1\ncountry,fee\nPeru,2\n", b',', "t.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("line 3") && err.contains("repeats the header"),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn a_title_of_years_as_wide_as_the_header_is_not_the_header() {
+        let text = "GDP, 2006, 2007\ncountry,2006,2007\nChile,10,11\nPeru,12,13\n";
+        let table = read_table(text, b',', "t.csv").unwrap();
+        assert_eq!(table.headers, vec!["country", "2006", "2007"]);
+    }
+
+    #[test]
+    fn a_trailing_delimiter_on_some_lines_and_empty_lines_inside() {
+        let table = read_table(
+            "country,year,value,\nChile,2006,1,\n,,\nPeru,2006,2\n",
+            b',',
+            "t.csv",
+        )
+        .unwrap();
+        assert_eq!(table.headers, vec!["country", "year", "value"]);
+        assert_eq!(table.records.len(), 2);
+        assert!(
+            table
+                .skipped
+                .iter()
+                .any(|s| s.contains("1 empty line(s) inside the table (line 3)")),
+            "{:?}",
+            table.skipped
+        );
     }
 
     #[test]

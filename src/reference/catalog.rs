@@ -99,6 +99,8 @@ pub struct Resource {
     pub format: Option<String>,
     /// SDMX dimensions to keep, code by dimension (for example a measure or unit code).
     pub filter: std::collections::BTreeMap<String, String>,
+    /// The table writes numbers with a decimal comma (1.234,5).
+    pub decimal_comma: bool,
 }
 
 #[derive(Debug, Clone, serde::Serialize)]
@@ -144,6 +146,8 @@ struct RawResource {
     format: Option<String>,
     #[serde(default)]
     filter: std::collections::BTreeMap<String, String>,
+    #[serde(default)]
+    decimal_comma: bool,
 }
 
 /// Parses and checks a catalog; `file` names it in messages.
@@ -267,6 +271,7 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
             moe_level: r.moe_level,
             format: r.format,
             filter: r.filter,
+            decimal_comma: r.decimal_comma,
         });
     }
     for (i, a) in resources.iter().enumerate() {

@@ -262,6 +262,8 @@ fn load_plain(
     }
     check_wide_headers(text_table, &roles, file, resource)?;
     notes.push(describe_roles(text_table, &roles));
+    let marks = crate::ingest::RecordMarks::find(text_table, &roles);
+    notes.extend(marks.describe(text_table));
     let dimensions: Vec<usize> = text_table
         .dimensions
         .iter()
@@ -280,7 +282,10 @@ fn load_plain(
         {
             continue;
         }
-        let entity_text = record.cells[roles.entity].trim();
+        let entity_text = match roles.entity_fallback {
+            Some(name) if record.cells[roles.entity].trim().is_empty() => record.cells[name].trim(),
+            _ => record.cells[roles.entity].trim(),
+        };
         let code = codes
             .entry(entity_text.to_string())
             .or_insert_with(|| match resolver.resolve(entity_text) {
@@ -301,6 +306,9 @@ fn load_plain(
             .map(|&i| format!("{}={}", text_table.headers[i], record.cells[i].trim()))
             .collect::<Vec<_>>()
             .join(",");
+        let power = marks
+            .multiplier(record, None, file)?
+            .map_or(1.0, crate::ingest::number::to_f64);
         for (year, column) in year_cells(text_table, &roles, record, file)? {
             let header = &text_table.headers[column];
             let cell = &record.cells[column];
@@ -324,7 +332,7 @@ fn load_plain(
                 &mut first_line,
                 &code,
                 year,
-                value * resource.multiplier,
+                value * power * resource.multiplier,
                 record.line,
             )?;
             if let Some(&margin_column) = roles.reserved.first() {
@@ -380,17 +388,33 @@ fn factor_cell(
     line: usize,
     header: &str,
 ) -> Result<Option<f64>> {
-    let value =
-        match number::parse_cell(cell, NumberStyle::default()) {
-            Ok(Cell::Missing) => return Ok(None),
-            Ok(Cell::Number { float, .. }) => float,
-            Err(e) => return Err(Error::bad_input(
+    let style = NumberStyle {
+        decimal_comma: resource.decimal_comma,
+    };
+    let value = match number::parse_cell(cell, style) {
+        Ok(Cell::Missing) => return Ok(None),
+        Ok(Cell::Number { float, .. }) => float,
+        Err(e) => {
+            // The number parser speaks of flags; a reference table is set by catalog keys.
+            let hint = e.hint.replace(
+                "pass --decimal-comma",
+                &format!(
+                    "set \"decimal_comma\": true on the catalog resource \"{}\"",
+                    resource.name
+                ),
+            );
+            let hint = hint.replace(
+                "; drop --decimal-comma if the table uses a decimal point",
+                "",
+            );
+            return Err(Error::bad_input(
                 Location::cell(file, line, header),
                 e.reason,
-                format!("a {} factor ({})", resource.kind.as_str(), e.hint),
+                format!("a {} factor ({hint})", resource.kind.as_str()),
                 "fix the reference table; mark a missing factor with .. or leave the cell empty",
-            )),
-        };
+            ));
+        }
+    };
     check_positive(value, cell, resource, file, line, header)?;
     Ok(Some(value))
 }
