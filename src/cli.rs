@@ -446,17 +446,19 @@ pub struct OutputArgs {
     )]
     pub output: Option<PathBuf>,
 
-    /// Round numbers to N decimals (half to even) in every format.
+    /// Round numbers to N decimals (half to even) in every format, N from 0 to 20.
     #[arg(
         long,
         value_name = "N",
         help_heading = "Output",
-        conflicts_with = "sig"
+        conflicts_with = "sig",
+        value_parser = clap::value_parser!(u32).range(0..=20)
     )]
     pub decimals: Option<u32>,
 
-    /// Round numbers to N significant digits (half to even) in every format.
-    #[arg(long, value_name = "N", help_heading = "Output")]
+    /// Round numbers to N significant digits (half to even) in every format, N from 1 to 17
+    /// (a double holds 17).
+    #[arg(long, value_name = "N", help_heading = "Output", value_parser = clap::value_parser!(u32).range(1..=17))]
     pub sig: Option<u32>,
 
     /// Do not print the run summary on stderr.
@@ -470,6 +472,12 @@ pub struct OutputArgs {
     /// Also write a self-contained HTML report (table, charts, methods) to FILE.
     #[arg(long, value_name = "FILE", help_heading = "Output")]
     pub report: Option<PathBuf>,
+
+    /// Write csv text cells that start with = + - @ as they are. By default they get a leading
+    /// ' so that a spreadsheet shows them instead of running them as formulas. Command line
+    /// only: a recipe cannot turn the guard off.
+    #[arg(long, help_heading = "Output")]
+    pub allow_formulas: bool,
 }
 
 #[derive(Debug, Args)]

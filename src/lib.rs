@@ -172,7 +172,13 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     let render = || -> Result<String> {
         Ok(match plan.output.format {
             report::Format::Methods => report::methods::render_markdown(&note),
-            format => report::render(&output.frame, &output.summary, format, plan.output.rounding)?,
+            format => report::render(
+                &output.frame,
+                &output.summary,
+                format,
+                plan.output.rounding,
+                plan.output.guard_formulas,
+            )?,
         })
     };
     if let Some(path) = &plan.output.methods {
@@ -187,9 +193,12 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         Some(path) if plan.output.format == report::Format::Parquet => {
             report::write_parquet_atomically(path, &output.frame)?
         }
-        Some(path) if plan.output.format == report::Format::Csv => {
-            report::write_csv_atomically(path, &output.frame, plan.output.rounding)?
-        }
+        Some(path) if plan.output.format == report::Format::Csv => report::write_csv_atomically(
+            path,
+            &output.frame,
+            plan.output.rounding,
+            plan.output.guard_formulas,
+        )?,
         Some(path) => report::write_atomically(path, &render()?)?,
         None if plan.output.format == report::Format::Parquet => {
             return Err(error::Error::usage(
@@ -209,7 +218,12 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
 }
 
 fn print_summary(plan: &plan::AdjustPlan, output: &pipeline::AdjustOutput) {
-    if !plan.output.quiet {
+    if plan.output.quiet {
+        // --quiet leaves out the summary, never its warnings.
+        for warning in &output.summary.warnings {
+            eprintln!("levelfield: warning: {}", report::format::visible(warning));
+        }
+    } else {
         eprint!("{}", report::summary::render(&output.summary));
         if let Some(path) = &plan.output.path {
             eprintln!(

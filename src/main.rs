@@ -12,7 +12,11 @@ fn main() -> ExitCode {
         Ok(levelfield::Outcome::Ok) => ExitCode::SUCCESS,
         Ok(levelfield::Outcome::Findings) => ExitCode::from(1),
         Err(error) => {
-            eprintln!("error: {error}");
+            // Input text in a message is shown with its control characters escaped.
+            eprintln!(
+                "error: {}",
+                levelfield::report::format::visible(&error.to_string())
+            );
             ExitCode::from(2)
         }
     }

@@ -120,6 +120,9 @@ pub fn run_adjust(
     summary
         .warnings
         .extend(missing_tables_warning(&missing_tables));
+    summary
+        .warnings
+        .splice(0..0, prepared.ingested.warnings.iter().cloned());
     Ok(AdjustOutput { frame, summary })
 }
 

@@ -50,6 +50,8 @@ pub struct OutputPlan {
     pub report: Option<PathBuf>,
     /// A notice printed at the top of reports and notes (the demo says its data are invented).
     pub notice: Option<String>,
+    /// Text cells that a spreadsheet would run as formulas get a leading `'` in csv.
+    pub guard_formulas: bool,
 }
 
 pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
@@ -227,6 +229,7 @@ pub fn resolve_audit(args: &crate::cli::AuditArgs) -> Result<AuditPlan> {
         resolver.add_alias_file(path)?;
     }
     let references = load_refs(&args.refs, &mut resolver)?;
+    check_year_option("--base-year", args.base_year)?;
     let mut ingest = ingest_options(&args.columns)?;
     if ingest.roles.layout == LayoutChoice::Auto {
         ingest.roles.layout = LayoutChoice::Long;
@@ -360,6 +363,7 @@ pub fn parse_steps(names: &[String]) -> Result<Vec<&'static dyn Step>> {
 }
 
 pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -> Result<()> {
+    check_year_option("--base-year", base_year)?;
     if steps.iter().any(|s| s.name() == "deflate") && base_year.is_none() {
         return Err(Error::usage(
             "step deflate needs a base year",
@@ -378,6 +382,7 @@ pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -
 }
 
 pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
+    check_year_option("--year-value", columns.year_value)?;
     let delimiter = match columns.delimiter.as_deref() {
         None => None,
         Some("tab") | Some("\\t") | Some("\t") => Some(b'\t'),
@@ -391,18 +396,7 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
     };
     let value_multiplier = match columns.value_multiplier.as_deref() {
         None => None,
-        Some(text) => {
-            let m = Decimal::from_str(&text.replace([',', '_'], ""))
-                .ok()
-                .filter(|m| *m > Decimal::ZERO)
-                .ok_or_else(|| {
-                    Error::usage(
-                        format!("--value-multiplier \"{text}\" is not a positive number"),
-                        "pass a number such as 1000 or 1000000",
-                    )
-                })?;
-            Some(m)
-        }
+        Some(text) => Some(parse_multiplier(text)?),
     };
     let layout = if columns.wide_years {
         LayoutChoice::Wide
@@ -443,6 +437,49 @@ pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
     })
 }
 
+/// `--value-multiplier`: a positive exact decimal (plain or scientific), within the 28 digits
+/// of the decimal type.
+fn parse_multiplier(text: &str) -> Result<Decimal> {
+    let plain = text.trim().replace([',', '_'], "");
+    let parsed = if plain.contains(['e', 'E']) {
+        Decimal::from_scientific(&plain)
+    } else {
+        Decimal::from_str(&plain)
+    };
+    match parsed {
+        Ok(m) if m > Decimal::ZERO => Ok(m),
+        Ok(_) => Err(Error::usage(
+            format!("--value-multiplier \"{text}\" is zero or negative"),
+            "pass a positive number such as 1000, 1000000 or 0.001",
+        )),
+        Err(_) if plain.parse::<f64>().is_ok_and(|f| f > 0.0) => Err(Error::usage(
+            format!(
+                "--value-multiplier \"{text}\" needs more than the 28 digits exact decimals hold"
+            ),
+            "pass a multiplier between 1e-28 and 1e28, such as 1000 or 0.001",
+        )),
+        Err(_) => Err(Error::usage(
+            format!("--value-multiplier \"{text}\" is not a number"),
+            "pass a number such as 1000, 1e6 or 0.001",
+        )),
+    }
+}
+
+/// A year given as an option must be a calendar year the tables can hold.
+pub fn check_year_option(flag: &str, year: Option<i32>) -> Result<()> {
+    match year {
+        Some(y) if !crate::ingest::layout::YEARS.contains(&y) => Err(Error::usage(
+            format!("{flag} {y} is not a calendar year the tables can hold"),
+            format!(
+                "pass {flag} with a four-digit year from {} to {}",
+                crate::ingest::layout::YEARS.start(),
+                crate::ingest::layout::YEARS.end()
+            ),
+        )),
+        _ => Ok(()),
+    }
+}
+
 pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
     let format = match (args.format, &args.output) {
         (Some(f), _) => f,
@@ -451,11 +488,17 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
         (None, None) => Format::Csv,
     };
     let rounding = match (args.decimals, args.sig) {
-        (Some(d), _) => Rounding::Decimals(d),
-        (None, Some(0)) => {
+        (Some(d), _) if d > 20 => {
             return Err(Error::usage(
-                "--sig 0 keeps no digit",
-                "pass --sig 1 or more",
+                format!("--decimals {d} is more than the 20 decimals a figure can be written with"),
+                "pass --decimals from 0 to 20, or --sig N for significant digits",
+            ))
+        }
+        (Some(d), _) => Rounding::Decimals(d),
+        (None, Some(s)) if s == 0 || s > 17 => {
+            return Err(Error::usage(
+                format!("--sig {s} is outside 1 to 17 (a double holds 17 significant digits)"),
+                "pass --sig from 1 to 17",
             ))
         }
         (None, Some(s)) => Rounding::Significant(s),
@@ -469,6 +512,7 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
         methods: args.methods.clone(),
         report: args.report.clone(),
         notice: None,
+        guard_formulas: !args.allow_formulas,
     })
 }
 

@@ -139,6 +139,7 @@ struct FirstPiece {
     settings: PipelineSettings,
     encoding: Option<EncodingChoice>,
     notes: Vec<String>,
+    warnings: Vec<String>,
     data_lines: usize,
 }
 
@@ -295,6 +296,7 @@ fn run(
                     settings: piece_settings,
                     encoding: ingested.encoding,
                     notes: ingested.notes.clone(),
+                    warnings: ingested.warnings.clone(),
                     data_lines: ingested.data_lines,
                 });
             }
@@ -390,7 +392,13 @@ fn run(
             .map_err(Error::engine("flagging a piece"))?;
         rows_out += frame.height();
         counts.add(FlagCounts::of(&frame)?);
-        report::write_csv(&frame, plan.output.rounding, i == 0, &mut buffered)?;
+        report::write_csv(
+            &frame,
+            plan.output.rounding,
+            i == 0,
+            plan.output.guard_formulas,
+            &mut buffered,
+        )?;
         let _ = std::fs::remove_file(&piece.path);
     }
     if rows_out != rows_in {
@@ -434,6 +442,9 @@ fn run(
     summary
         .warnings
         .extend(pipeline::missing_tables_warning(&missing_tables));
+    summary
+        .warnings
+        .splice(0..0, first.warnings.iter().cloned());
     Ok(Ok(pipeline::AdjustOutput {
         frame: DataFrame::empty(),
         summary,

@@ -2,7 +2,7 @@
 //! memo for an editor, and JSON.
 
 use super::{AuditReport, Finding, Severity};
-use crate::report::format::{format_number, Rounding};
+use crate::report::format::{format_number, one_line, Rounding};
 use tabled::settings::Style;
 
 fn number(value: Option<f64>) -> String {
@@ -60,12 +60,12 @@ fn rows_of(findings: &[&Finding]) -> Vec<[String; 7]> {
         .map(|f| {
             [
                 f.line.to_string(),
-                f.entity.clone(),
+                one_line(&f.entity),
                 f.check.clone(),
                 number(f.claimed),
                 number(f.recomputed),
                 percent(f.relative_difference),
-                f.cause.clone(),
+                one_line(&f.cause),
             ]
         })
         .collect()

@@ -194,6 +194,35 @@ const YEAR_NAMES: &[&str] = &["year", "time", "time_period", "period"];
 /// four-digit header beyond 2200 is more likely a code than a year.
 pub const YEARS: std::ops::RangeInclusive<i32> = 1000..=2200;
 
+/// The code part of an SDMX header or cell: `REF_AREA: Reference area` → `REF_AREA`.
+pub fn sdmx_code(text: &str) -> &str {
+    text.split_once(':').map(|(c, _)| c).unwrap_or(text).trim()
+}
+
+/// Reference-area dimensions as agencies name them (SDMX's REF_AREA; Eurostat's geo; OECD's
+/// older LOCATION; IMF's COUNTRY), in order of preference.
+pub const SDMX_AREAS: &[&str] = &[
+    "REF_AREA",
+    "GEO",
+    "LOCATION",
+    "COUNTRY",
+    "REPORTING_COUNTRY",
+];
+
+/// Whether a header is SDMX-CSV: a DATAFLOW or STRUCTURE/STRUCTURE_ID column, a reference-area
+/// dimension, TIME_PERIOD and OBS_VALUE (ISO 17369, SDMX-CSV versions 1 and 2).
+pub fn looks_like_sdmx(headers: &[String]) -> bool {
+    let codes: Vec<String> = headers
+        .iter()
+        .map(|h| sdmx_code(h).to_uppercase())
+        .collect();
+    let has = |name: &str| codes.iter().any(|c| c == name);
+    (has("DATAFLOW") || has("STRUCTURE") || has("STRUCTURE_ID"))
+        && has("TIME_PERIOD")
+        && has("OBS_VALUE")
+        && SDMX_AREAS.iter().any(|a| has(a))
+}
+
 /// Whether a header cell names a column the way headers do: an entity, year or value word.
 pub fn is_role_word(cell: &str) -> bool {
     let lower = cell.trim().to_lowercase();
@@ -204,14 +233,21 @@ pub fn is_role_word(cell: &str) -> bool {
 }
 
 /// Reads a header as a year column: `2019`, ` 2019 `, `2019 [YR2019]`.
+/// Also the forms other exports write: `YR2019` (a data bank's API), `Y2019` (FAOSTAT's bulk
+/// files) and `2019.0` (a year column saved as a float).
 pub fn header_year(header: &str) -> Option<i32> {
     let trimmed = header.trim();
+    let trimmed = trimmed
+        .strip_prefix("YR")
+        .or_else(|| trimmed.strip_prefix('Y'))
+        .filter(|rest| rest.starts_with(|c: char| c.is_ascii_digit()))
+        .unwrap_or(trimmed);
     let digits: String = trimmed.chars().take_while(|c| c.is_ascii_digit()).collect();
     if digits.len() != 4 {
         return None;
     }
     let rest = trimmed[4..].trim();
-    if !(rest.is_empty() || (rest.starts_with('[') && rest.ends_with(']'))) {
+    if !(rest.is_empty() || rest == ".0" || (rest.starts_with('[') && rest.ends_with(']'))) {
         return None;
     }
     let year: i32 = digits.parse().ok()?;
@@ -405,18 +441,33 @@ fn detect_entity(
         })
         .map(|(i, _)| i)
         .collect();
-    // A code column is exact where a name column may be spelled many ways, so it wins; the
-    // name column beside it serves the rows whose code is empty.
-    let is_code = |i: usize| {
-        let lower = headers[i].to_lowercase();
-        CODE_WORDS.iter().any(|w| lower.contains(w))
-    };
+    // A code column whose header says whose code it is ("Country Code", "iso3") is exact where
+    // a name column may be spelled many ways, so it wins, and the name column beside it serves
+    // the rows whose code is empty. A bare "code" or "area" header only stands in when no
+    // header names a country: it may hold item codes.
+    let lower = |i: usize| headers[i].trim().to_lowercase();
+    let bare = |i: usize| ENTITY_NAMES.contains(&lower(i).as_str());
+    let is_code = |i: usize| !bare(i) && CODE_WORDS.iter().any(|w| lower(i).contains(w));
     let coded = candidates.iter().copied().find(|&i| is_code(i));
-    let named = candidates.iter().copied().find(|&i| !is_code(i));
-    match (coded, named) {
-        (Some(code), name) => return Ok((code, EntityFound::Header, name)),
-        (None, Some(name)) => return Ok((name, EntityFound::Header, None)),
-        (None, None) => {}
+    let named = candidates
+        .iter()
+        .copied()
+        .find(|&i| !is_code(i) && !bare(i));
+    let fallback = candidates.iter().copied().find(|&i| bare(i));
+    // A bare code column beside a name column wins only when its cells are entity codes.
+    let codes_resolve = |i: usize| {
+        resolver.is_some_and(|r| {
+            share_resolving(table, i, r).is_some_and(|(found, n)| found * 10 >= n * 9)
+        })
+    };
+    match (coded, named, fallback) {
+        (Some(code), name, _) => return Ok((code, EntityFound::Header, name)),
+        (None, Some(name), Some(code)) if codes_resolve(code) => {
+            return Ok((code, EntityFound::Header, Some(name)))
+        }
+        (None, Some(name), _) => return Ok((name, EntityFound::Header, None)),
+        (None, None, Some(only)) => return Ok((only, EntityFound::Header, None)),
+        (None, None, None) => {}
     }
     if let Some(i) = resolver.and_then(|r| entity_by_content(table, taken, r)) {
         return Ok((i, EntityFound::Content, None));
@@ -441,26 +492,44 @@ fn entity_by_content(
     resolver: &crate::entity::Resolver,
 ) -> Option<usize> {
     let mut best: Option<(usize, usize)> = None;
-    for column in (0..table.headers.len()).filter(|i| !taken.contains(i)) {
-        let cells: Vec<&str> = table
-            .records
-            .iter()
-            .map(|r| r.cells[column].trim())
-            .filter(|c| !c.is_empty())
-            .take(100)
-            .collect();
-        if cells.is_empty() || !cells.iter().all(|c| c.chars().any(char::is_alphabetic)) {
+    // The first few hundred free columns: an entity column sits near the left of a table.
+    for column in (0..table.headers.len())
+        .filter(|i| !taken.contains(i))
+        .take(200)
+    {
+        let Some((found, n)) = share_resolving(table, column, resolver) else {
             continue;
-        }
-        let found = cells
-            .iter()
-            .filter(|c| matches!(resolver.resolve(c), crate::entity::Resolution::Found(_)))
-            .count();
-        if found * 10 >= cells.len() * 9 && best.is_none_or(|(_, b)| found > b) {
+        };
+        if found * 10 >= n * 9 && best.is_none_or(|(_, b)| found > b) {
             best = Some((column, found));
         }
     }
     best.map(|(column, _)| column)
+}
+
+/// Of a column's first 100 filled cells (words, not numbers): how many name an entity, and how
+/// many there are. None when a cell holds no letter (a small number is also an ISO numeric
+/// code, so numbers never choose a column).
+fn share_resolving(
+    table: &TextTable,
+    column: usize,
+    resolver: &crate::entity::Resolver,
+) -> Option<(usize, usize)> {
+    let cells: Vec<&str> = table
+        .records
+        .iter()
+        .map(|r| r.cells[column].trim())
+        .filter(|c| !c.is_empty())
+        .take(100)
+        .collect();
+    if cells.is_empty() || !cells.iter().all(|c| c.chars().any(char::is_alphabetic)) {
+        return None;
+    }
+    let found = cells
+        .iter()
+        .filter(|c| matches!(resolver.resolve(c), crate::entity::Resolution::Found(_)))
+        .count();
+    Some((found, cells.len()))
 }
 
 fn detect_value(
@@ -492,7 +561,7 @@ fn position_named(headers: &[String], names: &[&str], taken: &Taken) -> Option<u
     headers
         .iter()
         .enumerate()
-        .find(|(i, h)| !taken.contains(i) && names.contains(&h.trim().to_lowercase().as_str()))
+        .find(|(i, h)| !taken.contains(i) && names.contains(&sdmx_code(h).to_lowercase().as_str()))
         .map(|(i, _)| i)
 }
 
@@ -545,6 +614,10 @@ mod tests {
         assert_eq!(header_year("2019"), Some(2019));
         assert_eq!(header_year(" 2019 "), Some(2019));
         assert_eq!(header_year("2019 [YR2019]"), Some(2019));
+        assert_eq!(header_year("YR2019"), Some(2019));
+        assert_eq!(header_year("Y2019"), Some(2019));
+        assert_eq!(header_year("2019.0"), Some(2019));
+        assert_eq!(header_year("Year"), None);
         assert_eq!(header_year("2019a"), None);
         assert_eq!(header_year("Country"), None);
         assert_eq!(header_year("0042"), None);
@@ -564,6 +637,18 @@ mod tests {
         );
         assert_eq!(r.entity_fallback, Some(0));
         assert!(r.ignored.is_empty());
+    }
+
+    #[test]
+    fn a_bare_code_column_does_not_beat_a_country_column() {
+        let r = roles(
+            "country,code,year,value\nChile,X1,2020,1\n",
+            RoleFlags::default(),
+        )
+        .unwrap();
+        assert_eq!(r.entity, 0);
+        let r = roles("code,year,value\nCHL,2020,1\n", RoleFlags::default()).unwrap();
+        assert_eq!(r.entity, 0);
     }
 
     #[test]

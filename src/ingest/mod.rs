@@ -75,6 +75,8 @@ pub struct Ingested {
     pub data_lines: usize,
     /// The table was a statistics-office TSV whose first column joined dimension codes.
     pub dimensioned: bool,
+    /// What a user must see even with --quiet: lines set aside, likely misreadings.
+    pub warnings: Vec<String>,
 }
 
 /// Reads a user's table. `resolver`, when given, lets the entity column be found by its
@@ -251,10 +253,22 @@ pub fn ingest(
             names.join(", ")
         ));
     }
+    let marks = RecordMarks::find(&table, &roles);
+    if let (Some(p), Some(_)) = (marks.power, options.value_multiplier) {
+        return Err(Error::usage(
+            format!(
+                "{file} states each figure's power of ten in column \"{}\", and --value-multiplier scales them again",
+                table.headers[p]
+            ),
+            "drop --value-multiplier: the column already says the unit of every figure",
+        ));
+    }
+    notes.extend(marks.describe(&table));
     let unused: Vec<String> = roles
         .ignored
         .iter()
         .filter(|h| !auto_group.iter().any(|&d| &table.headers[d] == *h))
+        .filter(|h| !marks.uses(&table, h))
         .cloned()
         .collect();
     if !unused.is_empty() {
@@ -265,8 +279,8 @@ pub fn ingest(
         options,
         currency_code: currency_code.as_deref(),
     };
-    let marks = RecordMarks::find(&table, &roles);
-    notes.extend(marks.describe(&table));
+
+    let sdmx = layout::looks_like_sdmx(&table.headers);
     let mut rows = Vec::new();
     for (index, record) in table.records.iter().enumerate() {
         let data_row = index + 1 + options.row_offset;
@@ -274,6 +288,8 @@ pub fn ingest(
             Some(name) if record.cells[roles.entity].trim().is_empty() => {
                 record.cells[name].to_string()
             }
+            // SDMX-CSV 2.0 may label its codes (`AUS: Australia`): the code names the entity.
+            _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]).to_string(),
             _ => record.cells[roles.entity].to_string(),
         };
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
@@ -394,6 +410,7 @@ pub fn ingest(
         reserved: Vec::new(),
         knobs: layout::Knobs::Flags,
     };
+    let warnings = reading_warnings(&table, &rows, options);
     Ok(Ingested {
         rows,
         file: file.to_string(),
@@ -402,6 +419,7 @@ pub fn ingest(
         has_group: roles.group.is_some() || !auto_group.is_empty(),
         data_lines: table.records.len(),
         dimensioned: !table.dimensions.is_empty(),
+        warnings,
         headers: table.headers,
         delimiter,
         encoding: decoded.encoding,
@@ -423,7 +441,8 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
                 "check that the file is complete, or export it as CSV",
             )
         })?;
-    crate::report::render_csv(&frame, crate::report::format::Rounding::Full)
+    // Read as it is: no formula guard on an input.
+    crate::report::render_csv(&frame, crate::report::format::Rounding::Full, false)
 }
 
 /// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a
@@ -450,6 +469,10 @@ const POWER_HEADERS: &[&str] = &[
     "unit multiplier",
     "unit_multiplier",
 ];
+/// Headers of status columns whose filled cells mark a figure (Eurostat's OBS_FLAG, OECD's
+/// "Flag Codes"), besides any header with "footnote" in it. SDMX's OBS_STATUS is left out: its
+/// "A" means a normal value.
+const FLAG_HEADERS: &[&str] = &["obs_flag", "flag codes", "flags"];
 
 impl RecordMarks {
     pub(crate) fn find(table: &table::TextTable, roles: &layout::Roles) -> RecordMarks {
@@ -461,12 +484,24 @@ impl RecordMarks {
             footnotes: columns
                 .clone()
                 .filter(unused)
-                .filter(|&i| table.headers[i].to_lowercase().contains("footnote"))
+                .filter(|&i| {
+                    let h = layout::sdmx_code(&table.headers[i]).to_lowercase();
+                    h.contains("footnote") || FLAG_HEADERS.contains(&h.as_str())
+                })
                 .collect(),
             power: columns.filter(unused).find(|&i| {
-                POWER_HEADERS.contains(&table.headers[i].trim().to_lowercase().as_str())
+                POWER_HEADERS
+                    .contains(&layout::sdmx_code(&table.headers[i]).to_lowercase().as_str())
             }),
         }
+    }
+
+    /// Whether the column headed `header` is one of the marks (so it is used, not ignored).
+    fn uses(&self, table: &table::TextTable, header: &str) -> bool {
+        self.footnotes
+            .iter()
+            .chain(self.power.iter())
+            .any(|&i| table.headers[i] == header)
     }
 
     pub(crate) fn describe(&self, table: &table::TextTable) -> Vec<String> {
@@ -512,7 +547,8 @@ impl RecordMarks {
         let Some(p) = self.power else {
             return Ok(given);
         };
-        let text = record.cells[p].trim();
+        // SDMX-CSV 2.0 labels its codes: `6: Millions`.
+        let text = layout::sdmx_code(&record.cells[p]);
         if text.is_empty() {
             return Ok(given);
         }
@@ -522,7 +558,7 @@ impl RecordMarks {
             .filter(|k| (-12..=12).contains(k))
             .ok_or_else(|| {
                 Error::bad_input(
-                    Location::cell(file, record.line, text),
+                    Location::cell(file, record.line, format!("column {}", p + 1)),
                     format!("\"{}\" is not a power of ten", table::shorten(text)),
                     "an integer from -12 to 12 (3 for thousands, 6 for millions)",
                     "fix the cell",
@@ -537,11 +573,43 @@ impl RecordMarks {
     }
 }
 
+/// Warnings about the reading: lines set aside (never read as rows), and a semicolon table
+/// whose numbers look like decimal commas read as thousands separators.
+fn reading_warnings(
+    table: &table::TextTable,
+    rows: &[CanonicalRow],
+    options: &IngestOptions,
+) -> Vec<String> {
+    let mut warnings = Vec::new();
+    if !table.skipped.is_empty() {
+        let shown: Vec<&str> = table.skipped.iter().take(3).map(String::as_str).collect();
+        warnings.push(format!(
+            "{} line(s) of the input were set aside, not read as rows: {}{}",
+            table.skipped.len(),
+            shown.join("; "),
+            if table.skipped.len() > 3 { "; ..." } else { "" }
+        ));
+    }
+    let grouped = rows
+        .iter()
+        .filter(|r| r.value.is_some() && r.value_input.contains(','))
+        .count();
+    if table.delimiter == b';' && !options.number_style.decimal_comma && grouped > 0 {
+        warnings.push(format!(
+            "the table is separated by semicolons and {grouped} figure(s) hold a comma read as a thousands separator (1,500 as 1500): if the comma is a decimal comma, pass --decimal-comma"
+        ));
+    }
+    warnings
+}
+
 /// What the table finder decided, for the run summary (and `levelfield refs`).
 pub fn reading_notes(table: &table::TextTable) -> Vec<String> {
     let mut notes = vec![format!("header: {}", table.header_reason)];
     if table.trailing_delimiter {
-        notes.push("every line ends with the delimiter: the empty last column was dropped".into());
+        notes.push(
+            "the header ends with an empty column that holds nothing (a trailing delimiter): dropped"
+                .into(),
+        );
     }
     if !table.dimensions.is_empty() {
         let names: Vec<&str> = table

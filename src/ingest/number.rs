@@ -253,10 +253,19 @@ fn parse_amount(body: &str, style: NumberStyle) -> Result<(Decimal, f64), Number
         })?
     } else {
         Decimal::from_str(&plain).map_err(|_| {
-            error(
-                "is not a number",
-                "a number such as 1,234.5 (or 1.234,5 with --decimal-comma)",
-            )
+            if plain.bytes().filter(u8::is_ascii_digit).count() > 28
+                && plain.bytes().all(|b| b.is_ascii_digit() || b == b'.')
+            {
+                error(
+                    "is a number beyond the range of exact decimals (about 7.9e28, or 28 significant digits)",
+                    "a figure of at most 28 digits; state very large totals in millions and pass --value-multiplier",
+                )
+            } else {
+                error(
+                    "is not a number",
+                    "a number such as 1,234.5 (or 1.234,5 with --decimal-comma)",
+                )
+            }
         })?
     };
     let value = if negative { -value } else { value };
@@ -271,6 +280,17 @@ fn parse_amount(body: &str, style: NumberStyle) -> Result<(Decimal, f64), Number
         .parse::<f64>()
         .map(|f| if negative { -f } else { f })
         .unwrap_or_else(|_| to_f64(value));
+    // A figure too small for a double would silently become 0 or lose its digits.
+    let nonzero = plain
+        .bytes()
+        .take_while(|b| *b != b'e' && *b != b'E')
+        .any(|b| (b'1'..=b'9').contains(&b));
+    if nonzero && (float == 0.0 || float.abs() < f64::MIN_POSITIVE) {
+        return Err(error(
+            "is smaller than a double holds (below about 2.2e-308): it would become 0 or lose digits",
+            "a figure in a larger unit (state it in thousandths and pass --value-multiplier 0.001)",
+        ));
+    }
     Ok((value, if float == 0.0 { 0.0 } else { float }))
 }
 
@@ -422,6 +442,20 @@ mod tests {
 
     fn dec(s: &str) -> Decimal {
         Decimal::from_str(s).unwrap()
+    }
+
+    #[test]
+    fn underflow_and_numbers_beyond_the_decimal_are_refused_with_the_reason() {
+        let reason = |text: &str| parse_cell(text, NumberStyle::default()).unwrap_err().reason;
+        assert!(
+            reason("1e-400").contains("smaller than a double holds"),
+            "{}",
+            reason("1e-400")
+        );
+        assert!(reason("4.9e-324").contains("smaller than a double holds"));
+        assert!(reason("99999999999999999999999999999999")
+            .contains("beyond the range of exact decimals"));
+        assert_eq!(num("0e-400"), dec("0"));
     }
 
     #[test]

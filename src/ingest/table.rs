@@ -318,8 +318,15 @@ pub fn find_table(
     let width = headers.len();
     let header_key: Vec<String> = headers.iter().map(|h| h.to_lowercase()).collect();
     let mut empty_lines: Vec<usize> = Vec::new();
+    if let Some(last) = all.last() {
+        open_at_end(text, last, file, options.lenient)?;
+    }
     let mut records = Vec::with_capacity(tail.saturating_sub(header_index + 1));
+    // The line the next record starts on when no blank line comes between.
+    let mut expected = header_line + 1 + breaks_in(&all[header_index]);
     for raw in all.drain(header_index + 1..tail) {
+        empty_lines.extend(expected..raw.line);
+        expected = raw.line + 1 + breaks_in(&raw);
         if raw.filled() == 0 {
             empty_lines.push(raw.line);
             continue;
@@ -498,7 +505,7 @@ fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usiz
     Ok((
         first,
         format!(
-            "line {}: the first line naming two or more columns (no line below holds figures)",
+            "line {}: the first line naming two or more columns (no line heads a block of figures)",
             window[first].line
         ),
     ))
@@ -532,6 +539,31 @@ fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, 
         exact += (window[i].record.len() == width) as usize;
     }
     (covered, exact)
+}
+
+/// Line breaks inside a record's quoted cells (the record spans that many more lines).
+fn breaks_in(raw: &Raw) -> usize {
+    raw.record.iter().map(|c| c.matches('\n').count()).sum()
+}
+
+/// A quote still open at the end of the file: the last record starts a quoted cell that never
+/// closes (an odd number of quotes from where it opened). An error at that line, or with
+/// `lenient` nothing (its lines are read as they are by the runaway-quote rule).
+fn open_at_end(text: &str, last: &Raw, file: &str, lenient: bool) -> Result<()> {
+    let raw = &text[last.start.min(text.len())..];
+    let opens_quote = raw.trim_start().starts_with('"')
+        || raw.contains(",\"")
+        || raw.contains("\t\"")
+        || raw.contains(";\"");
+    if !lenient && opens_quote && raw.matches('"').count() % 2 == 1 {
+        return Err(Error::bad_input(
+            Location::line(file, last.line),
+            "a quote opened on this line is never closed: the file ends inside it",
+            "balanced double quotes: a cell that starts with \" must end with \"",
+            "close or remove the stray quote on this line, or pass --lenient to read the line as it is",
+        ));
+    }
+    Ok(())
 }
 
 /// The first line of a footnote block below the table (a data portal's `"footnoteSeqID",
@@ -630,9 +662,14 @@ fn cut_runaway(text: &str, raw: &Raw, delimiter: u8, width: usize) -> Vec<TextRe
 }
 
 fn ragged(file: &str, line: usize, found: usize, width: usize, delimiter: u8) -> Error {
+    let what = if found <= 1 {
+        " (a title or note between rows, or a second table below, reads like this)"
+    } else {
+        ""
+    };
     Error::bad_input(
         Location::line(file, line),
-        format!("{found} field(s) on this line, but the header has {width}"),
+        format!("{found} field(s) on this line, but the header has {width}{what}"),
         format!(
             "{width} fields separated by the {} delimiter",
             delimiter_name(delimiter)
@@ -960,6 +997,25 @@ mod tests {
             "{:?}",
             table.skipped
         );
+    }
+
+    #[test]
+    fn blank_lines_inside_and_a_quote_open_at_the_end() {
+        let table = read_table("country,fee\nChile,1\n\nPeru,2\n", b',', "t.csv").unwrap();
+        assert!(
+            table.skipped.iter().any(|s| s.contains("(line 3)")),
+            "{:?}",
+            table.skipped
+        );
+        let err = read_table("country,fee\nChile,1\n\"\n", b',', "t.csv")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("line 3") && err.contains("never closed"),
+            "{err}"
+        );
+        let table = read_table("a,b\n\"x\ny\",1\nc,2\n", b',', "t.csv").unwrap();
+        assert!(table.skipped.is_empty(), "{:?}", table.skipped);
     }
 
     #[test]

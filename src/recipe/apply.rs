@@ -438,10 +438,14 @@ pub fn check_merged(loaded: &LoadedRecipe, used: &RecipeUse, args: &AdjustArgs) 
     };
     crate::plan::margin_spec(&args.uncertainty)
         .map_err(|e| relocate(e, margin_key, margin_span))?;
-    let sig_span = r
-        .output
-        .as_ref()
-        .and_then(|o| o.sig.as_ref().map(|s| s.span()));
-    crate::plan::resolve_output(&args.output).map_err(|e| relocate(e, "output.sig", sig_span))?;
+    let (rounding_key, rounding_span) = match r.output.as_ref() {
+        Some(o) if o.decimals.is_some() => {
+            ("output.decimals", o.decimals.as_ref().map(|s| s.span()))
+        }
+        Some(o) => ("output.sig", o.sig.as_ref().map(|s| s.span())),
+        None => ("output.sig", None),
+    };
+    crate::plan::resolve_output(&args.output)
+        .map_err(|e| relocate(e, rounding_key, rounding_span))?;
     Ok(())
 }

@@ -85,7 +85,10 @@ pub fn draft(dir: &Path, resolver: &Resolver) -> Result<Drafted> {
         .filter(|p| {
             p.is_file()
                 && p.extension().and_then(|e| e.to_str()).is_some_and(|e| {
-                    matches!(e.to_ascii_lowercase().as_str(), "csv" | "tsv" | "tab")
+                    matches!(
+                        e.to_ascii_lowercase().as_str(),
+                        "csv" | "tsv" | "tab" | "xlsx" | "xlsm" | "xlsb" | "xls" | "ods"
+                    )
                 })
         })
         .collect();

@@ -44,35 +44,16 @@ const NOT_DIMENSIONS: &[&str] = &[
 
 /// The code part of a header or cell: `REF_AREA: Reference area` → `REF_AREA`.
 fn code(text: &str) -> &str {
-    text.split_once(':').map(|(c, _)| c).unwrap_or(text).trim()
+    crate::ingest::layout::sdmx_code(text)
 }
 
-/// Reference-area dimensions as agencies name them (SDMX's REF_AREA; Eurostat's geo; OECD's
-/// older LOCATION; IMF's COUNTRY), in order of preference.
-const AREA_NAMES: &[&str] = &[
-    "REF_AREA",
-    "GEO",
-    "LOCATION",
-    "COUNTRY",
-    "REPORTING_COUNTRY",
-];
-
 fn area_column(headers: &[String]) -> Option<usize> {
-    AREA_NAMES
+    crate::ingest::layout::SDMX_AREAS
         .iter()
         .find_map(|name| headers.iter().position(|h| h == name))
 }
 
-/// Whether a header is SDMX-CSV: a DATAFLOW or STRUCTURE/STRUCTURE_ID column, a reference-area
-/// dimension, TIME_PERIOD and OBS_VALUE.
-pub fn looks_like_sdmx(headers: &[String]) -> bool {
-    let codes: Vec<String> = headers.iter().map(|h| code(h).to_uppercase()).collect();
-    let has = |name: &str| codes.iter().any(|c| c == name);
-    (has("DATAFLOW") || has("STRUCTURE") || has("STRUCTURE_ID"))
-        && has("TIME_PERIOD")
-        && has("OBS_VALUE")
-        && area_column(&codes).is_some()
-}
+pub use crate::ingest::layout::looks_like_sdmx;
 
 pub fn load_sdmx(
     text_table: &table::TextTable,

@@ -178,7 +178,7 @@ pub(crate) fn insert_factor(
                 table.resource.kind.as_str()
             ),
             "one factor per entity and year",
-            "remove the duplicate, or check whether two names in the table mean the same country",
+            "remove the duplicate, or check whether two names in the table mean the same country; if the file holds several series (two indicators or measures), keep one series per file, or use the source's SDMX-CSV download with a \"filter\"",
         ));
     }
     table

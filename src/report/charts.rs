@@ -36,11 +36,7 @@ fn colour(p: &Point) -> RGBColor {
 
 /// Adds `<title>` and `<desc>` right after the opening `<svg ...>` tag.
 fn accessible(svg: String, title: &str, desc: &str) -> String {
-    let escape = |t: &str| {
-        t.replace('&', "&amp;")
-            .replace('<', "&lt;")
-            .replace('>', "&gt;")
-    };
+    let escape = crate::report::format::html_escape;
     match svg.find('>') {
         Some(end) => format!(
             "{}<title>{}</title><desc>{}</desc>{}",

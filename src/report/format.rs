@@ -61,8 +61,20 @@ fn to_decimal(value: f64) -> Option<Decimal> {
         .or_else(|| Decimal::from_f64(value))
 }
 
+/// Digits before the decimal point of `d` (1 for numbers below one).
+fn integer_digits(d: Decimal) -> u32 {
+    d.abs()
+        .trunc()
+        .normalize()
+        .to_string()
+        .trim_start_matches('-')
+        .len() as u32
+}
+
 fn round_dp(value: f64, dp: u32) -> String {
-    match to_decimal(value) {
+    // The decimal holds 28 digits in all; beyond that, f64's own formatting (also round half
+    // to even on the binary value) serves.
+    match to_decimal(value).filter(|d| integer_digits(*d) + dp <= 28) {
         Some(d) => {
             let rounded = d.round_dp_with_strategy(dp, RoundingStrategy::MidpointNearestEven);
             let rounded = if rounded.is_zero() {
@@ -117,6 +129,56 @@ fn group_thousands(text: &str) -> String {
         grouped.push(c);
     }
     format!("{sign}{grouped}{fraction}")
+}
+
+/// Text from an input shown to a person: control characters (ESC, BEL, carriage returns and
+/// the like, which a terminal would act on) are written as `\u{1b}` escapes. Line breaks are
+/// kept; callers that need one line per cell replace them (see `one_line`).
+pub fn visible(text: &str) -> std::borrow::Cow<'_, str> {
+    if !text.chars().any(|c| c.is_control() && c != '\n') {
+        return std::borrow::Cow::Borrowed(text);
+    }
+    let mut out = String::with_capacity(text.len() + 8);
+    for c in text.chars() {
+        if c.is_control() && c != '\n' {
+            out.push_str(&c.escape_unicode().to_string());
+        } else {
+            out.push(c);
+        }
+    }
+    std::borrow::Cow::Owned(out)
+}
+
+/// A cell for a one-line-per-row format (terminal table, Markdown): control characters
+/// escaped and line breaks written as `\n`.
+pub fn one_line(text: &str) -> String {
+    visible(text).replace('\n', "\\n")
+}
+
+/// The one escaping of every string written into HTML or SVG: `& < > " '` as entities, and
+/// control characters made visible. The report and the charts cannot write input text by
+/// another route.
+pub fn html_escape(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in visible(text).chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            other => out.push(other),
+        }
+    }
+    out
+}
+
+/// Whether a spreadsheet would take a text cell for a formula: it starts with `=`, `+`, `-`,
+/// `@`, a tab or a carriage return, and is not a number or a missing-value mark (`-12`, `+3`
+/// and `-` are left as they are).
+pub fn runs_as_formula(text: &str) -> bool {
+    text.starts_with(['=', '+', '-', '@', '\t', '\r'])
+        && crate::ingest::number::parse_cell(text, Default::default()).is_err()
 }
 
 /// A float column's cells (all null when the column is absent).
@@ -210,8 +272,8 @@ impl<'a> CellSource<'a> {
         }
     }
 
-    /// Replaces `buf` with the next cell's text.
-    pub fn next_into(&mut self, rounding: Rounding, buf: &mut String) {
+    /// Replaces `buf` with the next cell's text (`guard`: see `report::write_csv`).
+    pub fn next_into(&mut self, rounding: Rounding, guard: bool, buf: &mut String) {
         use std::fmt::Write;
         buf.clear();
         match self {
@@ -228,7 +290,13 @@ impl<'a> CellSource<'a> {
                     let _ = write!(buf, "{x}");
                 }
             }
-            CellSource::Text(cells) => buf.push_str(cells.next().flatten().unwrap_or("")),
+            CellSource::Text(cells) => {
+                let text = cells.next().flatten().unwrap_or("");
+                if guard && runs_as_formula(text) {
+                    buf.push('\'');
+                }
+                buf.push_str(text);
+            }
             CellSource::Other(cells) => buf.push_str(&cells.next().unwrap_or_default()),
         }
     }
@@ -265,12 +333,64 @@ mod tests {
     use super::*;
 
     #[test]
+    fn hostile_text_is_escaped_for_html_and_terminals() {
+        assert_eq!(
+            html_escape("<img src=x onerror=alert(1)> & \"'"),
+            "&lt;img src=x onerror=alert(1)&gt; &amp; &quot;&#39;"
+        );
+        assert_eq!(visible("a\u{1b}[31mb\u{7}"), "a\\u{1b}[31mb\\u{7}");
+        assert_eq!(one_line("two\nlines"), "two\\nlines");
+        assert_eq!(visible("plain"), "plain");
+        // Formula injection (OWASP "CSV Injection"): formulas are guarded, numbers are not.
+        for formula in [
+            "=HYPERLINK(\"http://x\")",
+            "@SUM(A1)",
+            "+1+2",
+            "-2+3",
+            "\t=1",
+        ] {
+            assert!(runs_as_formula(formula), "{formula}");
+        }
+        for plain in ["-12", "+3", "-", "Chile", "1,234.5", "=", ""] {
+            assert_eq!(runs_as_formula(plain), plain == "=", "{plain}");
+        }
+    }
+
+    #[test]
     fn half_to_even_at_the_requested_decimals() {
         // Round half to even (IEEE 754-2008 roundTiesToEven; common practice in statistics).
         assert_eq!(format_number(2.5, Rounding::Decimals(0), false), "2");
         assert_eq!(format_number(3.5, Rounding::Decimals(0), false), "4");
         assert_eq!(format_number(0.125, Rounding::Decimals(2), false), "0.12");
         assert_eq!(format_number(-0.0001, Rounding::Decimals(2), false), "0.00");
+    }
+
+    #[test]
+    fn every_allowed_rounding_formats_without_failing() {
+        // --decimals 0..=20 and --sig 1..=17 over numbers from tiny to huge never fail.
+        for value in [
+            0.0,
+            0.1,
+            -2.5,
+            123456789012345.25,
+            7.9e28,
+            1e300,
+            4.9e-324,
+            -1e-300,
+        ] {
+            for dp in 0..=20 {
+                let text = format_number(value, Rounding::Decimals(dp), false);
+                assert!(!text.is_empty(), "{value} {dp}");
+            }
+            for sig in 1..=17 {
+                let text = format_number(value, Rounding::Significant(sig), true);
+                assert!(!text.is_empty(), "{value} {sig}");
+            }
+        }
+        assert_eq!(
+            format_number(123456789012345.25, Rounding::Decimals(20), false).len(),
+            36
+        );
     }
 
     #[test]

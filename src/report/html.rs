@@ -31,10 +31,7 @@ td.hash { font-family: ui-monospace, monospace; font-size: 11px; word-break: bre
 ";
 
 fn escape(text: &str) -> String {
-    text.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
+    super::format::html_escape(text)
 }
 
 /// Chart points per (group, year), ranked rows only.
@@ -216,7 +213,8 @@ pub fn render(
             "<figure><figcaption>Ranks before and after adjustment, {scope}</figcaption>{slope}<p class=\"source\">{}</p></figure>\
              <figure><figcaption>Values on one axis, {scope}</figcaption>{dots}<p class=\"source\">{}</p></figure>",
             escape(&source),
-            escape(&source)
+            escape(&source),
+            scope = escape(&scope),
         ));
     }
     if charts_html.is_empty() {

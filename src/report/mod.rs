@@ -69,13 +69,16 @@ pub fn render(
     summary: &RunSummary,
     format: Format,
     rounding: Rounding,
+    guard: bool,
 ) -> Result<String> {
     Ok(match format {
         Format::Table => render_table(frame, summary, reader_rounding(rounding)),
         Format::Md => render_markdown(frame, summary, reader_rounding(rounding)),
-        Format::Csv => render_csv(frame, rounding)?,
+        Format::Csv => render_csv(frame, rounding, guard)?,
         Format::Json => render_json(frame, summary, rounding)?,
-        Format::Methods | Format::ChartCsv | Format::Parquet => render_chart_csv(frame, rounding)?,
+        Format::Methods | Format::ChartCsv | Format::Parquet => {
+            render_chart_csv(frame, rounding, guard)?
+        }
     })
 }
 
@@ -86,9 +89,10 @@ fn reader_rounding(rounding: Rounding) -> Rounding {
     }
 }
 
-pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
+/// The frame as csv text; `guard` neutralises text cells a spreadsheet would run as formulas.
+pub fn render_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> Result<String> {
     let mut bytes = Vec::new();
-    write_csv(frame, rounding, true, &mut bytes)?;
+    write_csv(frame, rounding, true, guard, &mut bytes)?;
     Ok(String::from_utf8_lossy(&bytes).into_owned())
 }
 
@@ -96,10 +100,14 @@ pub fn render_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
 const CSV_SLICE_ROWS: usize = 65_536;
 
 /// Writes the frame as csv (with or without the header line) to `out`, a slice at a time.
+/// With `guard`, a text cell that a spreadsheet would take for a formula (it starts with `=`,
+/// `+`, `-`, `@`, a tab or a carriage return and is not a number) is written with a leading
+/// `'`, the common defence of csv exports (OWASP, "CSV Injection"); numbers are never touched.
 pub fn write_csv(
     frame: &DataFrame,
     rounding: Rounding,
     header: bool,
+    guard: bool,
     out: &mut dyn std::io::Write,
 ) -> Result<()> {
     let names: Vec<String> = frame
@@ -131,7 +139,7 @@ pub fn write_csv(
             .collect();
         for _ in 0..slice.height() {
             for column in columns.iter_mut() {
-                column.next_into(rounding, &mut cell);
+                column.next_into(rounding, guard, &mut cell);
                 writer.write_field(cell.as_bytes()).map_err(io_error)?;
             }
             writer.write_record(None::<&[u8]>).map_err(io_error)?;
@@ -146,7 +154,7 @@ pub fn write_csv(
 
 /// One row per entity, year and group, one column per stage (input, each step, baseline,
 /// adjusted) and the ranks: the wide shape that charting tools take without reshaping.
-pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding) -> Result<String> {
+pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> Result<String> {
     let keep: Vec<String> = frame
         .get_column_names()
         .iter()
@@ -161,7 +169,7 @@ pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding) -> Result<String>
     let narrow = frame
         .select(keep)
         .map_err(Error::engine("selecting chart columns"))?;
-    render_csv(&narrow, rounding)
+    render_csv(&narrow, rounding, guard)
 }
 
 pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> Result<String> {
@@ -314,7 +322,7 @@ pub fn render_table(frame: &DataFrame, summary: &RunSummary, rounding: Rounding)
     let mut builder = tabled::builder::Builder::default();
     builder.push_record(header.iter().map(|h| h.to_string()));
     for row in rows {
-        builder.push_record(row);
+        builder.push_record(row.iter().map(|c| format::one_line(c)));
     }
     let mut table = builder.build();
     let numeric_from = header.iter().position(|h| *h == "as given").unwrap_or(2);
@@ -354,7 +362,10 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
     }
     out.push('\n');
     for row in rows {
-        let cells: Vec<String> = row.iter().map(|c| c.replace('|', "\\|")).collect();
+        let cells: Vec<String> = row
+            .iter()
+            .map(|c| format::one_line(c).replace('|', "\\|"))
+            .collect();
         out.push_str(&format!("| {} |\n", cells.join(" | ")));
     }
     out.push('\n');
@@ -384,10 +395,15 @@ pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
 }
 
 /// Writes the frame as csv to `path` atomically, without holding the whole text in memory.
-pub fn write_csv_atomically(path: &Path, frame: &DataFrame, rounding: Rounding) -> Result<()> {
+pub fn write_csv_atomically(
+    path: &Path,
+    frame: &DataFrame,
+    rounding: Rounding,
+    guard: bool,
+) -> Result<()> {
     let temp = temp_beside(path)?;
     let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-    write_csv(frame, rounding, true, &mut buffered)?;
+    write_csv(frame, rounding, true, guard, &mut buffered)?;
     let temp = buffered
         .into_inner()
         .map_err(|e| Error::io(path.display(), "write the output", e.into_error()))?;

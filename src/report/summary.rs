@@ -46,8 +46,12 @@ pub fn units_line(summary: &RunSummary) -> String {
     )
 }
 
-/// The summary for stderr.
+/// The summary for stderr, with control characters from the input escaped.
 pub fn render(summary: &RunSummary) -> String {
+    super::format::visible(&render_plain(summary)).into_owned()
+}
+
+fn render_plain(summary: &RunSummary) -> String {
     let mut out = format!(
         "levelfield: {} row(s) in, {} row(s) out, {} flagged\n",
         summary.rows_in, summary.rows_out, summary.rows_flagged
