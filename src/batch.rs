@@ -83,14 +83,14 @@ pub enum Status {
 }
 
 pub fn run(args: &BatchArgs) -> Result<Outcome> {
-    let (jobs, output_dir) = read_manifest(&args.manifest)?;
+    let (jobs, output_dir) = read_manifest(&args.manifest, args.allow_outside)?;
     let results = run_jobs(&jobs, output_dir.as_deref(), args)?;
     let failed = results
         .iter()
         .filter(|r| matches!(r.status, Status::Failed(_)))
         .count();
     if !args.quiet || failed > 0 {
-        print!("{}", render_results(&results));
+        crate::write_stdout(&render_results(&results))?;
     }
     for r in &results {
         if let Status::Failed(message) = &r.status {
@@ -124,7 +124,7 @@ fn manifest_error(
 }
 
 /// Reads the manifest and expands patterns into jobs, in manifest order.
-fn read_manifest(path: &Path) -> Result<(Vec<Job>, Option<PathBuf>)> {
+fn read_manifest(path: &Path, allow_outside: bool) -> Result<(Vec<Job>, Option<PathBuf>)> {
     let label = path.display().to_string();
     let bytes = crate::source::read_file(path)?;
     let text = String::from_utf8_lossy(&bytes).into_owned();
@@ -218,6 +218,18 @@ fn read_manifest(path: &Path) -> Result<(Vec<Job>, Option<PathBuf>)> {
             });
         }
     }
+    if let Some(dir) = &manifest.output_dir {
+        if !allow_outside && !crate::source::stays_inside(&folder, dir.get_ref()) {
+            return Err(manifest_error(
+                &label,
+                &text,
+                dir.span(),
+                "output_dir",
+                format!("\"{}\" is outside the manifest's folder", dir.get_ref()),
+                "put output_dir inside the manifest's folder, or pass --allow-outside on the command line",
+            ));
+        }
+    }
     let output_dir = manifest.output_dir.map(|d| within(d.get_ref()));
     if let Some(dir) = &output_dir {
         if !dir.is_dir() {
@@ -228,7 +240,11 @@ fn read_manifest(path: &Path) -> Result<(Vec<Job>, Option<PathBuf>)> {
 }
 
 /// The arguments of one job: the recipe's, with the pattern's input and a placed output.
-fn job_plan(job: &Job, output_dir: Option<&Path>) -> Result<(AdjustArgs, crate::plan::AdjustPlan)> {
+fn job_plan(
+    job: &Job,
+    output_dir: Option<&Path>,
+    allow_outside: bool,
+) -> Result<(AdjustArgs, crate::plan::AdjustPlan)> {
     let argv = [
         "levelfield".into(),
         "adjust".into(),
@@ -244,6 +260,7 @@ fn job_plan(job: &Job, output_dir: Option<&Path>) -> Result<(AdjustArgs, crate::
         ));
     };
     args.input = job.input.as_ref().map(|p| p.to_string_lossy().into_owned());
+    args.allow_outside = allow_outside;
     let place_outputs = |args: &mut AdjustArgs| -> Result<()> {
         let input =
             match args.input.as_deref() {
@@ -348,7 +365,7 @@ fn run_jobs(jobs: &[Job], output_dir: Option<&Path>, args: &BatchArgs) -> Result
                 problem.clone(),
                 "check the pattern in the manifest",
             )),
-            None => job_plan(job, output_dir).and_then(|(_, plan)| {
+            None => job_plan(job, output_dir, args.allow_outside).and_then(|(_, plan)| {
                 result.input = plan.input_label.clone();
                 result.output = plan.output.path.clone();
                 crate::execute(&plan)

@@ -58,6 +58,11 @@ pub struct BatchArgs {
     /// No progress bar, and no summary table when every table succeeded.
     #[arg(short, long)]
     pub quiet: bool,
+
+    /// Let the manifest and its recipes write outside their own folders (by default every
+    /// output must lie inside them). Command line only.
+    #[arg(long)]
+    pub allow_outside: bool,
 }
 
 #[derive(Debug, Args)]
@@ -179,6 +184,11 @@ pub struct AdjustArgs {
     /// After the run, write its settings as a recipe to FILE (paths relative to FILE's folder).
     #[arg(long, value_name = "FILE", help_heading = "Recipe")]
     pub save_recipe: Option<PathBuf>,
+
+    /// Let the recipe write outputs outside its own folder (by default a recipe's outputs must
+    /// lie inside it). Command line only: a recipe cannot grant it to itself.
+    #[arg(long, help_heading = "Recipe")]
+    pub allow_outside: bool,
 
     /// The flags given on the command line (clap ids), so a recipe knows what they override.
     #[arg(skip)]

@@ -133,7 +133,7 @@ pub fn run(args: &DemoArgs) -> Result<Outcome> {
     }
     let plan = demo_plan(args)?;
     if plan.output.format == crate::report::Format::Table {
-        print!("{}", if args.margins { MARGIN_BANNER } else { BANNER });
+        crate::write_stdout(if args.margins { MARGIN_BANNER } else { BANNER })?;
     }
     crate::execute(&plan)?;
     eprintln!(

@@ -24,6 +24,7 @@ pub mod adjust;
 pub mod attach;
 pub mod audit;
 pub mod batch;
+pub mod cleanup;
 pub mod cli;
 pub mod demo;
 pub mod entity;
@@ -77,7 +78,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             }
             let (title, tables) =
                 reference::coverage::survey(&source::DiskDir::new(&args.dir), &resolver)?;
-            print!("{}", reference::coverage::render(&title, &tables));
+            write_stdout(&reference::coverage::render(&title, &tables))?;
             Ok(if tables.iter().any(|t| t.error.is_some()) {
                 Outcome::Findings
             } else {
@@ -119,7 +120,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             };
             match &args.output {
                 Some(path) => report::write_atomically(path, &text)?,
-                None => print!("{text}"),
+                None => write_stdout(&text)?,
             }
             Ok(if report.fails(args.fail_on) {
                 Outcome::Findings
@@ -128,7 +129,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             })
         }
         Command::Lead(args) => {
-            print!("{}", plan::describe_lead(&args)?);
+            write_stdout(&plan::describe_lead(&args)?)?;
             Ok(Outcome::Ok)
         }
     }
@@ -137,8 +138,10 @@ pub fn run(cli: Cli) -> Result<Outcome> {
 /// Runs a resolved adjust plan: pipeline (in memory or in pieces), output, methods note,
 /// report, summary.
 pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
+    // Every output is staged and renamed into place together at the end, when all are done.
+    let mut staging = report::Staging::new();
     let mut output = match &plan.streaming {
-        Some(stream) => streaming::execute(plan, stream)?,
+        Some(stream) => streaming::execute(plan, stream, &mut staging)?,
         None => pipeline::run_adjust(
             &plan.input_bytes,
             &plan.input_label,
@@ -157,21 +160,32 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             )
         });
     }
-    if let Some(stream) = &plan.streaming {
-        // The output is already written, piece by piece; only the note and summary remain.
-        if let Some(path) = &plan.output.methods {
-            let sha256 = source::sha256_of_file(&stream.path)?;
-            let note = methods_note(plan, &output, &sha256);
-            report::write_atomically(path, &report::methods::render_markdown(&note))?;
-        }
-        print_summary(plan, &output);
-        return Ok(output);
-    }
-    let input_sha256 = report::methods::sha256_hex(&plan.input_bytes);
+    let input_sha256 = match &plan.streaming {
+        Some(stream) => source::sha256_of_file(&stream.path)?,
+        None => report::methods::sha256_hex(&plan.input_bytes),
+    };
     let note = methods_note(plan, &output, &input_sha256);
+    if let Some(path) = &plan.output.methods {
+        staging.text(path, &report::methods::render_markdown(&note))?;
+    }
+    if plan.streaming.is_none() {
+        stage_outputs(plan, &output, &note, &mut staging)?;
+    }
+    let written = staging.commit()?;
+    print_summary(plan, &output, &written);
+    Ok(output)
+}
+
+/// Stages the report and the table (or writes the table to standard output).
+fn stage_outputs(
+    plan: &plan::AdjustPlan,
+    output: &pipeline::AdjustOutput,
+    note: &report::methods::MethodsNote,
+    staging: &mut report::Staging,
+) -> Result<()> {
     let render = || -> Result<String> {
         Ok(match plan.output.format {
-            report::Format::Methods => report::methods::render_markdown(&note),
+            report::Format::Methods => report::methods::render_markdown(note),
             format => report::render(
                 &output.frame,
                 &output.summary,
@@ -181,25 +195,22 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             )?,
         })
     };
-    if let Some(path) = &plan.output.methods {
-        report::write_atomically(path, &report::methods::render_markdown(&note))?;
-    }
     if let Some(path) = &plan.output.report {
         let html =
-            report::html::render(&output.frame, &output.summary, &note, plan.output.rounding)?;
-        report::write_atomically(path, &html)?;
+            report::html::render(&output.frame, &output.summary, note, plan.output.rounding)?;
+        staging.text(path, &html)?;
     }
     match &plan.output.path {
         Some(path) if plan.output.format == report::Format::Parquet => {
-            report::write_parquet_atomically(path, &output.frame)?
+            staging.parquet(path, &output.frame)?
         }
-        Some(path) if plan.output.format == report::Format::Csv => report::write_csv_atomically(
+        Some(path) if plan.output.format == report::Format::Csv => staging.csv(
             path,
             &output.frame,
             plan.output.rounding,
             plan.output.guard_formulas,
         )?,
-        Some(path) => report::write_atomically(path, &render()?)?,
+        Some(path) => staging.text(path, &render()?)?,
         None if plan.output.format == report::Format::Parquet => {
             return Err(error::Error::usage(
                 "Parquet is a binary format and is not written to the terminal",
@@ -207,30 +218,51 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             ))
         }
         None => {
-            let mut stdout = std::io::stdout().lock();
-            stdout
-                .write_all(render()?.as_bytes())
-                .map_err(|e| error::Error::io("standard output", "write", e))?;
+            write_stdout(&render()?)?;
         }
     }
-    print_summary(plan, &output);
-    Ok(output)
+    Ok(())
 }
 
-fn print_summary(plan: &plan::AdjustPlan, output: &pipeline::AdjustOutput) {
+/// Writes to standard output. When its reader has gone away (`| head`), the tool stops quietly
+/// with exit code 0, as command-line tools do.
+pub fn write_stdout(text: &str) -> Result<()> {
+    let mut stdout = std::io::stdout().lock();
+    match stdout
+        .write_all(text.as_bytes())
+        .and_then(|()| stdout.flush())
+    {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
+        Err(e) => Err(error::Error::io("standard output", "write", e)),
+    }
+}
+
+/// The summary on stderr (or, with --quiet, its warnings), and every file written.
+fn print_summary(
+    plan: &plan::AdjustPlan,
+    output: &pipeline::AdjustOutput,
+    written: &[std::path::PathBuf],
+) {
     if plan.output.quiet {
         // --quiet leaves out the summary, never its warnings.
         for warning in &output.summary.warnings {
             eprintln!("levelfield: warning: {}", report::format::visible(warning));
         }
-    } else {
-        eprint!("{}", report::summary::render(&output.summary));
-        if let Some(path) = &plan.output.path {
+        return;
+    }
+    eprint!("{}", report::summary::render(&output.summary));
+    for path in written {
+        if Some(path) == plan.output.path.as_ref() {
             eprintln!(
                 "  wrote {} ({} rows)",
                 path.display(),
                 output.summary.rows_out
             );
+        } else if Some(path) == plan.output.methods.as_ref() {
+            eprintln!("  wrote the methods note to {}", path.display());
+        } else {
+            eprintln!("  wrote the report to {}", path.display());
         }
     }
 }

@@ -20,7 +20,7 @@ use crate::source::{self, DiskDir};
 use crate::uncertainty::moe::Level;
 use crate::uncertainty::ranking::{IntervalMethod, IntervalSettings};
 use rust_decimal::Decimal;
-use std::io::{IsTerminal, Read};
+use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 use std::str::FromStr;
 
@@ -70,6 +70,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
             "pass INPUT (a file, or - for standard input), or set input in the recipe",
         )
     })?;
+    source::set_read_limit_mb(args.columns.max_input_mb);
     let (input_bytes, input_label, streaming) = if args.streaming {
         let path = PathBuf::from(input);
         if input != "-" && !path.is_file() {
@@ -88,7 +89,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         let (bytes, label) = read_input(input, args.columns.max_input_mb)?;
         (bytes, label, None)
     };
-    for out in [
+    let outputs: Vec<&Path> = [
         &output.path,
         &output.methods,
         &output.report,
@@ -96,7 +97,10 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
     ]
     .into_iter()
     .flatten()
-    {
+    .map(PathBuf::as_path)
+    .collect();
+    refuse_same_outputs(&outputs, args.recipe.as_deref())?;
+    for out in &outputs {
         refuse_overwrite(out, input, args.refs.as_deref(), &args.aliases)?;
     }
     let mut resolver = Resolver::builtin();
@@ -517,29 +521,11 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
 }
 
 fn read_input(input: &str, max_mb: u64) -> Result<(Vec<u8>, String)> {
-    let limit = max_mb.saturating_mul(1024 * 1024);
-    let too_large = |label: &str| {
-        Error::usage(
-            format!("{label} is larger than {max_mb} MB (--max-input-mb)"),
-            "raise --max-input-mb if the machine has the memory, or split the table",
-        )
-    };
+    source::set_read_limit_mb(max_mb);
     if input == "-" {
-        let mut bytes = Vec::new();
-        std::io::stdin()
-            .take(limit + 1)
-            .read_to_end(&mut bytes)
-            .map_err(|e| Error::io("standard input", "read", e))?;
-        if bytes.len() as u64 > limit {
-            return Err(too_large("standard input"));
-        }
-        return Ok((bytes, "<stdin>".into()));
+        return Ok((source::read_stdin()?, "<stdin>".into()));
     }
-    let path = Path::new(input);
-    if std::fs::metadata(path).is_ok_and(|m| m.is_file() && m.len() > limit) {
-        return Err(too_large(input));
-    }
-    Ok((source::read_file(path)?, input.to_string()))
+    Ok((source::read_file(Path::new(input))?, input.to_string()))
 }
 
 fn load_refs(dir: &Path, resolver: &mut Resolver) -> Result<References> {
@@ -550,6 +536,33 @@ fn load_refs(dir: &Path, resolver: &mut Resolver) -> Result<References> {
         ));
     }
     reference::load(&DiskDir::new(dir), resolver)
+}
+
+/// The outputs of one run are different files, and none is the recipe that asked for them.
+fn refuse_same_outputs(outputs: &[&Path], recipe: Option<&Path>) -> Result<()> {
+    let key = |p: &Path| -> PathBuf {
+        let absolute = std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf());
+        let parent = absolute.parent().and_then(|d| d.canonicalize().ok());
+        match (parent, absolute.file_name()) {
+            (Some(dir), Some(name)) => dir.join(name),
+            _ => crate::recipe::normalize(&absolute),
+        }
+    };
+    for (i, a) in outputs.iter().enumerate() {
+        if let Some(b) = outputs[..i].iter().find(|b| key(b) == key(a)) {
+            return Err(Error::usage(
+                format!("{} is asked for twice: the table, the methods note, the report and the saved recipe would overwrite each other", b.display()),
+                "give each output its own file name",
+            ));
+        }
+        if recipe.is_some_and(|r| key(r) == key(a)) {
+            return Err(Error::usage(
+                format!("the output {} is the recipe file itself", a.display()),
+                "write the output to another file; the recipe stays as it is",
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// The output may not replace the input, a reference table or an alias file.

@@ -3,7 +3,9 @@
 //! validation code serves both, and error messages name the file the user can open.
 
 use crate::error::{Error, Result};
+use std::io::Read;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
 
 pub trait FileSource {
     /// The bytes of a file named relative to this source.
@@ -24,7 +26,17 @@ impl DiskDir {
 }
 
 impl FileSource for DiskDir {
+    /// Reads a file named by the catalog; it must lie inside the catalog's folder, so that a
+    /// catalog from someone else cannot make levelfield read (and quote) files elsewhere.
     fn read(&self, relative: &str) -> Result<Vec<u8>> {
+        if !stays_inside(&self.root, relative) {
+            return Err(Error::bad_input(
+                crate::error::Location::file(self.label(crate::reference::CATALOG_FILE)),
+                format!("the catalog names \"{relative}\", which is outside the catalog's folder"),
+                "paths relative to the folder of datapackage.json, inside it",
+                "copy the file into the catalog's folder and name it there",
+            ));
+        }
         let path = self.root.join(relative);
         read_file(&path)
     }
@@ -60,16 +72,102 @@ impl FileSource for Embedded {
     }
 }
 
-/// Reads a file, refusing directories with a message that says so.
+/// The most bytes any one file may hold (`--max-input-mb`), for every file read: input, recipe,
+/// manifest, catalog, reference table and alias file.
+static READ_LIMIT: AtomicU64 = AtomicU64::new(DEFAULT_LIMIT_MB << 20);
+pub const DEFAULT_LIMIT_MB: u64 = 4096;
+
+/// Sets the limit of every later read, in megabytes.
+pub fn set_read_limit_mb(mb: u64) {
+    READ_LIMIT.store(mb.saturating_mul(1 << 20), Ordering::Relaxed);
+}
+
+pub fn read_limit() -> u64 {
+    READ_LIMIT.load(Ordering::Relaxed)
+}
+
+/// Reads a file: the one reader of every file levelfield opens. Only a regular file is read
+/// (a folder, a device such as /dev/zero, a pipe or a socket is refused before anything is
+/// read), and never more than the read limit, even when the file grows while it is read.
 pub fn read_file(path: &Path) -> Result<Vec<u8>> {
-    if path.is_dir() {
+    let label = path.display().to_string();
+    let metadata = std::fs::metadata(path).map_err(|e| Error::io(&label, "read the file", e))?;
+    if metadata.is_dir() {
         return Err(Error::io(
-            path.display(),
+            &label,
             "read a folder as a table",
             std::io::Error::other("this path is a folder; give the path of a file inside it"),
         ));
     }
-    std::fs::read(path).map_err(|e| Error::io(path.display(), "read the file", e))
+    if !metadata.is_file() {
+        return Err(Error::io(
+            &label,
+            "read the file",
+            std::io::Error::other(
+                "this is not a regular file (a device, a pipe or a socket, which could be read without end); save the table to a file, or pass - to read standard input",
+            ),
+        ));
+    }
+    let limit = read_limit();
+    if metadata.len() > limit {
+        return Err(too_large(&label, limit));
+    }
+    let file = std::fs::File::open(path).map_err(|e| Error::io(&label, "open", e))?;
+    let mut bytes = Vec::with_capacity(metadata.len() as usize);
+    file.take(limit + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| Error::io(&label, "read the file", e))?;
+    if bytes.len() as u64 > limit {
+        return Err(too_large(&label, limit));
+    }
+    Ok(bytes)
+}
+
+/// Standard input, within the read limit.
+pub fn read_stdin() -> Result<Vec<u8>> {
+    let limit = read_limit();
+    let mut bytes = Vec::new();
+    std::io::stdin()
+        .take(limit + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| Error::io("standard input", "read", e))?;
+    if bytes.len() as u64 > limit {
+        return Err(too_large("standard input", limit));
+    }
+    Ok(bytes)
+}
+
+fn too_large(label: &str, limit: u64) -> Error {
+    Error::usage(
+        format!("{label} is larger than {} MB (--max-input-mb)", limit >> 20),
+        "raise --max-input-mb if the machine has the memory, or split the table (--streaming reads large CSV files in pieces)",
+    )
+}
+
+/// Whether `relative` (a path from a catalog or a recipe) stays inside `root`: relative, with no
+/// `..` that climbs out, and, once links are followed, still under `root`.
+pub fn stays_inside(root: &Path, relative: &str) -> bool {
+    let path = Path::new(relative);
+    if path.is_absolute() || path.has_root() {
+        return false;
+    }
+    let mut depth: i64 = 0;
+    for part in path.components() {
+        match part {
+            std::path::Component::ParentDir => depth -= 1,
+            std::path::Component::Normal(_) => depth += 1,
+            std::path::Component::CurDir => {}
+            _ => return false,
+        }
+        if depth < 0 {
+            return false;
+        }
+    }
+    match (root.canonicalize(), root.join(path).canonicalize()) {
+        (Ok(root), Ok(full)) => full.starts_with(root),
+        // Not there (yet): the words of the path decided.
+        _ => true,
+    }
 }
 
 /// The sha256 of a file read in blocks (for inputs too large to hold), as lowercase hex.

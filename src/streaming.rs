@@ -160,10 +160,16 @@ struct Columns {
 /// The run needs restarting with `assume_base_rows` (a later piece holds base-currency rows).
 struct Restart;
 
-pub fn execute(plan: &AdjustPlan, stream: &StreamingPlan) -> Result<pipeline::AdjustOutput> {
+/// Runs the table in pieces; the csv is staged in `staging`, to be renamed into place with the
+/// run's other outputs.
+pub fn execute(
+    plan: &AdjustPlan,
+    stream: &StreamingPlan,
+    staging: &mut report::Staging,
+) -> Result<pipeline::AdjustOutput> {
     let mut settings = plan.settings.clone();
     loop {
-        match run(plan, stream, &settings)? {
+        match run(plan, stream, &settings, staging)? {
             Ok(output) => return Ok(output),
             Err(Restart) => settings.assume_base_rows = true,
         }
@@ -174,6 +180,7 @@ fn run(
     plan: &AdjustPlan,
     stream: &StreamingPlan,
     settings: &PipelineSettings,
+    staging: &mut report::Staging,
 ) -> Result<std::result::Result<pipeline::AdjustOutput, Restart>> {
     let label = plan.input_label.as_str();
     let output = plan
@@ -215,6 +222,7 @@ fn run(
         .prefix(".levelfield-pieces-")
         .tempdir_in(&folder)
         .map_err(|e| Error::io(folder.display(), "create a temporary folder in", e))?;
+    crate::cleanup::register(spill_dir.path());
 
     let mut first: Option<FirstPiece> = None;
     let mut spilled: Vec<Spilled> = Vec::new();
@@ -412,7 +420,7 @@ fn run(
     let temp = buffered
         .into_inner()
         .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
-    report::persist_atomically(temp, output)?;
+    staging.file(temp, output);
 
     let mut notes = first.notes.clone();
     let total_lines = rows_before;

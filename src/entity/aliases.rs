@@ -28,7 +28,7 @@ impl Resolver {
     /// Loads a UTF-8 alias file; returns how many new names it added.
     pub fn add_alias_file(&mut self, path: &Path) -> Result<usize> {
         let label = path.display().to_string();
-        let bytes = std::fs::read(path).map_err(|e| Error::io(&label, "read", e))?;
+        let bytes = crate::source::read_file(path)?;
         let text = match String::from_utf8(bytes) {
             Ok(text) => text,
             Err(e) => {

@@ -256,6 +256,19 @@ pub fn find_table(
         ));
     }
     let (header_index, header_reason) = choose_header(&all, options, file)?;
+    // A file without a line of two fields is no table; say so without quoting it (it may be
+    // a file that was never meant to be read as data).
+    if all.iter().all(|r| r.filled() < 2) {
+        return Err(Error::bad_input(
+            Location::file(file),
+            format!(
+                "no line holds two or more fields separated by the {} delimiter: this is not a delimited table",
+                delimiter_name(delimiter)
+            ),
+            "a header line naming the columns, then one line per figure",
+            "check that the right file was given, or pass --delimiter if the table uses another one",
+        ));
+    }
     let header_line = all[header_index].line;
     let mut skipped: Vec<String> = all[..header_index]
         .iter()

@@ -33,6 +33,8 @@ struct Merge<'a> {
     loaded: &'a LoadedRecipe,
     given: &'a BTreeSet<String>,
     overridden: Vec<String>,
+    /// `--allow-outside` was given on the command line (a recipe key cannot grant it).
+    allow_outside: bool,
 }
 
 impl<'a> Merge<'a> {
@@ -71,6 +73,21 @@ impl<'a> Merge<'a> {
     fn path(&self, value: &Spanned<String>) -> String {
         self.loaded.path(value.get_ref())
     }
+
+    /// An output path of the recipe: it must lie inside the recipe's folder, so that a recipe
+    /// from someone else cannot write elsewhere, unless the command line allows it.
+    fn output_path(&self, key: &str, value: &Spanned<String>) -> Result<String> {
+        let written = value.get_ref();
+        if !self.allow_outside && !crate::source::stays_inside(&self.loaded.folder, written) {
+            return Err(self.loaded.error_at(
+                key,
+                value.span(),
+                format!("\"{written}\" is outside the recipe's folder"),
+                "write the outputs of a recipe inside its folder, or pass --allow-outside on the command line to let this recipe write there",
+            ));
+        }
+        Ok(self.path(value))
+    }
 }
 
 /// Fills `args` from the recipe where the command line did not speak; `given` holds the clap
@@ -85,6 +102,7 @@ pub fn merge(
         loaded,
         given,
         overridden: Vec::new(),
+        allow_outside: args.allow_outside,
     };
     if let Some(v) = r.input.as_ref() {
         if args.input.is_some() {
@@ -296,7 +314,7 @@ fn merge_output(m: &mut Merge, o: &super::OutputSection, args: &mut cli::OutputA
         args.format = Some(m.choice("output.format", v)?);
     }
     if let Some(v) = m.take("output.file", "output", &o.file) {
-        args.output = Some(PathBuf::from(m.path(v)));
+        args.output = Some(PathBuf::from(m.output_path("output.file", v)?));
     }
     if let Some(v) = m.take("output.decimals", "decimals", &o.decimals) {
         args.decimals = Some(*v.get_ref());
@@ -308,10 +326,10 @@ fn merge_output(m: &mut Merge, o: &super::OutputSection, args: &mut cli::OutputA
         args.quiet = *v.get_ref();
     }
     if let Some(v) = m.take("output.methods", "methods", &o.methods) {
-        args.methods = Some(PathBuf::from(m.path(v)));
+        args.methods = Some(PathBuf::from(m.output_path("output.methods", v)?));
     }
     if let Some(v) = m.take("output.report", "report", &o.report) {
-        args.report = Some(PathBuf::from(m.path(v)));
+        args.report = Some(PathBuf::from(m.output_path("output.report", v)?));
     }
     Ok(())
 }

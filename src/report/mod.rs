@@ -375,39 +375,79 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
     out
 }
 
-/// Writes the frame as Parquet (typed columns, full precision) atomically.
-pub fn write_parquet_atomically(path: &Path, frame: &DataFrame) -> Result<()> {
-    let temp = temp_beside(path)?;
-    let mut frame = frame.clone();
-    ParquetWriter::new(temp.as_file())
-        .finish(&mut frame)
-        .map_err(Error::engine("writing Parquet"))?;
-    persist_atomically(temp, path)
+/// The outputs of one run, each written to a temporary file beside its destination, then
+/// renamed into place together by `commit` once every one of them is complete. Dropped before
+/// `commit`, it leaves nothing behind (and an earlier output stays as it was).
+#[derive(Default)]
+pub struct Staging {
+    files: Vec<(tempfile::NamedTempFile, std::path::PathBuf)>,
+}
+
+impl Staging {
+    pub fn new() -> Staging {
+        Staging::default()
+    }
+
+    /// Text to `path`.
+    pub fn text(&mut self, path: &Path, text: &str) -> Result<()> {
+        let mut temp = temp_beside(path)?;
+        temp.write_all(text.as_bytes())
+            .map_err(|e| Error::io(path.display(), "write the output", e))?;
+        self.file(temp, path);
+        Ok(())
+    }
+
+    /// The frame as csv to `path`, without holding the whole text in memory.
+    pub fn csv(
+        &mut self,
+        path: &Path,
+        frame: &DataFrame,
+        rounding: Rounding,
+        guard: bool,
+    ) -> Result<()> {
+        let temp = temp_beside(path)?;
+        let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
+        write_csv(frame, rounding, true, guard, &mut buffered)?;
+        let temp = buffered
+            .into_inner()
+            .map_err(|e| Error::io(path.display(), "write the output", e.into_error()))?;
+        self.file(temp, path);
+        Ok(())
+    }
+
+    /// The frame as Parquet (typed columns, full precision) to `path`.
+    pub fn parquet(&mut self, path: &Path, frame: &DataFrame) -> Result<()> {
+        let temp = temp_beside(path)?;
+        let mut frame = frame.clone();
+        ParquetWriter::new(temp.as_file())
+            .finish(&mut frame)
+            .map_err(Error::engine("writing Parquet"))?;
+        self.file(temp, path);
+        Ok(())
+    }
+
+    /// A temporary file written elsewhere (the streaming csv), to be renamed to `path`.
+    pub fn file(&mut self, temp: tempfile::NamedTempFile, path: &Path) {
+        self.files.push((temp, path.to_path_buf()));
+    }
+
+    /// Renames every output into place, in the order staged; returns the paths written.
+    pub fn commit(self) -> Result<Vec<std::path::PathBuf>> {
+        let mut written = Vec::with_capacity(self.files.len());
+        for (temp, path) in self.files {
+            persist_atomically(temp, &path)?;
+            written.push(path);
+        }
+        Ok(written)
+    }
 }
 
 /// Writes `text` to `path` through a temporary file in the same folder and a rename, so a
 /// failure never leaves a half-written file and an earlier output stays intact.
 pub fn write_atomically(path: &Path, text: &str) -> Result<()> {
-    let mut temp = temp_beside(path)?;
-    temp.write_all(text.as_bytes())
-        .map_err(|e| Error::io(path.display(), "write the output", e))?;
-    persist_atomically(temp, path)
-}
-
-/// Writes the frame as csv to `path` atomically, without holding the whole text in memory.
-pub fn write_csv_atomically(
-    path: &Path,
-    frame: &DataFrame,
-    rounding: Rounding,
-    guard: bool,
-) -> Result<()> {
-    let temp = temp_beside(path)?;
-    let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-    write_csv(frame, rounding, true, guard, &mut buffered)?;
-    let temp = buffered
-        .into_inner()
-        .map_err(|e| Error::io(path.display(), "write the output", e.into_error()))?;
-    persist_atomically(temp, path)
+    let mut staging = Staging::new();
+    staging.text(path, text)?;
+    staging.commit().map(|_| ())
 }
 
 /// A temporary file in the folder of `path` (so the final rename stays on one file system).
@@ -423,8 +463,10 @@ pub fn temp_beside(path: &Path) -> Result<tempfile::NamedTempFile> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => std::path::PathBuf::from("."),
     };
-    tempfile::NamedTempFile::new_in(&dir)
-        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))
+    let temp = tempfile::NamedTempFile::new_in(&dir)
+        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
+    crate::cleanup::register(temp.path());
+    Ok(temp)
 }
 
 /// Moves a finished temporary file (created in the target's folder) over `path`.
@@ -444,6 +486,7 @@ pub fn persist_atomically(temp: tempfile::NamedTempFile, path: &Path) -> Result<
     temp.as_file()
         .sync_all()
         .map_err(|e| Error::io(path.display(), "write the output", e))?;
+    crate::cleanup::forget(temp.path());
     temp.persist(path).map_err(|e| {
         Error::io(
             path.display(),

@@ -9,6 +9,7 @@ mod browser;
 mod corpus;
 mod errors;
 mod golden;
+mod hostile;
 mod properties;
 mod published;
 mod recipes;
