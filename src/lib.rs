@@ -30,6 +30,8 @@ pub mod demo;
 pub mod entity;
 pub mod error;
 pub mod flags;
+#[doc(hidden)]
+pub mod fuzz_checks;
 pub mod ingest;
 pub mod pipeline;
 pub mod plan;

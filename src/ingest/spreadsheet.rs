@@ -32,6 +32,7 @@ pub fn sheet_to_csv(
             "open it in a spreadsheet program and save it again, or export the sheet as CSV",
         )
     };
+    check_unpacked_size(bytes, file)?;
     let mut workbook =
         open_workbook_auto_from_rs(Cursor::new(bytes.to_vec())).map_err(unreadable)?;
     let names = workbook.sheet_names();
@@ -57,6 +58,7 @@ pub fn sheet_to_csv(
             }
         },
     };
+    check_declared_size(&mut workbook, &name, file)?;
     let range = workbook.worksheet_range(&name).map_err(unreadable)?;
     let formula_rows: Vec<usize> = workbook
         .worksheet_formula(&name)
@@ -125,6 +127,109 @@ pub fn sheet_to_csv(
         ));
     }
     Ok((text, notes, formula_rows))
+}
+
+/// The most bytes the XML inside a workbook may unpack to, and the most cells a sheet may
+/// declare: beyond them a file is refused before it is unpacked or its cells allocated (a small
+/// file can unpack to gigabytes, or declare a sheet of 17 billion cells).
+const UNPACKED_LIMIT: u64 = 512 << 20;
+const CELL_LIMIT: u64 = 10_000_000;
+
+fn too_big(file: &str, what: String) -> Error {
+    Error::bad_input(
+        Location::file(file),
+        what,
+        format!(
+            "a workbook that unpacks to at most {} MB, with a sheet of at most {} cells",
+            UNPACKED_LIMIT >> 20,
+            CELL_LIMIT
+        ),
+        "export the sheet as CSV (levelfield reads large CSV files, also in pieces with --streaming)",
+    )
+}
+
+/// Zip-based workbooks (.xlsx, .xlsm, .ods): the sum of the sizes their entries declare.
+fn check_unpacked_size(bytes: &[u8], file: &str) -> Result<()> {
+    let Ok(mut archive) = zip::ZipArchive::new(Cursor::new(bytes)) else {
+        return Ok(()); // .xls, or a damaged file calamine will name
+    };
+    let mut total: u64 = 0;
+    for i in 0..archive.len() {
+        if let Ok(entry) = archive.by_index_raw(i) {
+            total = total.saturating_add(entry.size());
+        }
+    }
+    if total > UNPACKED_LIMIT {
+        return Err(too_big(
+            file,
+            format!("the workbook unpacks to {} MB", total >> 20),
+        ));
+    }
+    Ok(())
+}
+
+/// The sheet's declared dimensions (xlsx and xlsb), checked before calamine reserves memory for
+/// every cell they span.
+fn check_declared_size<RS: std::io::Read + std::io::Seek>(
+    workbook: &mut calamine::Sheets<RS>,
+    name: &str,
+    file: &str,
+) -> Result<()> {
+    // The declared dimensions, then the cells themselves: the range calamine builds spans
+    // every used cell, wherever the sheet says it ends.
+    let (declared, used) = match workbook {
+        calamine::Sheets::Xlsx(x) => match x.worksheet_cells_reader(name) {
+            Ok(mut r) => {
+                let declared = r.dimensions();
+                (
+                    Some(declared),
+                    used_extent(|| r.next_cell().ok().flatten().map(|c| c.get_position())),
+                )
+            }
+            Err(_) => (None, None),
+        },
+        calamine::Sheets::Xlsb(x) => match x.worksheet_cells_reader(name) {
+            Ok(mut r) => {
+                let declared = r.dimensions();
+                (
+                    Some(declared),
+                    used_extent(|| r.next_cell().ok().flatten().map(|c| c.get_position())),
+                )
+            }
+            Err(_) => (None, None),
+        },
+        _ => (None, None),
+    };
+    let declared = declared
+        .filter(|d| d.len() > CELL_LIMIT)
+        .or(used.filter(|d| d.len() > CELL_LIMIT));
+    match declared {
+        Some(d) if d.len() > CELL_LIMIT => Err(too_big(
+            file,
+            format!(
+                "the sheet \"{name}\" spans {} rows by {} columns ({} cells)",
+                d.end.0 - d.start.0 + 1,
+                d.end.1 - d.start.1 + 1,
+                d.len()
+            ),
+        )),
+        _ => Ok(()),
+    }
+}
+
+/// The extent of the cells a reader yields (stopping past the cell limit).
+fn used_extent(mut next: impl FnMut() -> Option<(u32, u32)>) -> Option<calamine::Dimensions> {
+    let (mut start, mut end) = ((u32::MAX, u32::MAX), (0u32, 0u32));
+    let mut count: u64 = 0;
+    while let Some((row, column)) = next() {
+        start = (start.0.min(row), start.1.min(column));
+        end = (end.0.max(row), end.1.max(column));
+        count += 1;
+        if count > CELL_LIMIT {
+            break;
+        }
+    }
+    (count > 0).then(|| calamine::Dimensions::new(start, end))
 }
 
 /// A cell as the text the table reader expects; line breaks inside a cell become spaces so that

@@ -8,6 +8,7 @@ mod audit_engine;
 mod browser;
 mod corpus;
 mod errors;
+mod fuzz_replay;
 mod golden;
 mod hostile;
 mod properties;
