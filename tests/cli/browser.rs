@@ -126,3 +126,57 @@ fn demo_report_renders_in_a_real_browser_without_network() {
         }
     }
 }
+
+#[test]
+fn no_script_from_a_hostile_table_runs_in_the_report() {
+    // The injected markup would change the page's title if it ran; escaped, it is only text.
+    assert!(
+        Path::new(CHROMIUM).exists(),
+        "chromium is missing: apt-get install chromium"
+    );
+    let env = setup();
+    let payload = "<img src=x onerror=\"document.title='INJECTED'\"><script>document.title='INJECTED'</script>";
+    let quoted = payload.replace('"', "\"\"");
+    let refs = env.path("refs");
+    std::fs::create_dir_all(&refs).unwrap();
+    // Invented entities and figures (user-assigned codes): only the text matters here.
+    std::fs::write(refs.join("datapackage.json"), r#"{"aliases":["aliases.csv"],"resources":[{"name":"fx","path":"fx.csv","kind":"fx"},{"name":"ppp","path":"ppp.csv","kind":"ppp"}]}"#).unwrap();
+    std::fs::write(
+        refs.join("aliases.csv"),
+        format!("name,code\n\"{quoted}\",XQA\nPlainland,XQB\n"),
+    )
+    .unwrap();
+    std::fs::write(refs.join("fx.csv"), "code,2020\nXQA,2\nXQB,4\n").unwrap();
+    std::fs::write(refs.join("ppp.csv"), "code,2020\nXQA,1\nXQB,3\n").unwrap();
+    let input = env.write("in.csv", &format!("country,year,value,item\n\"{quoted}\",2020,10,\"{quoted}\"\nPlainland,2020,20,\"{quoted}\"\n"));
+    let report = env.path("hostile.html");
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs.display().to_string(),
+        "--steps",
+        "ppp",
+        "--group",
+        "item",
+        "--report",
+        &report.display().to_string(),
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let out = chromium(
+        &env.path("profile-hostile"),
+        &["--dump-dom".into()],
+        &format!("file://{}", report.display()),
+    );
+    let dom = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        dom.contains("<title>levelfield report:"),
+        "{}",
+        &dom[..dom.len().min(400)]
+    );
+    assert!(!dom.contains("<title>INJECTED"), "an injected script ran");
+    assert!(!dom.contains("<img"), "an injected element was built");
+    assert!(dom.contains("onerror="), "the payload is shown as text");
+}
