@@ -17,6 +17,7 @@ pub const FORMULA_CELL: &str = "formula_cell";
 pub const UNBALANCED_QUOTE: &str = "unbalanced_quote";
 pub const NO_BASELINE: &str = "no_baseline";
 pub const SEVERAL_SERIES: &str = "several_series";
+pub const MIXED_CURRENCY: &str = "mixed_currency";
 pub const NO_MARGIN: &str = "no_margin";
 pub const ASYMMETRIC_CI: &str = "asymmetric_ci";
 pub const WITHIN_UNCERTAINTY: &str = "within_uncertainty";
@@ -39,6 +40,7 @@ pub const FLAG_MEANINGS: &[(&str, &str)] = &[
     (FORMULA_CELL, "the spreadsheet row holds a formula; its stored value was read, never evaluated"),
     (NO_BASELINE, "the reference catalog lacks a table the baseline needs (such as fx); the baseline, its rank and the shift are empty, the adjusted value is ranked"),
     (SEVERAL_SERIES, "another row has the same entity, group and year: the table holds several series; not ranked (pass --group COL to rank each series on its own)"),
+    (MIXED_CURRENCY, "the row's group and year hold figures in different currencies and no step converts them: not ranked (add market or ppp, or state one currency with --currency-code; XXX for counts)"),
     (UNBALANCED_QUOTE, "the line sits inside a quote that is never closed; its cells were read as written (kept because of --lenient)"),
     (NO_MARGIN, "the figure has no margin of error; it is treated as exact in rank intervals and ties"),
     (ASYMMETRIC_CI, "the confidence interval is not symmetric; the larger half is used as the margin"),

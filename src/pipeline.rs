@@ -69,6 +69,14 @@ pub struct RunSummary {
     pub adjusted_unit: String,
 }
 
+/// Whether the steps bring every figure to one unit (a currency conversion, or a ratio of
+/// income); without one, figures in different currencies must not be ranked together.
+pub(crate) fn converts_currency(steps: &[&'static dyn Step]) -> bool {
+    steps
+        .iter()
+        .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
+}
+
 /// Columns that currency steps make relevant: a figure in a foreign currency cannot be
 /// converted with its country's factors.
 fn needs_currency(steps: &[&'static dyn Step]) -> bool {
@@ -179,6 +187,8 @@ pub(crate) fn prepare(
     let mut basis_text: Vec<&'static str> = Vec::with_capacity(rows_in);
     let mut eligible: Vec<bool> = Vec::with_capacity(rows_in);
     let mut currency: Vec<Option<String>> = Vec::with_capacity(rows_in);
+    let mut units: Vec<Option<String>> = Vec::with_capacity(rows_in);
+    let converts = converts_currency(&settings.steps);
     let mut keys: HashSet<(String, i32)> = HashSet::new();
     let mut any_base = false;
     for (i, row) in ingested.rows.iter_mut().enumerate() {
@@ -204,6 +214,21 @@ pub(crate) fn prepare(
                 .clone()
                 .or_else(|| entities.currency[i].clone()),
         );
+        // The unit the adjusted value ends in, for the mixed-currency rule: one common unit
+        // when a step converts currencies (or makes a ratio); else the figure's currency, or,
+        // for an entity whose currency is unknown, a unit of its own.
+        units.push(if converts {
+            None
+        } else {
+            Some(
+                currency
+                    .last()
+                    .cloned()
+                    .flatten()
+                    .or_else(|| entities.code[i].clone().map(|c| format!("units of {c}")))
+                    .unwrap_or_default(),
+            )
+        });
         if let (Some(code), Some(year)) = (&entities.code[i], row.year) {
             keys.insert((code.clone(), year));
         }
@@ -248,6 +273,7 @@ pub(crate) fn prepare(
                 rows.iter().map(|r| r.value).collect::<Vec<_>>(),
             ),
             Column::new("currency".into(), currency),
+            Column::new("_unit".into(), units),
             Column::new("_basis".into(), basis_text),
             Column::new("_flags_pre".into(), flags_pre),
             Column::new("_rank_eligible".into(), eligible),
@@ -391,17 +417,22 @@ pub(crate) fn with_ranks_and_flags(
     baseline_missing: bool,
 ) -> Result<LazyFrame> {
     let entity = coalesce(&[col("entity_code"), col("entity_input")]);
+    let partition = [col("group"), col("year")];
     let several = rank::several_series(&[entity, col("group"), col("year")])
+        .map_err(Error::engine("ranking"))?;
+    let mixed = rank::mixed_units(col("_unit"), col("_rank_eligible"), &partition)
         .map_err(Error::engine("ranking"))?;
     let ranks = rank::rank_columns(
         settings.order,
-        col("_rank_eligible").and(col("_several").not()),
-        &[col("group"), col("year")],
+        col("_rank_eligible")
+            .and(col("_several").not())
+            .and(col("_mixed").not()),
+        &partition,
         baseline_missing,
     )
     .map_err(Error::engine("ranking"))?;
     Ok(with_flags(
-        lf.with_column(several).with_columns(ranks),
+        lf.with_columns([several, mixed]).with_columns(ranks),
         baseline_missing,
     ))
 }
@@ -419,6 +450,9 @@ pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
     let several = when(col("_several"))
         .then(lit(flags::SEVERAL_SERIES))
         .otherwise(lit(NULL).cast(DataType::String));
+    let mixed = when(col("_mixed"))
+        .then(lit(flags::MIXED_CURRENCY))
+        .otherwise(lit(NULL).cast(DataType::String));
     lf.with_column(rank::shift_column()).with_column(
         concat_str(
             [
@@ -426,6 +460,7 @@ pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
                 col("_factor_flags"),
                 no_baseline,
                 several,
+                mixed,
                 not_ranked,
             ],
             ";",
@@ -581,6 +616,11 @@ pub(crate) fn summarize(
         ));
     }
     let mut warnings: Vec<String> = references.map(|r| r.warnings()).unwrap_or_default();
+    if let Some(n) = counts.by_flag.get(flags::MIXED_CURRENCY) {
+        warnings.push(format!(
+            "{n} row(s) are not ranked: their group and year hold figures in different currencies and no step converts them (flag mixed_currency); add market or ppp to --steps, or state the one currency of every figure with --currency-code (XXX for figures that are not money, such as counts)"
+        ));
+    }
     if let Some(n) = counts.by_flag.get(flags::SEVERAL_SERIES) {
         warnings.push(format!(
             "{n} row(s) share their entity, group and year with another row: the table holds several series, so those rows are not ranked (flag several_series); pass --group COL with the column that tells the series apart (see the columns not used above)"

@@ -86,6 +86,22 @@ pub fn several_series(key: &[Expr]) -> PolarsResult<Expr> {
     Ok(len().over(key)?.gt(lit(1)).alias("_several"))
 }
 
+/// `_mixed`: the row's ranking group (partition) holds eligible figures in more than one unit
+/// (`unit`: a currency, or null when the steps bring every figure to one unit). Figures in
+/// different currencies are never ranked against each other.
+pub fn mixed_units(unit: Expr, eligible: Expr, partition: &[Expr]) -> PolarsResult<Expr> {
+    let counted = when(eligible)
+        .then(unit)
+        .otherwise(lit(NULL).cast(DataType::String));
+    Ok(counted
+        .drop_nulls()
+        .n_unique()
+        .over(partition)?
+        .gt(lit(1))
+        .fill_null(lit(false))
+        .alias("_mixed"))
+}
+
 /// `rank_shift` = rank_baseline − rank_adjusted: positive means the row moved up.
 pub fn shift_column() -> Expr {
     (col("rank_baseline") - col("rank_adjusted")).alias("rank_shift")

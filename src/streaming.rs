@@ -229,6 +229,7 @@ fn run(
     let mut narrow: Vec<DataFrame> = Vec::new();
     let mut groups: HashMap<String, u32> = HashMap::new();
     let mut entities: HashMap<String, u32> = HashMap::new();
+    let mut units: HashMap<String, u32> = HashMap::new();
     let mut lines_before = 0usize;
     let mut rows_before = 0usize;
     let mut ord = 0u64;
@@ -323,7 +324,16 @@ fn run(
             missing_tables: prepared.missing_tables.clone(),
         });
         let mut keep: Vec<Expr> = columns.head.iter().map(|c| col(c.as_str())).collect();
-        keep.extend(["_ord", "_flags_pre", "_factor_flags", "_rank_eligible"].map(col));
+        keep.extend(
+            [
+                "_ord",
+                "_flags_pre",
+                "_factor_flags",
+                "_rank_eligible",
+                "_unit",
+            ]
+            .map(col),
+        );
         let frame = prepared
             .lf
             .select(keep)
@@ -334,7 +344,7 @@ fn run(
                 ComputeError: "{} rows in, {} rows out", prepared.rows_in, frame.height()
             )));
         }
-        narrow.push(rank_inputs(&frame, &mut groups, &mut entities)?);
+        narrow.push(rank_inputs(&frame, &mut groups, &mut entities, &mut units)?);
         let path = spill_dir
             .path()
             .join(format!("piece-{:05}.parquet", spilled.len()));
@@ -369,11 +379,17 @@ fn run(
     let narrow = concat_frames(narrow)?;
     let several = crate::rank::several_series(&[col("_e"), col("_g"), col("year")])
         .map_err(Error::engine("ranking"))?;
+    let mixed = crate::rank::mixed_units(
+        col("_u").cast(DataType::String),
+        col("_rank_eligible"),
+        &[col("_g"), col("year")],
+    )
+    .map_err(Error::engine("ranking"))?;
     let mut rank_columns = rank_exprs(settings, !missing_tables.is_empty())?;
-    rank_columns.push(col("_several"));
+    rank_columns.extend([col("_several"), col("_mixed")]);
     let ranks = narrow
         .lazy()
-        .with_column(several)
+        .with_columns([several, mixed])
         .select(rank_columns)
         .collect()
         .map_err(Error::engine("ranking"))?;
@@ -490,6 +506,7 @@ fn rank_inputs(
     frame: &DataFrame,
     groups: &mut HashMap<String, u32>,
     entities: &mut HashMap<String, u32>,
+    units: &mut HashMap<String, u32>,
 ) -> Result<DataFrame> {
     let text = |name: &str| {
         frame
@@ -505,6 +522,7 @@ fn rank_inputs(
     };
     let ids: Vec<Option<u32>> = text("group")?.iter().map(|g| id(g, groups)).collect();
     let (codes, inputs) = (text("entity_code")?, text("entity_input")?);
+    let unit_ids: Vec<Option<u32>> = text("_unit")?.iter().map(|u| id(u, units)).collect();
     let entity_ids: Vec<Option<u32>> = codes
         .iter()
         .zip(inputs.iter())
@@ -524,6 +542,8 @@ fn rank_inputs(
         .select([
             lit(Series::new("_g".into(), ids)).alias("_g"),
             lit(Series::new("_e".into(), entity_ids)).alias("_e"),
+            lit(Series::new("_u".into(), unit_ids)).alias("_u"),
+            col("_rank_eligible"),
             col("year"),
             masked("value_baseline"),
             masked("value_adjusted"),
@@ -536,7 +556,7 @@ fn rank_inputs(
 fn rank_exprs(settings: &PipelineSettings, baseline_missing: bool) -> Result<Vec<Expr>> {
     crate::rank::rank_columns(
         settings.order,
-        col("_several").not(),
+        col("_several").not().and(col("_mixed").not()),
         &[col("_g"), col("year")],
         baseline_missing,
     )

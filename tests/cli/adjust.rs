@@ -170,7 +170,11 @@ fn currency_that_is_neither_local_nor_base_is_flagged_not_converted() {
 fn stdin_input_json_output_and_atomic_file_output() {
     let env = setup();
     let text = "country,year,value\nFrance,2020,1\nChile,2020,2\n";
-    let run = env.run_with_stdin(&["adjust", "-", "--format", "json"], Some(text));
+    // Figures without a currency (XXX): ranked as given.
+    let run = env.run_with_stdin(
+        &["adjust", "-", "--format", "json", "--currency-code", "XXX"],
+        Some(text),
+    );
     assert_eq!(run.code, 0, "{}", run.stderr);
     let json: serde_json::Value = serde_json::from_str(&run.stdout).expect("valid json");
     assert_eq!(json["rows"].as_array().unwrap().len(), 2);
@@ -194,6 +198,51 @@ fn stdin_input_json_output_and_atomic_file_output() {
         run.stderr
     );
     assert_eq!(std::fs::read_to_string(&input).unwrap(), text);
+}
+
+#[test]
+fn figures_in_different_currencies_are_not_ranked_against_each_other() {
+    // The same fee in twelve currencies would rank 57,400 of one above 620 of another.
+    let env = setup();
+    let input = env.write(
+        "fees.csv",
+        "country,year,value\n\"Korea, Rep.\",2023,57400\nFrance,2023,620\nCzechia,2023,31000\n",
+    );
+    for steps in ["", "per-capita"] {
+        let run = env.run(&[
+            "adjust",
+            &input,
+            "--steps",
+            steps,
+            "--refs",
+            &env.data("country-refs"),
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        let rows = run.rows();
+        assert!(
+            rows.iter()
+                .all(|r| r["flags"].contains("mixed_currency") && r["rank_adjusted"].is_empty()),
+            "{steps}: {rows:?}"
+        );
+        assert!(
+            run.stderr
+                .contains("add market or ppp to --steps, or state the one currency"),
+            "{}",
+            run.stderr
+        );
+    }
+    // One currency stated, or a conversion: ranked.
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--currency-code",
+        "XXX",
+        "--format",
+        "csv",
+    ]);
+    assert!(run.rows().iter().all(|r| !r["rank_adjusted"].is_empty()));
 }
 
 #[test]
@@ -293,7 +342,17 @@ fn ranks_are_per_group_and_year() {
         "items.csv",
         "country,year,item,value\nFrance,2020,bread,3\nCzechia,2020,bread,2\nFrance,2020,milk,1\nCzechia,2020,milk,4\nFrance,2021,bread,1\nCzechia,2021,bread,2\n",
     );
-    let run = env.run(&["adjust", &input, "--group", "item", "--format", "csv"]);
+    // Prices in one currency stated for the whole table (invented figures).
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--group",
+        "item",
+        "--format",
+        "csv",
+        "--currency-code",
+        "EUR",
+    ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let ranks: Vec<String> = run
         .rows()
@@ -302,7 +361,16 @@ fn ranks_are_per_group_and_year() {
         .collect();
     assert_eq!(ranks, vec!["1", "2", "2", "1", "2", "1"]);
     let asc = env.run(&[
-        "adjust", &input, "--group", "item", "--order", "asc", "--format", "csv",
+        "adjust",
+        &input,
+        "--group",
+        "item",
+        "--order",
+        "asc",
+        "--format",
+        "csv",
+        "--currency-code",
+        "EUR",
     ]);
     let ranks: Vec<String> = asc
         .rows()

@@ -188,6 +188,8 @@ fn survey_shares_ties_and_rank_intervals() {
         "95",
         "--format",
         "csv",
+        "--currency-code",
+        "XXX",
     ]);
     assert_eq!(run.code, 0, "{}", run.stderr);
     let rows = run.rows();
