@@ -167,6 +167,11 @@ pub struct LeadArgs {
     /// Shares are percentages (48) or fractions (0.48).
     #[arg(long, value_enum, default_value_t = ShareUnit::Percent)]
     pub share_unit: ShareUnit,
+
+    /// The survey's design effect (variance against a simple random sample of the same size;
+    /// 1 assumes simple random sampling). The margin grows with its square root.
+    #[arg(long, default_value_t = 1.0, value_name = "DEFF")]
+    pub design_effect: f64,
 }
 
 #[derive(Debug, Args, Clone)]
@@ -265,7 +270,7 @@ pub struct AdjustArgs {
 
 #[derive(Debug, Args, Clone)]
 pub struct UncertaintyArgs {
-    /// Column of margins of error of the figures (needs --moe-level).
+    /// Column of margins of error of the figures (needs --margin-confidence).
     #[arg(long, value_name = "COL", help_heading = "Uncertainty", conflicts_with_all = ["se", "ci_low", "sample_size"])]
     pub moe: Option<String>,
 
@@ -273,7 +278,7 @@ pub struct UncertaintyArgs {
     #[arg(long, value_name = "COL", help_heading = "Uncertainty", conflicts_with_all = ["ci_low", "sample_size"])]
     pub se: Option<String>,
 
-    /// Column of lower confidence bounds (with --ci-high and --moe-level).
+    /// Column of lower confidence bounds (with --ci-high and --margin-confidence).
     #[arg(
         long,
         value_name = "COL",
@@ -283,7 +288,7 @@ pub struct UncertaintyArgs {
     )]
     pub ci_low: Option<String>,
 
-    /// Column of upper confidence bounds (with --ci-low and --moe-level).
+    /// Column of upper confidence bounds (with --ci-low and --margin-confidence).
     #[arg(
         long,
         value_name = "COL",
@@ -297,9 +302,9 @@ pub struct UncertaintyArgs {
     pub sample_size: Option<String>,
 
     /// Confidence level of the given margins or bounds, and of the margins written out
-    /// (default 90 for --se and --sample-size).
-    #[arg(long, value_enum, help_heading = "Uncertainty")]
-    pub moe_level: Option<Level>,
+    /// (default 90 for --se and --sample-size). Formerly --moe-level.
+    #[arg(long, value_enum, help_heading = "Uncertainty", alias = "moe-level")]
+    pub margin_confidence: Option<Level>,
 
     /// Shares for --sample-size are percentages (48) or fractions (0.48).
     #[arg(long, value_enum, default_value_t = ShareUnit::Percent, help_heading = "Uncertainty")]
@@ -542,6 +547,13 @@ where
     T: Into<std::ffi::OsString> + Clone,
 {
     use clap::{CommandFactory, FromArgMatches};
+    let argv: Vec<T> = argv.into_iter().collect();
+    if argv.iter().any(|a| {
+        let a: std::ffi::OsString = a.clone().into();
+        a == "--moe-level" || a.to_string_lossy().starts_with("--moe-level=")
+    }) {
+        eprintln!("levelfield: note: --moe-level was renamed --margin-confidence; the old name still works for now");
+    }
     let matches = Cli::command().try_get_matches_from(argv)?;
     let mut cli = Cli::from_arg_matches(&matches)?;
     if let (Command::Adjust(args), Some(("adjust", sub))) = (&mut cli.command, matches.subcommand())

@@ -34,7 +34,7 @@ pub const DEMO_MARGIN_ARGS: &[&str] = &[
     "ppp",
     "--moe",
     "moe90",
-    "--moe-level",
+    "--margin-confidence",
     "90",
 ];
 

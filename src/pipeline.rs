@@ -65,6 +65,8 @@ pub struct RunSummary {
     pub method_notes: Vec<String>,
     pub references: Vec<String>,
     pub warnings: Vec<String>,
+    /// The cautions that travel with every publishable output (md, json, HTML, methods note).
+    pub cautions: Vec<String>,
     pub baseline_unit: String,
     pub adjusted_unit: String,
 }
@@ -471,6 +473,28 @@ pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
     )
 }
 
+/// The standard cautions, and those the run's settings call for.
+fn cautions(settings: &PipelineSettings) -> Vec<String> {
+    let mut out: Vec<String> = crate::report::methods::CAUTIONS
+        .iter()
+        .map(|c| c.to_string())
+        .collect();
+    let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
+    if names.contains(&"per-income") && settings.step_settings.income_as == adjust::IncomeAs::Days {
+        out.push("Days of income divide by a mean income per person over 365 days: a mean lies above what a typical or poor household earns, so the burden for them is larger than these figures show.".into());
+    }
+    if matches!(
+        settings.ingest.margins,
+        crate::ingest::margins::MarginSpec::SampleSize { .. }
+    ) {
+        out.push("Margins from sample sizes assume a simple random sample with no design effect; a clustered or weighted survey has wider margins, so some differences called real here may be ties.".into());
+    }
+    if settings.intervals.is_some() {
+        out.push("A rank shift flagged within_uncertainty lies inside the margins of error: do not report it as a change.".into());
+    }
+    out
+}
+
 /// The warning of a run whose catalog lacks a table only the baseline needs.
 pub(crate) fn missing_tables_warning(kinds: &[crate::reference::Kind]) -> Option<String> {
     if kinds.is_empty() {
@@ -654,6 +678,7 @@ pub(crate) fn summarize(
         method_notes,
         references: references.map(|r| r.describe()).unwrap_or_default(),
         warnings,
+        cautions: cautions(settings),
         baseline_unit: describe_track(&baseline_names, &settings.step_settings, starts_in_base),
         adjusted_unit: describe_track(&names, &settings.step_settings, starts_in_base),
     }

@@ -147,7 +147,7 @@ pub fn pipeline_settings(
     let u = &args.uncertainty;
     let has_margins = ingest.margins != MarginSpec::None || !uncertain_factors.is_empty();
     let intervals = has_margins.then(|| IntervalSettings {
-        level: u.moe_level.unwrap_or(Level::P90),
+        level: u.margin_confidence.unwrap_or(Level::P90),
         method: match u.rank_intervals {
             IntervalKind::Joint => IntervalMethod::Joint(u.joint_adjustment),
             IntervalKind::Simulate => IntervalMethod::Simulate {
@@ -281,7 +281,7 @@ pub fn margin_spec(args: &UncertaintyArgs) -> Result<MarginSpec> {
     let level_needed = |what: &str| {
         Error::usage(
             format!("{what} needs the confidence level it was stated at"),
-            "pass --moe-level 90, 95 or 99 (ACS and many agencies publish 90% margins; check the source's notes)",
+            "pass --margin-confidence 90, 95 or 99 (ACS and many agencies publish 90% margins; check the source's notes)",
         )
     };
     Ok(
@@ -294,7 +294,9 @@ pub fn margin_spec(args: &UncertaintyArgs) -> Result<MarginSpec> {
         ) {
             (Some(column), ..) => MarginSpec::Moe {
                 column: column.clone(),
-                level: args.moe_level.ok_or_else(|| level_needed("--moe"))?,
+                level: args
+                    .margin_confidence
+                    .ok_or_else(|| level_needed("--moe"))?,
             },
             (None, Some(column), ..) => MarginSpec::Se {
                 column: column.clone(),
@@ -303,7 +305,7 @@ pub fn margin_spec(args: &UncertaintyArgs) -> Result<MarginSpec> {
                 low: low.clone(),
                 high: high.clone(),
                 level: args
-                    .moe_level
+                    .margin_confidence
                     .ok_or_else(|| level_needed("--ci-low/--ci-high"))?,
             },
             (None, None, None, None, Some(column)) => MarginSpec::SampleSize {
@@ -335,10 +337,23 @@ pub fn describe_lead(args: &LeadArgs) -> Result<String> {
             "pass -n with the number of respondents",
         ));
     }
+    if !(args.design_effect.is_finite() && args.design_effect >= 1.0 && args.design_effect <= 100.0)
+    {
+        return Err(Error::usage(
+            format!("--design-effect {} is not a design effect", args.design_effect),
+            "pass a design effect from 1 (simple random sampling) to 100, as the survey's documentation states it",
+        ));
+    }
     let names: Vec<&str> = args.names.splitn(2, ',').map(str::trim).collect();
     let (a, b) = (names[0], names.get(1).copied().unwrap_or("second"));
     Ok(crate::uncertainty::poll::describe(
-        a, b, p1, p2, args.n, args.level,
+        a,
+        b,
+        p1,
+        p2,
+        args.n / args.design_effect,
+        args.level,
+        args.design_effect,
     ))
 }
 

@@ -132,7 +132,7 @@ impl Knobs {
             Role::Entity => "entity_field",
             Role::Value => "value_field",
             Role::Year => "year_field",
-            Role::Reserved => "se_field/moe_field",
+            Role::Reserved => "se_field/margin_field",
             Role::Wide => "layout",
             Role::Group | Role::Currency => "filter",
         }

@@ -276,9 +276,13 @@ fn merge_uncertainty(
     if let Some(v) = m.take("uncertainty.sample_size", "sample_size", &u.sample_size) {
         args.sample_size = text(v);
     }
-    if let Some(v) = m.take("uncertainty.moe_level", "moe_level", &u.moe_level) {
+    if let Some(v) = m.take(
+        "uncertainty.margin_confidence",
+        "margin_confidence",
+        &u.margin_confidence,
+    ) {
         let as_text = Spanned::new(v.span(), v.get_ref().to_string());
-        args.moe_level = Some(m.choice("uncertainty.moe_level", &as_text)?);
+        args.margin_confidence = Some(m.choice("uncertainty.margin_confidence", &as_text)?);
     }
     if let Some(v) = m.take("uncertainty.share_unit", "share_unit", &u.share_unit) {
         args.share_unit = m.choice("uncertainty.share_unit", v)?;

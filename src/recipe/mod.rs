@@ -117,7 +117,8 @@ pub struct UncertaintySection {
     pub sample_size: At<String>,
     /// 90, 95 or 99.
     #[serde(skip_serializing_if = "Option::is_none")]
-    pub moe_level: At<u32>,
+    #[serde(alias = "moe_level")]
+    pub margin_confidence: At<u32>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub share_unit: At<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -350,7 +351,7 @@ mod tests {
     #[test]
     fn reads_every_section() {
         let loaded = parse_text(
-            "input = \"fees.csv\"\nsteps = [\"deflate\", \"ppp\"]\nbase_year = 2023\n\n[columns]\nentity = \"country\"\n\n[uncertainty]\nmoe = \"moe\"\nmoe_level = 90\n\n[output]\nfile = \"out.csv\"\n",
+            "input = \"fees.csv\"\nsteps = [\"deflate\", \"ppp\"]\nbase_year = 2023\n\n[columns]\nentity = \"country\"\n\n[uncertainty]\nmoe = \"moe\"\nmargin_confidence = 90\n\n[output]\nfile = \"out.csv\"\n",
         )
         .unwrap();
         let r = &loaded.recipe;

@@ -88,8 +88,8 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
         ci_low: text(&u.ci_low),
         ci_high: text(&u.ci_high),
         sample_size: text(&u.sample_size),
-        moe_level: u
-            .moe_level
+        margin_confidence: u
+            .margin_confidence
             .map(|l| (l.confidence() * 100.0).round() as u32)
             .and_then(at),
         share_unit: (u.sample_size.is_some() || u.share_unit != ShareUnit::Percent)

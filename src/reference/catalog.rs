@@ -91,10 +91,10 @@ pub struct Resource {
     pub year_field: Option<String>,
     pub value_field: Option<String>,
     pub basis: Basis,
-    /// Column of standard errors (long tables), or of margins at `moe_level`.
+    /// Column of standard errors (long tables), or of margins at `margin_confidence`.
     pub se_field: Option<String>,
-    pub moe_field: Option<String>,
-    pub moe_level: Option<u32>,
+    pub margin_field: Option<String>,
+    pub margin_confidence: Option<u32>,
     /// `sdmx-csv` for files in the SDMX-CSV layout (versions 1 and 2); default plain CSV.
     pub format: Option<String>,
     /// SDMX dimensions to keep, code by dimension (for example a measure or unit code).
@@ -141,8 +141,10 @@ struct RawResource {
     value_field: Option<String>,
     basis: Option<String>,
     se_field: Option<String>,
-    moe_field: Option<String>,
-    moe_level: Option<u32>,
+    #[serde(alias = "moe_field")]
+    margin_field: Option<String>,
+    #[serde(alias = "moe_level")]
+    margin_confidence: Option<u32>,
     format: Option<String>,
     #[serde(default)]
     filter: std::collections::BTreeMap<String, String>,
@@ -227,20 +229,20 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
                 ))
             }
         };
-        if r.moe_field.is_some() && !matches!(r.moe_level, Some(90 | 95 | 99)) {
+        if r.margin_field.is_some() && !matches!(r.margin_confidence, Some(90 | 95 | 99)) {
             return Err(fail(
-                "moe_field without a moe_level of 90, 95 or 99".into(),
+                "margin_field without a margin_confidence of 90, 95 or 99".into(),
                 "the confidence level the margins are stated at",
-                "add \"moe_level\": 90 (or 95, 99)",
+                "add \"margin_confidence\": 90 (or 95, 99)",
             ));
         }
-        if (r.moe_field.is_some() || r.se_field.is_some())
+        if (r.margin_field.is_some() || r.se_field.is_some())
             && !matches!(kind, Kind::Population | Kind::Income)
         {
             return Err(fail(
                 format!("margins on a {} table", kind.as_str()),
                 "margins only on population and income tables (fx, ppp and cpi are treated as exact)",
-                "remove se_field / moe_field from this resource",
+                "remove se_field / margin_field from this resource",
             ));
         }
         let base_currency = r
@@ -267,8 +269,8 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
             value_field: r.value_field,
             basis,
             se_field: r.se_field,
-            moe_field: r.moe_field,
-            moe_level: r.moe_level,
+            margin_field: r.margin_field,
+            margin_confidence: r.margin_confidence,
             format: r.format,
             filter: r.filter,
             decimal_comma: r.decimal_comma,

@@ -40,7 +40,7 @@ pub struct Factor {
 
 impl RefTable {
     pub fn has_margins(&self) -> bool {
-        self.resource.se_field.is_some() || self.resource.moe_field.is_some()
+        self.resource.se_field.is_some() || self.resource.margin_field.is_some()
     }
 
     /// The standard error of the factor of `code` in `year`.
@@ -96,7 +96,7 @@ pub fn load_table(
         &resource.year_field,
         &resource.value_field,
         &resource.se_field,
-        &resource.moe_field,
+        &resource.margin_field,
     ]
     .into_iter()
     .flatten()
@@ -243,7 +243,7 @@ fn load_plain(
         reserved: resource
             .se_field
             .iter()
-            .chain(resource.moe_field.iter())
+            .chain(resource.margin_field.iter())
             .cloned()
             .collect(),
         knobs: Knobs::Catalog {
@@ -256,7 +256,7 @@ fn load_plain(
         return Err(Error::bad_input(
             Location::file(file),
             "a margin column in a wide table",
-            "a long table (entity, year, value, margin) when the catalog names se_field or moe_field",
+            "a long table (entity, year, value, margin) when the catalog names se_field or margin_field",
             "reshape the table to long form, or remove the margin property from the catalog",
         ));
     }
@@ -426,12 +426,14 @@ fn margin_se(cell: &str, resource: &Resource) -> Option<f64> {
         return None;
     };
     let margin = margin * resource.multiplier;
-    Some(match (resource.moe_field.is_some(), resource.moe_level) {
-        (true, Some(level)) => {
-            margin / crate::uncertainty::normal::two_sided_critical(level as f64 / 100.0)
-        }
-        _ => margin,
-    })
+    Some(
+        match (resource.margin_field.is_some(), resource.margin_confidence) {
+            (true, Some(level)) => {
+                margin / crate::uncertainty::normal::two_sided_critical(level as f64 / 100.0)
+            }
+            _ => margin,
+        },
+    )
 }
 
 /// The catalog's `filter` as (dimension column, code) of a dimensioned TSV.

@@ -52,7 +52,7 @@ fn accessible(svg: String, title: &str, desc: &str) -> String {
 type Drawn = Result<(), Box<dyn std::error::Error>>;
 
 /// Ranks from baseline (left) to adjusted (right); rank 1 at the top.
-pub fn slope_chart(points: &[Point], title: &str, desc: &str) -> String {
+pub fn slope_chart(points: &[Point], baseline: &str, title: &str, desc: &str) -> String {
     let height = 90 + 34 * points.len().max(2) as u32;
     let mut svg = String::new();
     let drawn: Drawn = (|| {
@@ -71,7 +71,7 @@ pub fn slope_chart(points: &[Point], title: &str, desc: &str) -> String {
             .build_cartesian_2d(0.0f64..1.0, (k + 0.5)..0.5f64)?;
         let header = ("sans-serif", 15).into_font().color(&INK);
         root.draw(&Text::new(
-            "rank before (market rates)",
+            format!("rank before ({baseline})"),
             (60, 12),
             header.clone(),
         ))?;
@@ -119,7 +119,13 @@ pub fn slope_chart(points: &[Point], title: &str, desc: &str) -> String {
 
 /// Baseline (hollow) and adjusted (filled) values of each entity on one axis, sorted by the
 /// adjusted value, with whiskers of ± the margin of error when there is one.
-pub fn dot_chart(points: &[Point], axis_label: &str, title: &str, desc: &str) -> String {
+pub fn dot_chart(
+    points: &[Point],
+    baseline: &str,
+    axis_label: &str,
+    title: &str,
+    desc: &str,
+) -> String {
     let mut sorted: Vec<&Point> = points.iter().collect();
     sorted.sort_by(|a, b| b.adjusted.total_cmp(&a.adjusted));
     let height = 110 + 30 * sorted.len().max(2) as u32;
@@ -192,7 +198,7 @@ pub fn dot_chart(points: &[Point], axis_label: &str, title: &str, desc: &str) ->
         }
         let key = ("sans-serif", 13).into_font().color(&INK);
         root.draw(&Circle::new((190, 12), 6, SAME.stroke_width(2)))?;
-        root.draw(&Text::new("baseline (market rates)", (202, 6), key.clone()))?;
+        root.draw(&Text::new(baseline.to_string(), (202, 6), key.clone()))?;
         root.draw(&Circle::new((400, 12), 6, UP.filled()))?;
         root.draw(&Text::new("adjusted", (412, 6), key))?;
         root.present()?;
@@ -233,7 +239,7 @@ mod tests {
 
     #[test]
     fn charts_are_svg_with_title_desc_and_direct_labels() {
-        let slope = slope_chart(&points(), "Ranks", "two entities");
+        let slope = slope_chart(&points(), "baseline", "Ranks", "two entities");
         assert!(
             slope.starts_with("<svg"),
             "{}",
@@ -241,7 +247,13 @@ mod tests {
         );
         assert!(slope.contains("<title>Ranks</title><desc>two entities</desc>"));
         assert!(slope.contains("Aa") && slope.contains("Bb"));
-        let dots = dot_chart(&points(), "international dollars", "Values", "one axis");
+        let dots = dot_chart(
+            &points(),
+            "baseline",
+            "international dollars",
+            "Values",
+            "one axis",
+        );
         assert!(dots.contains("international dollars"));
         assert!(dots.contains("<title>Values</title>"));
     }

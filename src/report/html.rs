@@ -30,6 +30,9 @@ code { font-size: 12px; background: #f1efe9; padding: 1px 4px; }
 td.hash { font-family: ui-monospace, monospace; font-size: 11px; word-break: break-all; }
 ";
 
+/// The group-years the report charts (the latest ones); the table holds every row.
+const CHARTED: usize = 6;
+
 fn escape(text: &str) -> String {
     super::format::html_escape(text)
 }
@@ -170,16 +173,38 @@ pub fn render(
         rounding
     };
     let source = format!(
-        "Source: {}; reference tables: {}. Made with levelfield.",
+        "Source: {}; reference tables: {}; computed by levelfield {}.",
         summary.input,
         if summary.references.is_empty() {
             "none".to_string()
         } else {
             summary.references.join("; ")
-        }
+        },
+        env!("CARGO_PKG_VERSION")
     );
+    let baseline_name = super::summary::baseline_name(summary);
+    let partitions = partitions(frame);
     let mut charts_html = String::new();
-    for ((group, year), points) in partitions(frame).iter().rev().take(6) {
+    let shown: Vec<_> = partitions.iter().rev().take(CHARTED).collect();
+    if partitions.len() > CHARTED {
+        let names: Vec<String> = shown
+            .iter()
+            .map(|((g, y), _)| {
+                if g.is_empty() {
+                    y.clone()
+                } else {
+                    format!("{g}, {y}")
+                }
+            })
+            .collect();
+        charts_html.push_str(&format!(
+            "<p>The charts show {} of the {} group-years ranked ({}); the table below holds them all.</p>",
+            CHARTED,
+            partitions.len(),
+            escape(&names.join("; "))
+        ));
+    }
+    for ((group, year), points) in shown {
         let scope = if group.is_empty() {
             year.clone()
         } else {
@@ -191,6 +216,7 @@ pub fn render(
             .count();
         let slope = charts::slope_chart(
             points,
+            &baseline_name,
             &format!("Ranks before and after adjustment, {scope}"),
             &format!(
                 "Slope chart of {} entities; {moved} change rank when the adjustment is applied.",
@@ -199,9 +225,10 @@ pub fn render(
         );
         let dots = charts::dot_chart(
             points,
+            &baseline_name,
             &format!("baseline: {} | adjusted: {}", summary.baseline_unit, summary.adjusted_unit),
             &format!("Baseline and adjusted values, {scope}"),
-            &format!("Dot chart of {} entities on one common axis; hollow dots market-rate baseline, filled dots adjusted.", points.len()),
+            &format!("Dot chart of {} entities on one common axis; hollow dots {baseline_name}, filled dots adjusted.", points.len()),
         );
         if slope.is_empty() || dots.is_empty() {
             return Err(Error::usage(

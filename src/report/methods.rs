@@ -73,6 +73,7 @@ pub struct FileLine {
 
 /// The standard cautions printed with every note.
 pub const CAUTIONS: &[&str] = &[
+    "Market rates and PPPs answer different questions: market rates for what money buys abroad, PPPs for what it buys at home. Say which one a chart uses.",
     "PPPs are estimates for a broad basket of goods and services; they may not fit one good or service, such as a single fee or price.",
     "Reference data (exchange rates, PPPs, price indices, populations) are revised between releases; cite the vintage used.",
     "A rank change inside the uncertainty of the figures is not a finding: a small gap can reverse with the next revision.",
@@ -128,10 +129,15 @@ pub fn build(
         .collect();
     if settings.steps.is_empty() {
         in_brief.push("The figures were ranked as given, without adjustment.".into());
-    } else {
+    } else if settings.steps.iter().any(|s| s.name() == "ppp") {
         in_brief.push(format!(
             "The comparison without the price-level adjustment (\"baseline\") uses the same steps with market exchange rates in place of PPPs: {}. The adjusted figures are in {}.",
             summary.baseline_unit, summary.adjusted_unit
+        ));
+    } else {
+        in_brief.push(format!(
+            "No step converts at PPPs, so the baseline is the adjusted figures themselves and no rank shift comes from a price-level adjustment. The figures are in {}.",
+            summary.adjusted_unit
         ));
     }
     in_brief.push(format!(
@@ -218,7 +224,7 @@ pub fn build(
         details,
         files,
         flagged,
-        cautions: CAUTIONS.iter().map(|c| c.to_string()).collect(),
+        cautions: summary.cautions.clone(),
         recipe: None,
     }
 }

@@ -187,6 +187,7 @@ pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) 
         "tool": "levelfield",
         "version": env!("CARGO_PKG_VERSION"),
         "summary": summary,
+        "cautions": summary.cautions,
     });
     out.push_str(&serde_json::to_string(&metadata).unwrap_or_default());
     out.push_str(",\n  \"rows\": [");
@@ -336,6 +337,7 @@ pub fn render_table(frame: &DataFrame, summary: &RunSummary, rounding: Rounding)
     out.push_str(&summary::units_line(summary));
     out.push('\n');
     out.push_str(&uncertainty_legend(frame));
+    out.push_str("cautions: read them before publishing, in the methods note (--methods FILE)\n");
     out
 }
 
@@ -372,6 +374,10 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
     out.push_str(&summary::units_line(summary));
     out.push('\n');
     out.push_str(&uncertainty_legend(frame));
+    out.push_str("\n**Cautions**\n\n");
+    for caution in &summary.cautions {
+        out.push_str(&format!("- {caution}\n"));
+    }
     out
 }
 

@@ -39,6 +39,16 @@ pub fn describe_track(steps: &[&str], settings: &StepSettings, starts_in_base: b
     text
 }
 
+/// What the baseline is, in a few words for chart legends: the run's own steps with market
+/// rates in place of PPPs when it has a PPP step, else the same figures as the adjusted ones.
+pub fn baseline_name(summary: &RunSummary) -> String {
+    if summary.steps.iter().any(|s| s == "ppp") {
+        "baseline, market rates".into()
+    } else {
+        "baseline, the same steps (no PPP step)".into()
+    }
+}
+
 pub fn units_line(summary: &RunSummary) -> String {
     format!(
         "baseline: {}; adjusted: {}",

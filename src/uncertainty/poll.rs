@@ -29,8 +29,17 @@ pub fn lead(p1: f64, p2: f64, n: f64, level: Level) -> Lead {
     }
 }
 
-/// The result in words, with shares and margins in percentage points.
-pub fn describe(first: &str, second: &str, p1: f64, p2: f64, n: f64, level: Level) -> String {
+/// The result in words, with shares and margins in percentage points. `n` is the effective
+/// sample size (the sample over its design effect `deff`), and the text states the assumption.
+pub fn describe(
+    first: &str,
+    second: &str,
+    p1: f64,
+    p2: f64,
+    n: f64,
+    level: Level,
+    deff: f64,
+) -> String {
     let l = lead(p1, p2, n, level);
     let points = |x: f64| format!("{:.1}", x * 100.0);
     let verdict = if l.beyond_margin {
@@ -44,12 +53,18 @@ pub fn describe(first: &str, second: &str, p1: f64, p2: f64, n: f64, level: Leve
             level.percent()
         )
     };
+    let assumption = if deff == 1.0 {
+        "margins assume a simple random sample (design effect 1); a weighted or clustered poll has wider ones: pass --design-effect from its documentation".to_string()
+    } else {
+        format!("margins allow for a design effect of {deff} (effective sample {n:.0})")
+    };
     format!(
-        "{first} {} (±{}), {second} {} (±{}), n = {n}\nlead: {} points, margin of the lead: ±{} points\n{verdict}\n",
+        "{first} {} (±{}), {second} {} (±{}), n = {}\nlead: {} points, margin of the lead: ±{} points\n{verdict}\n{assumption}\n",
         points(p1),
         points(l.margin_first),
         points(p2),
         points(l.margin_second),
+        n * deff,
         points(l.lead),
         points(l.margin),
     )
@@ -77,9 +92,22 @@ mod tests {
         let l = lead(0.48, 0.44, 1000.0, Level::P95);
         assert!((l.margin * 100.0 - 5.9).abs() < 0.05, "{}", l.margin);
         assert!(!l.beyond_margin);
-        let text = describe("A", "B", 0.48, 0.44, 1000.0, Level::P95);
+        let text = describe("A", "B", 0.48, 0.44, 1000.0, Level::P95, 1.0);
         assert!(text.contains("a statistical tie"), "{text}");
         let wide = lead(0.55, 0.35, 1000.0, Level::P95);
         assert!(wide.beyond_margin);
+    }
+
+    #[test]
+    fn a_design_effect_widens_the_margin_by_its_square_root() {
+        // Effective sample n / deff (Kish's design effect; common practice in survey reporting).
+        let simple = lead(0.48, 0.44, 1000.0, Level::P95).margin;
+        let clustered = lead(0.48, 0.44, 1000.0 / 2.0, Level::P95).margin;
+        assert!((clustered / simple - 2f64.sqrt()).abs() < 1e-12);
+        let text = describe("A", "B", 0.48, 0.44, 500.0, Level::P95, 2.0);
+        assert!(
+            text.contains("design effect of 2") && text.contains("n = 1000"),
+            "{text}"
+        );
     }
 }

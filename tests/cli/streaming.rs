@@ -152,7 +152,7 @@ fn streaming_output_is_byte_identical_on_a_wide_table_and_refuses_what_it_cannot
     for (extra, words) in [
         (vec!["--format", "md", "-o", "x.md"], "writes csv to a file"),
         (
-            vec!["-o", "x.csv", "--moe", "m", "--moe-level", "90"],
+            vec!["-o", "x.csv", "--moe", "m", "--margin-confidence", "90"],
             "margins of error",
         ),
         (vec!["-o", "x.csv", "--report", "r.html"], "HTML report"),

@@ -2,14 +2,14 @@
 
 use crate::{assert_golden, num, setup, Env};
 
-/// A reference folder whose population table carries 90% margins (long layout, moe_field).
+/// A reference folder whose population table carries 90% margins (long layout, margin_field).
 fn population_with_margins(env: &Env, population: &str, moe: &str) -> String {
     let refs = env.path("refs");
     std::fs::create_dir_all(&refs).unwrap();
     std::fs::write(
         refs.join("datapackage.json"),
         r#"{"resources":[{"name":"pop","path":"pop.csv","kind":"population","layout":"long",
-            "entity_field":"country","year_field":"year","value_field":"people","moe_field":"moe","moe_level":90}]}"#,
+            "entity_field":"country","year_field":"year","value_field":"people","margin_field":"moe","margin_confidence":90}]}"#,
     )
     .unwrap();
     std::fs::write(
@@ -40,7 +40,7 @@ fn proportion_with_an_uncertain_population_matches_the_acs_handbook() {
         "--proportion",
         "--moe",
         "moe",
-        "--moe-level",
+        "--margin-confidence",
         "90",
         "--format",
         "csv",
@@ -73,7 +73,7 @@ fn ratio_with_an_uncertain_denominator_uses_the_ratio_form() {
         "per-capita",
         "--moe",
         "moe",
-        "--moe-level",
+        "--margin-confidence",
         "90",
         "--format",
         "csv",
@@ -106,7 +106,7 @@ fn margins_scale_with_exact_factors_and_convert_between_levels() {
         "ppp",
         "--moe",
         "moe",
-        "--moe-level",
+        "--margin-confidence",
         "90",
         "--format",
         "csv",
@@ -125,7 +125,7 @@ fn margins_scale_with_exact_factors_and_convert_between_levels() {
         "ppp",
         "--se",
         "se",
-        "--moe-level",
+        "--margin-confidence",
         "95",
         "--format",
         "csv",
@@ -141,7 +141,7 @@ fn a_margin_without_its_level_is_refused_and_asymmetric_intervals_are_flagged() 
     let input = env.write("in.csv", "country,year,value,moe\nFrance,2020,10,1\n");
     let run = env.run(&["adjust", &input, "--moe", "moe"]);
     assert_eq!(run.code, 2);
-    assert!(run.stderr.contains("--moe-level"), "{}", run.stderr);
+    assert!(run.stderr.contains("--margin-confidence"), "{}", run.stderr);
     let ci = env.write(
         "ci.csv",
         "country,year,value,lo,hi\nFrance,2020,10,8,13\nChile,2020,20,18,22\n",
@@ -153,7 +153,7 @@ fn a_margin_without_its_level_is_refused_and_asymmetric_intervals_are_flagged() 
         "lo",
         "--ci-high",
         "hi",
-        "--moe-level",
+        "--margin-confidence",
         "95",
         "--format",
         "csv",
@@ -166,7 +166,7 @@ fn a_margin_without_its_level_is_refused_and_asymmetric_intervals_are_flagged() 
         "the larger half is kept"
     );
     let wide = env.write("wide.csv", "country,2020\nFrance,1\n");
-    let run = env.run(&["adjust", &wide, "--moe", "x", "--moe-level", "90"]);
+    let run = env.run(&["adjust", &wide, "--moe", "x", "--margin-confidence", "90"]);
     assert_eq!(run.code, 2);
 }
 
@@ -184,7 +184,7 @@ fn survey_shares_ties_and_rank_intervals() {
         &input,
         "--sample-size",
         "n",
-        "--moe-level",
+        "--margin-confidence",
         "95",
         "--format",
         "csv",
@@ -292,4 +292,47 @@ fn poll_lead_inside_its_margin_is_a_tie() {
     );
     let bad = env.run(&["lead", "70", "40", "-n", "1000"]);
     assert_eq!(bad.code, 2);
+}
+
+#[test]
+fn the_renamed_margin_flag_works_and_the_old_one_says_it_was_renamed() {
+    let env = setup();
+    let input = env.write(
+        "s.csv",
+        "country,year,value,m\nFrance,2020,10,1\nChile,2020,20,1\n",
+    );
+    let new = env.run(&[
+        "adjust",
+        &input,
+        "--moe",
+        "m",
+        "--margin-confidence",
+        "90",
+        "--currency-code",
+        "XXX",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(new.code, 0, "{}", new.stderr);
+    let old = env.run(&[
+        "adjust",
+        &input,
+        "--moe",
+        "m",
+        "--moe-level",
+        "90",
+        "--currency-code",
+        "XXX",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(old.code, 0, "{}", old.stderr);
+    assert_eq!(old.stdout, new.stdout);
+    assert!(
+        old.stderr
+            .contains("--moe-level was renamed --margin-confidence"),
+        "{}",
+        old.stderr
+    );
+    assert!(!new.stderr.contains("renamed"), "{}", new.stderr);
 }
