@@ -51,6 +51,21 @@ fn accessible(svg: String, title: &str, desc: &str) -> String {
 
 type Drawn = Result<(), Box<dyn std::error::Error>>;
 
+/// A tick label as a reader writes it: 100, not 100.0; 1,500; 2.5 (six significant digits at
+/// most, trailing zeros dropped).
+fn tick(x: f64) -> String {
+    let text = crate::report::format::format_number(
+        x,
+        crate::report::format::Rounding::Significant(6),
+        true,
+    );
+    if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
+}
+
 /// Ranks from baseline (left) to adjusted (right); rank 1 at the top.
 pub fn slope_chart(points: &[Point], baseline: &str, title: &str, desc: &str) -> String {
     let height = 90 + 34 * points.len().max(2) as u32;
@@ -165,10 +180,12 @@ pub fn dot_chart(
                     String::new()
                 }
             })
+            // Ticks as a reader writes them: 100, not 100.0; 1,500, not 1500.
+            .x_label_formatter(&|x| tick(*x))
             .x_desc(axis_label)
             .label_style(("sans-serif", 13).into_font().color(&INK))
             .axis_desc_style(("sans-serif", 14).into_font().color(&INK))
-            .light_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+            .light_line_style(RGBColor(0xf0, 0xf0, 0xf0))
             .draw()?;
         for (i, p) in sorted.iter().enumerate() {
             let y = i as f64;
@@ -235,6 +252,14 @@ mod tests {
                 moe_adjusted: None,
             },
         ]
+    }
+
+    #[test]
+    fn ticks_carry_no_spurious_decimals() {
+        assert_eq!(tick(100.0), "100");
+        assert_eq!(tick(1500.0), "1,500");
+        assert_eq!(tick(2.5), "2.5");
+        assert_eq!(tick(0.30000000000000004), "0.3");
     }
 
     #[test]
