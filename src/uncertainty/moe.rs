@@ -118,27 +118,38 @@ mod tests {
 
     #[test]
     fn acs_handbook_sum() {
-        // ACS General Handbook, ch. 8: 135,173±3,860 + 43,104±2,642 + 24,842±1,957 = 203,119 ± 5,070.
-        assert_eq!(135_173 + 43_104 + 24_842, 203_119);
-        assert_eq!(moe_sum(&[3860.0, 2642.0, 1957.0]).round(), 5070.0);
+        // ACS General Handbook, ch. 8: margins 3,860, 2,642 and 1,957 of a sum give ± 5,070 (the
+        // handbook rounds to units); the root of the squares, worked by hand, is 5,070.4648.
+        let moe = moe_sum(&[3860.0, 2642.0, 1957.0]);
+        assert!((moe - 5070.464_771_596_386).abs() < 1e-9, "{moe}");
+        // A plain sum of margins (a wrong formula) would give 8,459.
+        assert!((moe_sum(&[3860.0, 2642.0, 1957.0]) - 8459.0).abs() > 3000.0);
     }
 
     #[test]
     fn acs_handbook_proportion() {
-        // ACS General Handbook, ch. 8: 203,119±5,070 of 630,498±831 gives 0.322 ± 0.008.
-        let p: f64 = 203_119.0 / 630_498.0;
+        // ACS General Handbook, ch. 8: 203,119 ± 5,070 of 630,498 ± 831 is 0.322 ± 0.008. Worked
+        // by hand from those inputs: sqrt(5070² − (203119/630498)²·831²)/630498 = 0.0080300446.
+        // The ratio formula would give 0.0080525, the numerator's margin alone 0.0080413: the
+        // tolerance below tells all three apart.
         let moe = moe_proportion(203_119.0, 5070.0, 630_498.0, 831.0);
-        assert!((p - 0.322).abs() < 0.0005);
-        assert!((moe - 0.008).abs() < 0.0005, "{moe}");
+        assert!((moe - 0.008_030_044_578_210_323).abs() < 1e-12, "{moe}");
+        assert!((moe - 0.008_052_465).abs() > 1e-6, "not the ratio formula");
+        assert!(
+            (moe - 0.008_041_263).abs() > 1e-6,
+            "not the numerator's margin alone"
+        );
+        assert_eq!((moe * 1000.0).round(), 8.0, "the handbook's rounded 0.008");
     }
 
     #[test]
     fn ratio_form() {
-        // Worked by the ACS ratio formula: 226,840±5,556 / 203,119±5,070 = 1.117 ± 0.039.
-        let r: f64 = 226_840.0 / 203_119.0;
+        // The ACS ratio formula on the handbook's figures, worked by hand:
+        // 226,840 ± 5,556 over 203,119 ± 5,070: sqrt(5556² + 1.11678²·5070²)/203119 = 0.0390547.
         let moe = moe_ratio(226_840.0, 5556.0, 203_119.0, 5070.0);
-        assert!((r - 1.117).abs() < 0.0005);
-        assert!((moe - 0.039).abs() < 0.0005, "{moe}");
+        assert!((moe - 0.039_054_666_611_033_496).abs() < 1e-12, "{moe}");
+        // Leaving out the denominator's margin (a wrong formula) gives 0.0273535.
+        assert!((moe - 5556.0 / 203_119.0).abs() > 1e-3);
     }
 
     #[test]

@@ -203,14 +203,14 @@ fn planted_faults_in_real_figures_are_found_with_their_causes_and_nothing_else()
 /// years), in the given currency basis.
 fn generated(env: &Env, name: &str, seed: u64, basis: &str) -> String {
     let entities = [
-        "Arvelia",
-        "Brenmark",
-        "Caldoria",
-        "Dunmere",
-        "Eskaros",
-        "Felmarch",
-        "Gravonia",
-        "Hollenreach",
+        "Azrevny",
+        "Bolqueth",
+        "Celvaran",
+        "Dyrnolva",
+        "Ezvandre",
+        "Fulvessa",
+        "Glumveth",
+        "Hestravoy",
     ];
     let mut state = seed
         .wrapping_mul(6364136223846793005)

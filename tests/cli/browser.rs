@@ -92,8 +92,8 @@ fn demo_report_renders_in_a_real_browser_without_network() {
     );
     let dom = String::from_utf8_lossy(&dom.stdout).to_string();
     for label in [
-        "Hollenreach",
-        "Gravonia",
+        "Hestravoy",
+        "Glumveth",
         "Ranks before and after adjustment, 2023",
         "<svg",
         "INVENTED DATA",

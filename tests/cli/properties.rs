@@ -15,7 +15,7 @@ use polars::prelude::*;
 use proptest::prelude::*;
 
 const NAMES: &[&str] = &[
-    "Arvelia", "Brenmark", "Caldoria", "Dunmere", "Eskaros", "Felmarch", "Gravonia", "Maresh",
+    "Azrevny", "Bolqueth", "Celvaran", "Dyrnolva", "Ezvandre", "Fulvessa", "Glumveth", "Mezvarra",
 ];
 
 fn demo_references() -> (Resolver, References) {

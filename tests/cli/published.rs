@@ -69,6 +69,10 @@ fn ppp_conversion_matches_the_oecd_worked_example() {
     assert!((num(&rows[0], "value_intl") - 2.00).abs() < 1e-12);
     assert!((num(&rows[1], "value_intl") - 2.00).abs() < 1e-12);
     assert_eq!(num(&rows[1], "price_level_index"), 100.0);
+    // France: PPP 1.15 over the fixture market rate 0.92, times 100 = 125 (the World Bank's
+    // price level ratio definition); an inverted ratio would give 80.
+    assert!((num(&rows[0], "price_level_index") - 1.15 / 0.92 * 100.0).abs() < 1e-9);
+    assert!((num(&rows[0], "price_level_index") - 125.0).abs() < 1e-9);
     // Equal in international dollars: a tie, and ties share the lowest rank (common practice).
     assert_eq!(rows[0]["rank_adjusted"], "1");
     assert_eq!(rows[1]["rank_adjusted"], "1");
