@@ -48,6 +48,14 @@ pub const FLAG_MEANINGS: &[(&str, &str)] = &[
     (NOT_RANKED, "the row has no usable baseline or adjusted value, or is excluded from ranks; see its other flags"),
 ];
 
+/// The meaning of a fixed flag, if it is one.
+pub fn meaning(flag: &str) -> Option<&'static str> {
+    FLAG_MEANINGS
+        .iter()
+        .find(|(name, _)| *name == flag)
+        .map(|(_, meaning)| *meaning)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

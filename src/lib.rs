@@ -44,6 +44,7 @@ pub mod source;
 pub mod streaming;
 pub mod tracks;
 pub mod uncertainty;
+pub mod units;
 
 use cli::{Cli, Command};
 use error::Result;
@@ -162,6 +163,7 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             )
         });
     }
+    output.summary.notice = plan.output.notice.clone();
     let input_sha256 = match &plan.streaming {
         Some(stream) => source::sha256_of_file(&stream.path)?,
         None => report::methods::sha256_hex(&plan.input_bytes),
@@ -185,11 +187,21 @@ fn stage_outputs(
     note: &report::methods::MethodsNote,
     staging: &mut report::Staging,
 ) -> Result<()> {
+    // A notice (the demo's INVENTED DATA) becomes the first column of the data files, so that
+    // it stays with every copy of them; json carries it in its metadata.
+    let marked;
+    let frame = match &plan.output.notice {
+        Some(notice) if plan.output.format != report::Format::Json => {
+            marked = report::with_notice_column(&output.frame, notice)?;
+            &marked
+        }
+        _ => &output.frame,
+    };
     let render = || -> Result<String> {
         Ok(match plan.output.format {
             report::Format::Methods => report::methods::render_markdown(note),
             format => report::render(
-                &output.frame,
+                frame,
                 &output.summary,
                 format,
                 plan.output.rounding,
@@ -204,11 +216,11 @@ fn stage_outputs(
     }
     match &plan.output.path {
         Some(path) if plan.output.format == report::Format::Parquet => {
-            staging.parquet(path, &output.frame)?
+            staging.parquet(path, frame)?
         }
         Some(path) if plan.output.format == report::Format::Csv => staging.csv(
             path,
-            &output.frame,
+            frame,
             plan.output.rounding,
             plan.output.guard_formulas,
         )?,

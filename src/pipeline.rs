@@ -13,10 +13,10 @@ use crate::flags;
 use crate::ingest::{self, IngestOptions};
 use crate::rank::{self, Order};
 use crate::reference::References;
-use crate::report::summary::describe_track;
 use crate::resolve::{self, InputBasis, ResolveOptions};
 use crate::tracks::{self, TrackPlan, TrackStart};
 use crate::uncertainty::ranking::{self, IntervalSettings};
+use crate::units::TrackUnit;
 use polars::prelude::*;
 use std::collections::{BTreeMap, HashSet};
 
@@ -67,8 +67,11 @@ pub struct RunSummary {
     pub warnings: Vec<String>,
     /// The cautions that travel with every publishable output (md, json, HTML, methods note).
     pub cautions: Vec<String>,
-    pub baseline_unit: String,
-    pub adjusted_unit: String,
+    /// What each track's figures are in: the one description every label is written from.
+    pub units: crate::units::Units,
+    /// A notice that travels with every output of the run (the demo says its data are invented).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub notice: Option<String>,
 }
 
 /// Whether the steps bring every figure to one unit (a currency conversion, or a ratio of
@@ -480,6 +483,9 @@ fn cautions(settings: &PipelineSettings) -> Vec<String> {
         .map(|c| c.to_string())
         .collect();
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
+    if names.contains(&"ppp") {
+        out.insert(1, "PPPs are estimates for a whole economy's basket of goods and services; they may not fit one good or service, such as a single fee or price.".into());
+    }
     if names.contains(&"per-income") && settings.step_settings.income_as == adjust::IncomeAs::Days {
         out.push("Days of income divide by a mean income per person over 365 days: a mean lies above what a typical or poor household earns, so the burden for them is larger than these figures show.".into());
     }
@@ -603,8 +609,10 @@ pub(crate) fn summarize(
     let mut method_notes = Vec::new();
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
     let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
-    let starts_in_base = settings.ingest.currency_code.as_deref()
-        == Some(settings.step_settings.base_currency.as_str());
+    let input_currency = crate::units::InputCurrency {
+        code: settings.ingest.currency_code.clone(),
+        column: settings.ingest.roles.currency.is_some(),
+    };
     let base_year = settings.step_settings.base_year;
     if let Some(deflator) = deflator_used {
         let year = base_year.unwrap_or_default();
@@ -679,7 +687,10 @@ pub(crate) fn summarize(
         references: references.map(|r| r.describe()).unwrap_or_default(),
         warnings,
         cautions: cautions(settings),
-        baseline_unit: describe_track(&baseline_names, &settings.step_settings, starts_in_base),
-        adjusted_unit: describe_track(&names, &settings.step_settings, starts_in_base),
+        units: crate::units::Units {
+            baseline: TrackUnit::of(&baseline_names, &settings.step_settings, &input_currency),
+            adjusted: TrackUnit::of(&names, &settings.step_settings, &input_currency),
+        },
+        notice: None,
     }
 }

@@ -29,7 +29,7 @@ impl Step for Deflate {
         let year = settings.base_year.unwrap_or_default();
         match settings.deflator {
             Some(Deflator::BaseCurrency) => format!("Every year was brought to {year} prices with the {} consumer price index, after conversion at each year's rate.", settings.base_currency),
-            _ => format!("Every year was brought to {year} prices with the consumer price index (each country's own index before conversion, the base currency's after), so that changes over time are not inflation."),
+            _ => format!("Every year was brought to {year} prices with a consumer price index, so that changes over time are not inflation: the index of the currency the figure is in when the step runs (a country's own before any conversion, the base currency's after one)."),
         }
     }
 

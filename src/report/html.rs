@@ -182,7 +182,7 @@ pub fn render(
         },
         env!("CARGO_PKG_VERSION")
     );
-    let baseline_name = super::summary::baseline_name(summary);
+    let baseline_name = summary.units.baseline_legend();
     let partitions = partitions(frame);
     let mut charts_html = String::new();
     let shown: Vec<_> = partitions.iter().rev().take(CHARTED).collect();
@@ -226,9 +226,9 @@ pub fn render(
         let dots = charts::dot_chart(
             points,
             &baseline_name,
-            &format!("baseline: {} | adjusted: {}", summary.baseline_unit, summary.adjusted_unit),
+            &format!("baseline: {} | adjusted: {}", summary.units.baseline.words, summary.units.adjusted.words),
             &format!("Baseline and adjusted values, {scope}"),
-            &format!("Dot chart of {} entities on one common axis; hollow dots {baseline_name}, filled dots adjusted.", points.len()),
+            &format!("Dot chart of {} on one common axis; hollow dots {baseline_name}, filled dots adjusted.", if points.len() == 1 { "1 entity".to_string() } else { format!("{} entities", points.len()) }),
         );
         if slope.is_empty() || dots.is_empty() {
             return Err(Error::usage(
@@ -256,8 +256,8 @@ pub fn render(
          <p class=\"source\">{source}</p></main></body></html>\n",
         input = escape(&summary.input),
         notice = note.in_brief.first().filter(|l| l.starts_with("INVENTED")).map(|l| format!("<p class=\"lede\"><strong>{}</strong></p>", escape(l))).unwrap_or_default(),
-        baseline = escape(&summary.baseline_unit),
-        adjusted = escape(&summary.adjusted_unit),
+        baseline = escape(&summary.units.baseline.words),
+        adjusted = escape(&summary.units.adjusted.words),
         rows = summary.rows_in,
         flagged = summary.rows_flagged,
         table = table_html(frame, rounding),

@@ -74,7 +74,6 @@ pub struct FileLine {
 /// The standard cautions printed with every note.
 pub const CAUTIONS: &[&str] = &[
     "Market rates and PPPs answer different questions: market rates for what money buys abroad, PPPs for what it buys at home. Say which one a chart uses.",
-    "PPPs are estimates for a broad basket of goods and services; they may not fit one good or service, such as a single fee or price.",
     "Reference data (exchange rates, PPPs, price indices, populations) are revised between releases; cite the vintage used.",
     "A rank change inside the uncertainty of the figures is not a finding: a small gap can reverse with the next revision.",
     "Where the figures concern health, poverty lines or safety, defer to the published figures of the responsible authorities.",
@@ -95,6 +94,9 @@ fn flag_reason(flag: &str) -> String {
         "within_uncertainty" => "rank shift within the uncertainty of the figures",
         "no_margin" => "no margin of error given (treated as exact)",
         "asymmetric_ci" => "asymmetric confidence interval (larger half used)",
+        other if crate::flags::meaning(other).is_some() => {
+            return crate::flags::meaning(other).unwrap_or(other).to_string()
+        }
         other if other.starts_with("no_") => {
             return format!(
                 "no reference factor ({})",
@@ -132,12 +134,12 @@ pub fn build(
     } else if settings.steps.iter().any(|s| s.name() == "ppp") {
         in_brief.push(format!(
             "The comparison without the price-level adjustment (\"baseline\") uses the same steps with market exchange rates in place of PPPs: {}. The adjusted figures are in {}.",
-            summary.baseline_unit, summary.adjusted_unit
+            summary.units.baseline.words, summary.units.adjusted.words
         ));
     } else {
         in_brief.push(format!(
             "No step converts at PPPs, so the baseline is the adjusted figures themselves and no rank shift comes from a price-level adjustment. The figures are in {}.",
-            summary.adjusted_unit
+            summary.units.adjusted.words
         ));
     }
     in_brief.push(format!(

@@ -160,7 +160,15 @@ pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> R
         .iter()
         .map(|n| n.to_string())
         .filter(|n| {
-            ["entity_name", "entity_code", "year", "group", "value"].contains(&n.as_str())
+            [
+                NOTICE_COLUMN,
+                "entity_name",
+                "entity_code",
+                "year",
+                "group",
+                "value",
+            ]
+            .contains(&n.as_str())
                 || (n.starts_with("value_") && n != "value_input")
                 || n.starts_with("moe_")
                 || n.starts_with("rank_")
@@ -170,6 +178,21 @@ pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> R
         .select(keep)
         .map_err(Error::engine("selecting chart columns"))?;
     render_csv(&narrow, rounding, guard)
+}
+
+/// The column that carries a run's notice in its data files.
+pub const NOTICE_COLUMN: &str = "data_notice";
+
+/// The frame with the notice as its first column, on every row.
+pub fn with_notice_column(frame: &DataFrame, notice: &str) -> Result<DataFrame> {
+    let mut marked = frame.clone();
+    marked
+        .insert_column(
+            0,
+            Column::new(NOTICE_COLUMN.into(), vec![notice; frame.height()]),
+        )
+        .map_err(Error::engine("adding the notice column"))?;
+    Ok(marked)
 }
 
 pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> Result<String> {
@@ -183,12 +206,15 @@ pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) 
         .map(|n| column_json(frame, n, rounding))
         .collect();
     let mut out = String::from("{\n  \"metadata\": ");
-    let metadata = serde_json::json!({
+    let mut metadata = serde_json::json!({
         "tool": "levelfield",
         "version": env!("CARGO_PKG_VERSION"),
         "summary": summary,
         "cautions": summary.cautions,
     });
+    if let (Some(notice), Some(map)) = (&summary.notice, metadata.as_object_mut()) {
+        map.insert("notice".into(), notice.clone().into());
+    }
     out.push_str(&serde_json::to_string(&metadata).unwrap_or_default());
     out.push_str(",\n  \"rows\": [");
     for row in 0..frame.height() {
@@ -334,7 +360,7 @@ pub fn render_table(frame: &DataFrame, summary: &RunSummary, rounding: Rounding)
     );
     let mut out = table.to_string();
     out.push('\n');
-    out.push_str(&summary::units_line(summary));
+    out.push_str(&summary.units.line());
     out.push('\n');
     out.push_str(&uncertainty_legend(frame));
     out.push_str("cautions: read them before publishing, in the methods note (--methods FILE)\n");
@@ -354,7 +380,11 @@ fn uncertainty_legend(frame: &DataFrame) -> String {
 pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> String {
     let (header, rows) = reader_rows(frame, rounding);
     let numeric_from = header.iter().position(|h| *h == "as given").unwrap_or(2);
-    let mut out = format!("| {} |\n|", header.join(" | "));
+    let mut out = match &summary.notice {
+        Some(notice) => format!("**{}**\n\n", format::one_line(notice)),
+        None => String::new(),
+    };
+    out.push_str(&format!("| {} |\n|", header.join(" | ")));
     for i in 0..header.len() {
         out.push_str(if i >= numeric_from && i < numeric_from + 5 {
             "---:|"
@@ -371,7 +401,7 @@ pub fn render_markdown(frame: &DataFrame, summary: &RunSummary, rounding: Roundi
         out.push_str(&format!("| {} |\n", cells.join(" | ")));
     }
     out.push('\n');
-    out.push_str(&summary::units_line(summary));
+    out.push_str(&summary.units.line());
     out.push('\n');
     out.push_str(&uncertainty_legend(frame));
     out.push_str("\n**Cautions**\n\n");

@@ -11,6 +11,7 @@ mod errors;
 mod fuzz_replay;
 mod golden;
 mod hostile;
+mod labels;
 mod properties;
 mod published;
 mod recipes;
