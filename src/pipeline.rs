@@ -82,6 +82,16 @@ pub(crate) fn converts_currency(steps: &[&'static dyn Step]) -> bool {
         .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
 }
 
+/// Survey shares (margins from sample sizes), counts of people (`--proportion`) and figures
+/// stated as `--currency-code XXX` are not money: they rank together whatever the country.
+pub(crate) fn figures_are_not_money(settings: &PipelineSettings) -> bool {
+    matches!(
+        settings.ingest.margins,
+        crate::ingest::margins::MarginSpec::SampleSize { .. }
+    ) || settings.step_settings.proportion
+        || settings.ingest.currency_code.as_deref() == Some("XXX")
+}
+
 /// Columns that currency steps make relevant: a figure in a foreign currency cannot be
 /// converted with its country's factors.
 fn needs_currency(steps: &[&'static dyn Step]) -> bool {
@@ -193,7 +203,7 @@ pub(crate) fn prepare(
     let mut eligible: Vec<bool> = Vec::with_capacity(rows_in);
     let mut currency: Vec<Option<String>> = Vec::with_capacity(rows_in);
     let mut units: Vec<Option<String>> = Vec::with_capacity(rows_in);
-    let converts = converts_currency(&settings.steps);
+    let converts = converts_currency(&settings.steps) || figures_are_not_money(settings);
     let mut keys: HashSet<(String, i32)> = HashSet::new();
     let mut any_base = false;
     for (i, row) in ingested.rows.iter_mut().enumerate() {
@@ -610,7 +620,11 @@ pub(crate) fn summarize(
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
     let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
     let input_currency = crate::units::InputCurrency {
-        code: settings.ingest.currency_code.clone(),
+        code: if figures_are_not_money(settings) {
+            Some("XXX".into())
+        } else {
+            settings.ingest.currency_code.clone()
+        },
         column: settings.ingest.roles.currency.is_some(),
     };
     let base_year = settings.step_settings.base_year;

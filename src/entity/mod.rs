@@ -384,11 +384,27 @@ fn parse_builtin() -> Result<Resolver, String> {
     Ok(r)
 }
 
+/// The version of Debian's iso-codes package the built-in ISO 3166-1 and ISO 4217 tables
+/// were generated from and checked against.
+#[cfg(test)]
+pub(crate) const ISO_CODES_CHECKED: &str = "4.15.0-1";
+
 /// Reads one of Debian's iso-codes JSON files, the outside reference the tests check
 /// against. Missing file is a failure, not a skip: without it nothing is checked.
 #[cfg(test)]
 pub(crate) fn iso_codes_json(file: &str, key: &str) -> Vec<HashMap<String, String>> {
     let path = format!("/usr/share/iso-codes/json/{file}");
+    // The tests say which version they found; the built-in tables were checked against
+    // ISO_CODES_CHECKED. A newer version may add or rename entries: the tests then fail with
+    // the version named, and generate_iso3166.py is rerun.
+    let found = std::process::Command::new("dpkg-query")
+        .args(["-W", "-f=${Version}", "iso-codes"])
+        .output()
+        .ok()
+        .map(|o| String::from_utf8_lossy(&o.stdout).into_owned())
+        .filter(|v| !v.is_empty())
+        .unwrap_or_else(|| "unknown (dpkg-query gave none)".into());
+    eprintln!("{file}: iso-codes {found} found; the built-in tables were checked against {ISO_CODES_CHECKED}");
     let text = std::fs::read_to_string(&path).unwrap_or_else(|e| {
         panic!("{path}: {e}\n  the entity tests check against it: run `apt-get install iso-codes`")
     });

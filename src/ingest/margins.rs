@@ -127,7 +127,8 @@ pub fn standard_error(
                 if (above - below).abs() > 1e-9 * value.abs().max(1.0) {
                     row_flags.push(flags::ASYMMETRIC_CI.into());
                 }
-                // The larger half stands for a symmetric margin (conservative).
+                // The larger half stands for a symmetric margin: conservative, since no margin
+                // is understated (common practice; no published source is relied on).
                 Some(moe::se_from_moe(below.max(above), *level))
             }
             _ => None,

@@ -12,6 +12,8 @@ mod fuzz_replay;
 mod golden;
 mod hostile;
 mod labels;
+mod layouts;
+mod options;
 mod properties;
 mod published;
 mod recipes;

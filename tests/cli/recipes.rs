@@ -63,6 +63,19 @@ fn recipe_run_is_byte_identical_to_the_flag_run_and_save_recipe_round_trips() {
     let b = std::fs::read(env.path("from-recipe.csv")).unwrap();
     assert!(!a.is_empty());
     assert_eq!(a, b, "the recipe run differs from the flag run");
+    // And both are right, worked by hand from the fixture's (invented, rounded) factors for
+    // Korea 2020: 1,200,000 won / PPP 848 / (51.8 million people / 1000) = 0.02732 → 0.027.
+    let mut reader = csv::Reader::from_reader(b.as_slice());
+    let headers = reader.headers().unwrap().clone();
+    let column = |name: &str| headers.iter().position(|h| h == name).unwrap();
+    let korea = reader
+        .records()
+        .map(|r| r.unwrap())
+        .find(|r| &r[column("entity_code")] == "KOR" && &r[column("year")] == "2020")
+        .unwrap();
+    let by_hand: f64 = 1_200_000.0 / 848.0 / (51.8e6 / 1000.0);
+    assert!((by_hand - 0.027_318).abs() < 1e-6);
+    assert_eq!(&korea[column("value_adjusted")], "0.027");
 
     // Saving the recipe of a recipe run gives the same recipe back.
     // The saved recipe writes its table above its own folder: the user allows that.

@@ -225,6 +225,8 @@ fn simulated_intervals_are_reproducible_with_a_seed() {
     let args = [
         "adjust",
         &input,
+        "--currency-code",
+        "XXX",
         "--se",
         "se",
         "--rank-intervals",
@@ -241,6 +243,30 @@ fn simulated_intervals_are_reproducible_with_a_seed() {
     assert_eq!(a.code, 0, "{}", a.stderr);
     assert_eq!(a.stdout, b.stdout);
     assert!(a.stderr.contains("not a joint region"), "{}", a.stderr);
+    // The intervals themselves, worked from the normal model: Peru (15 ± 1) is above Chile
+    // (11 ± 1) unless a draw of their difference, N(4, √2), falls below 0: z = 2.83,
+    // probability 0.0023, so Peru's rank is 1 in all but about one of 500 draws: (1, 1).
+    // Bolivia (9 ± 2) falls below France (10 ± 1) with probability Φ(1/√5) = 0.67 and below
+    // Chile with Φ(2/√5) = 0.81: last in most draws, so its range ends at 4 and starts
+    // above 1. France and Chile overlap (difference N(1, √2)): France's range spans ranks.
+    let rows = a.rows();
+    let range = |i: usize| {
+        (
+            rows[i]["rank_adjusted_low"].parse::<u32>().unwrap(),
+            rows[i]["rank_adjusted_high"].parse::<u32>().unwrap(),
+            rows[i]["rank_adjusted"].parse::<u32>().unwrap(),
+        )
+    };
+    assert_eq!(range(2), (1, 1, 1), "Peru");
+    let (low, high, rank) = range(3);
+    assert_eq!((high, rank), (4, 4), "Bolivia");
+    assert!((2..=4).contains(&low), "Bolivia low {low}");
+    let (low, high, rank) = range(0);
+    assert!(
+        low < high && low <= rank && rank <= high,
+        "France {low}-{high}"
+    );
+    assert!(low >= 2, "France never outranks Peru: {low}");
 }
 
 #[test]

@@ -317,3 +317,152 @@ fn a_drafted_catalog_for_downloaded_files_runs_without_edits_where_the_files_sta
     let draft = std::fs::read_to_string(env.path("draft.json")).unwrap();
     assert!(draft.contains("\"kind\": \"\""), "{draft}");
 }
+
+#[test]
+fn forcing_the_header_line_and_the_layout_gives_the_same_published_figures() {
+    // --header-row, --long and --wide-years state what the finder detects on its own; the
+    // figures must still be PWT's published per-capita PPP GDP.
+    let env = setup();
+    let world = env.repo.join("tests/data/world");
+    let run_with = |input: &str, extra: &[&str]| {
+        let mut argv = vec![
+            "adjust".to_string(),
+            world.join(input).display().to_string(),
+            "--refs".into(),
+            world.join("wb-bulk").display().to_string(),
+            "--steps".into(),
+            "ppp,per-capita".into(),
+            "--format".into(),
+            "csv".into(),
+        ];
+        argv.extend(extra.iter().map(|s| s.to_string()));
+        let argv: Vec<&str> = argv.iter().map(String::as_str).collect();
+        env.run(&argv)
+    };
+    let long = run_with("gdp-long-titled.csv", &["--header-row", "2", "--long"]);
+    assert_eq!(check_against_published(&env, &long, false), 120);
+    assert!(long.stderr.contains("header: line 2"), "{}", long.stderr);
+    let wide = run_with(
+        "gdp-wide-titled.csv",
+        &["--header-row", "2", "--wide-years"],
+    );
+    assert_eq!(check_against_published(&env, &wide, false), 120);
+    // The wrong header line is not guessed around: line 1 is the title.
+    let wrong = run_with("gdp-long-titled.csv", &["--header-row", "1"]);
+    assert_eq!(wrong.code, 2, "{}", wrong.stderr);
+}
+
+#[test]
+fn income_in_international_dollars_is_taken_back_to_local_currency() {
+    // An income table in international dollars (catalog "basis": "intl") is multiplied by the
+    // row year's PPP before dividing. Income = PWT's published cgdp (GDP per capita at current
+    // PPPs), figure = GDP in national currency: their ratio is the population PWT used
+    // (expected.csv's population column), to PWT's own precision.
+    let env = setup();
+    let source = env.repo.join("tests/data/world/wb-bulk");
+    let refs = env.path("refs");
+    std::fs::create_dir_all(&refs).unwrap();
+    for file in ["ppp.csv", "population.csv", "fx.csv"] {
+        std::fs::copy(source.join(file), refs.join(file)).unwrap();
+    }
+    let mut reader =
+        csv::Reader::from_path(env.repo.join("tests/data/world/expected.csv")).unwrap();
+    let mut income = String::from("iso3,year,value\n");
+    let mut population = HashMap::new();
+    for row in reader.deserialize::<HashMap<String, String>>() {
+        let row = row.unwrap();
+        income.push_str(&format!(
+            "{},{},{}\n",
+            row["iso3"], row["year"], row["published_intl_per_capita"]
+        ));
+        population.insert(
+            (row["iso3"].clone(), row["year"].clone()),
+            row["population"].parse::<f64>().unwrap(),
+        );
+    }
+    std::fs::write(refs.join("income.csv"), income).unwrap();
+    std::fs::write(
+        refs.join("datapackage.json"),
+        r#"{"resources":[{"name":"ppp","path":"ppp.csv","kind":"ppp"},{"name":"population","path":"population.csv","kind":"population"},{"name":"fx","path":"fx.csv","kind":"fx"},{"name":"cgdp","path":"income.csv","kind":"income","basis":"intl","unit":"GDP per capita, international dollars (PWT 7.1 cgdp)"}]}"#,
+    )
+    .unwrap();
+    let run = env.run(&[
+        "adjust",
+        &env.repo
+            .join("tests/data/world/gdp-long-titled.csv")
+            .display()
+            .to_string(),
+        "--refs",
+        &refs.display().to_string(),
+        "--steps",
+        "per-income",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let mut checked = 0;
+    for row in run.rows() {
+        let key = (row["entity_code"].clone(), row["year"].clone());
+        let Some(expected) = population.get(&key) else {
+            continue;
+        };
+        let share = num(&row, "value_per_income");
+        assert!(
+            ((share - expected) / expected).abs() < PUBLISHED_TOLERANCE,
+            "{key:?}: {share} against {expected}"
+        );
+        checked += 1;
+    }
+    assert_eq!(checked, 120);
+}
+
+#[test]
+fn the_same_figures_in_xlsx_with_shared_strings_ods_and_xls_give_the_published_values() {
+    // tests/data/sheets/pwt-gdp.{xlsx,ods,xls}: the wide PWT table written by openpyxl 3.1.5
+    // (strings moved to a shared-strings table), odfpy 1.4.1 and xlwt 1.3.0 (PyPI; see
+    // tests/data/sheets/build_pwt_sheets.py), with the title in row 1.
+    let env = setup();
+    for sheet in ["pwt-gdp.xlsx", "pwt-gdp.ods", "pwt-gdp.xls"] {
+        let run = env.run(&[
+            "adjust",
+            &env.data(&format!("sheets/{sheet}")),
+            "--refs",
+            &env.data("world/wb-bulk"),
+            "--steps",
+            "ppp,per-capita",
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(check_against_published(&env, &run, false), 120, "{sheet}");
+        assert!(
+            run.rows()
+                .iter()
+                .any(|r| r["entity_name"] == "United States"),
+            "{sheet}: names from the shared strings"
+        );
+    }
+}
+
+#[test]
+fn streaming_in_small_pieces_gives_the_published_figures_too() {
+    // The streaming path checked against PWT's published cgdp, not only against the in-memory
+    // run: pieces of 0.001 MB split the 120 rows into many.
+    let env = setup();
+    let world = env.repo.join("tests/data/world");
+    let mut run = env.run(&[
+        "adjust",
+        &world.join("gdp-long-titled.csv").display().to_string(),
+        "--refs",
+        &world.join("wb-bulk").display().to_string(),
+        "--steps",
+        "ppp,per-capita",
+        "--streaming",
+        "--chunk-mb",
+        "0.001",
+        "-o",
+        "streamed.csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    run.stdout = std::fs::read_to_string(env.path("streamed.csv")).unwrap();
+    assert_eq!(check_against_published(&env, &run, false), 120);
+}

@@ -1,0 +1,234 @@
+//! Options whose paths had no test: ppp then deflate (the base currency's CPI), `--deflator`,
+//! Bonferroni joint intervals from the command line, `--rank-aggregates` and `--share-unit`.
+//! Each expected value is worked from its source in the comment beside it.
+
+use crate::{num, setup};
+
+/// Standard normal quantiles (any normal table; to 16 digits as computed by the inverse of
+/// the normal distribution function): z(0.95) for 90% margins, z(0.975) for Bonferroni with
+/// α = 0.10 and K = 2.
+const Z_95: f64 = 1.644_853_626_951_472_2;
+
+#[test]
+fn ppp_then_deflate_uses_the_base_currency_cpi() {
+    // OECD PPP FAQ worked example: 2.30 EUR in France at a PPP of 1.15 = 2.00 international
+    // dollars (2020). Deflating after the conversion uses the US CPI-U (BLS, annual averages,
+    // recalled from memory: 2020 = 258.811, 2023 = 304.702): 2.00 × 304.702 / 258.811.
+    // France has no CPI in these tables, so an own-CPI deflation would flag no_cpi instead.
+    let env = setup();
+    let input = env.write("p.csv", "country,year,price\nFrance,2020,2.30\n");
+    let refs = env.data("published");
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp,deflate",
+        "--base-year",
+        "2023",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stderr);
+    let rows = run.rows();
+    let expected = 2.00 * 304.702 / 258.811;
+    assert!(
+        (num(&rows[0], "value_adjusted") - expected).abs() < 1e-9,
+        "{:?}",
+        rows[0]
+    );
+    assert!(
+        run.stderr.contains("deflated with the USD CPI"),
+        "{}",
+        run.stderr
+    );
+    // An inverted CPI ratio would give 2.00 × 258.811 / 304.702 = 1.699: told apart.
+    assert!((num(&rows[0], "value_adjusted") - 2.00 * 258.811 / 304.702).abs() > 0.1);
+
+    // --deflator own with the deflation first asks for France's own CPI, which these tables
+    // lack: the row is flagged, never deflated with another country's index.
+    let own = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "deflate,ppp",
+        "--base-year",
+        "2023",
+        "--deflator",
+        "own",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(own.code, 0, "{}", own.stderr);
+    let rows = own.rows();
+    assert!(rows[0]["flags"].contains("no_cpi"), "{:?}", rows[0]);
+    assert!(rows[0]["value_adjusted"].is_empty());
+
+    // --deflator base-currency needs a conversion before it: with deflate first it is refused
+    // with the fix; after ppp it gives the figure above.
+    let first = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "deflate,ppp",
+        "--base-year",
+        "2023",
+        "--deflator",
+        "base-currency",
+    ]);
+    assert_eq!(first.code, 2, "{}", first.stderr);
+    assert!(
+        first.stderr.contains("put deflate after"),
+        "{}",
+        first.stderr
+    );
+    let base = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp,deflate",
+        "--base-year",
+        "2023",
+        "--deflator",
+        "base-currency",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(base.code, 0, "{}", base.stderr);
+    assert!((num(&base.rows()[0], "value_adjusted") - expected).abs() < 1e-9);
+}
+
+#[test]
+fn bonferroni_from_the_command_line_widens_joint_intervals_more_than_independence() {
+    // Two estimates 3.91 apart, standard errors 1 each, 90% joint intervals over K = 2:
+    // independence: z at (1 + 0.9^(1/2)) / 2 = 0.974342 → z ≈ 1.9494, so the intervals
+    // (±1.9494) are 3.899 wide together and do not overlap; Bonferroni: z at 1 − 0.10/4 =
+    // 0.975 → z = 1.959964, 3.920 together, and they overlap. (Bonferroni inequality and
+    // Šidák's independence correction: common practice in multiple comparisons.)
+    let env = setup();
+    let input = env.write(
+        "est.csv",
+        "country,year,value,se\nFrance,2020,100,1\nChile,2020,103.91,1\n",
+    );
+    let run_with = |adjustment: &str| {
+        let run = env.run(&[
+            "adjust",
+            &input,
+            "--currency-code",
+            "XXX",
+            "--se",
+            "se",
+            "--rank-intervals",
+            "joint",
+            "--joint-adjustment",
+            adjustment,
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        run.rows()
+    };
+    let independent = run_with("independence");
+    assert_eq!(independent[1]["rank_adjusted_low"], "1");
+    assert_eq!(independent[1]["rank_adjusted_high"], "1");
+    let bonferroni = run_with("bonferroni");
+    assert_eq!(bonferroni[1]["rank_adjusted_low"], "1");
+    assert_eq!(bonferroni[1]["rank_adjusted_high"], "2");
+    assert_eq!(bonferroni[0]["rank_adjusted_low"], "1");
+}
+
+#[test]
+fn aggregates_are_ranked_only_when_asked() {
+    // Aggregates (here the World) are left out of country rankings unless asked (common
+    // practice of international data banks, which list them apart).
+    let env = setup();
+    let input = env.write(
+        "c.csv",
+        "country,year,value\nWorld,2020,50\nFrance,2020,30\nChile,2020,20\n",
+    );
+    let run = |extra: &[&str]| {
+        let mut argv = vec![
+            "adjust",
+            &input,
+            "--currency-code",
+            "XXX",
+            "--format",
+            "csv",
+        ];
+        argv.extend_from_slice(extra);
+        let run = env.run(&argv);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        run.rows()
+    };
+    let apart = run(&[]);
+    assert!(apart[0]["flags"].contains("aggregate"));
+    assert!(apart[0]["rank_adjusted"].is_empty());
+    assert_eq!(apart[1]["rank_adjusted"], "1");
+    let ranked = run(&["--rank-aggregates"]);
+    assert_eq!(ranked[0]["rank_adjusted"], "1");
+    assert_eq!(ranked[1]["rank_adjusted"], "2");
+    assert_eq!(ranked[2]["rank_adjusted"], "3");
+}
+
+#[test]
+fn share_units_percent_and_fraction_give_the_same_margin() {
+    // Margin of a survey share from its sample size: z × sqrt(p (1 − p) / n) (simple random
+    // sampling; the standard error of a proportion in any survey-sampling text, e.g. the ACS
+    // General Handbook, ch. 8). p = 0.48, n = 1000, 90%: 1.6448536 × 0.0157987 = 0.0259866.
+    let env = setup();
+    let expected = Z_95 * (0.48f64 * 0.52 / 1000.0).sqrt();
+    for (unit, share, scale) in [("percent", "48", 100.0), ("fraction", "0.48", 1.0)] {
+        let input = env.write(
+            "s.csv",
+            &format!("country,year,share,n\nFrance,2020,{share},1000\nChile,2020,{share},1000\n"),
+        );
+        let run = env.run(&[
+            "adjust",
+            &input,
+            "--sample-size",
+            "n",
+            "--share-unit",
+            unit,
+            "--margin-confidence",
+            "90",
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(run.code, 0, "{unit}: {}", run.stderr);
+        let rows = run.rows();
+        assert!(
+            (num(&rows[0], "moe_adjusted") - expected * scale).abs() < 1e-12 * scale,
+            "{unit}: {:?}",
+            rows[0]
+        );
+        // Shares are not money: two countries' shares rank together, equal shares tie.
+        assert_eq!(rows[0]["rank_adjusted"], "1", "{unit}: {:?}", rows[0]);
+        assert_eq!(rows[1]["rank_adjusted"], "1");
+    }
+    // A fraction given as a percent is refused or flagged, never read as 48 times too big.
+    let input = env.write("bad.csv", "country,year,share,n\nFrance,2020,48,1000\n");
+    let run = env.run(&[
+        "adjust",
+        &input,
+        "--sample-size",
+        "n",
+        "--share-unit",
+        "fraction",
+        "--margin-confidence",
+        "90",
+        "--format",
+        "csv",
+    ]);
+    assert!(
+        run.code == 2 || run.rows()[0]["moe_adjusted"].is_empty(),
+        "{}",
+        run.stdout
+    );
+}
