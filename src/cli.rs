@@ -11,6 +11,24 @@ use crate::uncertainty::moe::Level;
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
 
+/// The manifest's format, shown under `levelfield batch --help`.
+pub const MANIFEST_HELP: &str = "MANIFEST FORMAT (TOML; paths relative to the manifest's folder):
+
+  output_dir = \"adjusted\"        # optional: every output into this folder
+                                  # (default: beside each input)
+
+  [[run]]
+  recipe = \"fees.toml\"           # a recipe with its own input
+
+  [[run]]
+  recipe = \"wages.toml\"
+  inputs = \"incoming/wages-*.csv\" # the recipe once per matching file, in name order
+
+Outputs are named INPUT-adjusted.EXT (EXT from the recipe's format, csv by default) unless a
+[[run]] without `inputs` and without output_dir has its own output file. Patterns never match
+files named *-adjusted.*, so a rerun does not adjust its own earlier outputs. A recipe's methods
+note and report are written beside each output as NAME.methods.md and NAME.report.html.";
+
 #[derive(Debug, Parser)]
 #[command(
     name = "levelfield",
@@ -44,7 +62,7 @@ pub enum Command {
 }
 
 #[derive(Debug, Args)]
-#[command(after_long_help = crate::batch::MANIFEST_HELP)]
+#[command(after_long_help = MANIFEST_HELP)]
 pub struct BatchArgs {
     /// The batch manifest (TOML): [[run]] entries naming a recipe and, optionally, a pattern of
     /// inputs.

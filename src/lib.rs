@@ -30,9 +30,11 @@ pub mod demo;
 pub mod entity;
 pub mod error;
 pub mod flags;
+pub mod format;
 #[doc(hidden)]
 pub mod fuzz_checks;
 pub mod ingest;
+pub mod model;
 pub mod pipeline;
 pub mod plan;
 pub mod rank;
@@ -41,6 +43,7 @@ pub mod reference;
 pub mod report;
 pub mod resolve;
 pub mod source;
+pub mod staging;
 pub mod streaming;
 pub mod tracks;
 pub mod uncertainty;
@@ -144,7 +147,18 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     // Every output is staged and renamed into place together at the end, when all are done.
     let mut staging = report::Staging::new();
     let mut output = match &plan.streaming {
-        Some(stream) => streaming::execute(plan, stream, &mut staging)?,
+        Some(stream) => {
+            let run = streaming::StreamRun {
+                settings: &plan.settings,
+                input_label: &plan.input_label,
+                resolver: &plan.resolver,
+                references: plan.references.as_ref(),
+                output_path: plan.output.path.as_deref(),
+                rounding: plan.output.rounding,
+                guard_formulas: plan.output.guard_formulas,
+            };
+            streaming::execute(&run, stream, &mut staging)?
+        }
         None => pipeline::run_adjust(
             &plan.input_bytes,
             &plan.input_label,

@@ -5,13 +5,14 @@
 //! Everything after the canonical frame is one polars lazy plan, so large inputs are joined,
 //! adjusted and ranked by the engine, not row by row.
 
-use crate::adjust::{self, Step, StepSettings, Unit};
+use crate::adjust::{self, Step, Unit};
 use crate::attach::{self, AttachSettings};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::flags;
-use crate::ingest::{self, IngestOptions};
-use crate::rank::{self, Order};
+use crate::ingest;
+pub use crate::model::{PipelineSettings, RunSummary};
+use crate::rank;
 use crate::reference::References;
 use crate::resolve::{self, InputBasis, ResolveOptions};
 use crate::tracks::{self, TrackPlan, TrackStart};
@@ -20,58 +21,10 @@ use crate::units::TrackUnit;
 use polars::prelude::*;
 use std::collections::{BTreeMap, HashSet};
 
-/// What the pipeline needs beyond the input bytes.
-#[derive(Debug, Clone)]
-pub struct PipelineSettings {
-    pub ingest: IngestOptions,
-    pub steps: Vec<&'static dyn Step>,
-    pub step_settings: StepSettings,
-    pub nearest_year: u32,
-    pub allow_unresolved: bool,
-    pub rank_aggregates: bool,
-    pub order: Order,
-    /// Rank intervals and margins, when the figures or the factors carry uncertainty.
-    pub intervals: Option<IntervalSettings>,
-    /// Plan the tracks as if some row were in the base currency (`--streaming` sets it when
-    /// any piece of the file holds such a row, so every piece has the same columns).
-    pub assume_base_rows: bool,
-    /// Take one kind's row-year factors from this many years away (the audit's
-    /// neighbouring-year diagnosis; None for every adjustment).
-    pub factor_year_offset: Option<(crate::reference::Kind, i32)>,
-}
-
-impl std::fmt::Debug for dyn Step {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(self.name())
-    }
-}
-
 /// The result of a run: the output frame and what the summary reports.
 pub struct AdjustOutput {
     pub frame: DataFrame,
     pub summary: RunSummary,
-}
-
-#[derive(Debug, Clone, Default, serde::Serialize)]
-pub struct RunSummary {
-    pub input: String,
-    pub rows_in: usize,
-    pub rows_out: usize,
-    pub rows_flagged: usize,
-    pub flag_counts: BTreeMap<String, usize>,
-    pub steps: Vec<String>,
-    pub baseline_steps: Vec<String>,
-    pub notes: Vec<String>,
-    pub method_notes: Vec<String>,
-    pub references: Vec<String>,
-    pub warnings: Vec<String>,
-    /// The cautions that travel with every publishable output (md, json, HTML, methods note).
-    pub cautions: Vec<String>,
-    /// What each track's figures are in: the one description every label is written from.
-    pub units: crate::units::Units,
-    /// A notice that travels with every output of the run (the demo says its data are invented).
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub notice: Option<String>,
 }
 
 /// Whether the steps bring every figure to one unit (a currency conversion, or a ratio of
@@ -487,11 +440,16 @@ pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
 }
 
 /// The standard cautions, and those the run's settings call for.
+/// The standard cautions printed with every note.
+pub const CAUTIONS: &[&str] = &[
+    "Market rates and PPPs answer different questions: market rates for what money buys abroad, PPPs for what it buys at home. Say which one a chart uses.",
+    "Reference data (exchange rates, PPPs, price indices, populations) are revised between releases; cite the vintage used.",
+    "A rank change inside the uncertainty of the figures is not a finding: a small gap can reverse with the next revision.",
+    "Where the figures concern health, poverty lines or safety, defer to the published figures of the responsible authorities.",
+];
+
 fn cautions(settings: &PipelineSettings) -> Vec<String> {
-    let mut out: Vec<String> = crate::report::methods::CAUTIONS
-        .iter()
-        .map(|c| c.to_string())
-        .collect();
+    let mut out: Vec<String> = CAUTIONS.iter().map(|c| c.to_string()).collect();
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
     if names.contains(&"ppp") {
         out.insert(1, "PPPs are estimates for a whole economy's basket of goods and services; they may not fit one good or service, such as a single fee or price.".into());

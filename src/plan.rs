@@ -3,6 +3,7 @@
 //! and validated, and the output is decided, all before any adjustment runs.
 
 use crate::adjust::{self, Step, StepSettings};
+pub use crate::adjust::{check_step_options, check_year_option};
 use crate::cli::{
     AdjustArgs, ColumnArgs, IntervalKind, LeadArgs, OutputArgs, ShareUnit, UncertaintyArgs,
 };
@@ -381,25 +382,6 @@ pub fn parse_steps(names: &[String]) -> Result<Vec<&'static dyn Step>> {
     Ok(steps)
 }
 
-pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -> Result<()> {
-    check_year_option("--base-year", base_year)?;
-    if steps.iter().any(|s| s.name() == "deflate") && base_year.is_none() {
-        return Err(Error::usage(
-            "step deflate needs a base year",
-            "pass --base-year YYYY (for example --base-year 2023)",
-        ));
-    }
-    if let Some(i) = steps.iter().position(|s| s.name() == "per-income") {
-        if i + 1 != steps.len() {
-            return Err(Error::usage(
-                "per-income must be the last step: its result is a ratio without currency or price base",
-                "move per-income to the end of --steps",
-            ));
-        }
-    }
-    Ok(())
-}
-
 pub fn ingest_options(columns: &ColumnArgs) -> Result<IngestOptions> {
     check_year_option("--year-value", columns.year_value)?;
     let delimiter = match columns.delimiter.as_deref() {
@@ -484,21 +466,6 @@ fn parse_multiplier(text: &str) -> Result<Decimal> {
     }
 }
 
-/// A year given as an option must be a calendar year the tables can hold.
-pub fn check_year_option(flag: &str, year: Option<i32>) -> Result<()> {
-    match year {
-        Some(y) if !crate::ingest::layout::YEARS.contains(&y) => Err(Error::usage(
-            format!("{flag} {y} is not a calendar year the tables can hold"),
-            format!(
-                "pass {flag} with a four-digit year from {} to {}",
-                crate::ingest::layout::YEARS.start(),
-                crate::ingest::layout::YEARS.end()
-            ),
-        )),
-        _ => Ok(()),
-    }
-}
-
 pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
     let format = match (args.format, &args.output) {
         (Some(f), _) => f,
@@ -560,7 +527,7 @@ fn refuse_same_outputs(outputs: &[&Path], recipe: Option<&Path>) -> Result<()> {
         let parent = absolute.parent().and_then(|d| d.canonicalize().ok());
         match (parent, absolute.file_name()) {
             (Some(dir), Some(name)) => dir.join(name),
-            _ => crate::recipe::normalize(&absolute),
+            _ => crate::source::normalize(&absolute),
         }
     };
     for (i, a) in outputs.iter().enumerate() {

@@ -31,7 +31,7 @@ impl FileSource for DiskDir {
     fn read(&self, relative: &str) -> Result<Vec<u8>> {
         if !stays_inside(&self.root, relative) {
             return Err(Error::bad_input(
-                crate::error::Location::file(self.label(crate::reference::CATALOG_FILE)),
+                crate::error::Location::file(self.label(CATALOG_FILE)),
                 format!("the catalog names \"{relative}\", which is outside the catalog's folder"),
                 "paths relative to the folder of datapackage.json, inside it",
                 "copy the file into the catalog's folder and name it there",
@@ -193,3 +193,34 @@ pub fn sha256_of_file(path: &Path) -> Result<String> {
         .map(|b| format!("{b:02x}"))
         .collect())
 }
+
+/// The sha256 of `bytes` in lowercase hex, as the methods note lists every file read.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    <sha2::Sha256 as sha2::Digest>::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+pub fn normalize(path: &std::path::Path) -> std::path::PathBuf {
+    use std::path::Component;
+    let mut out = std::path::PathBuf::new();
+    for part in path.components() {
+        match part {
+            Component::CurDir => {}
+            Component::ParentDir
+                if matches!(out.components().next_back(), Some(Component::Normal(_))) =>
+            {
+                out.pop();
+            }
+            other => out.push(other.as_os_str()),
+        }
+    }
+    if out.as_os_str().is_empty() {
+        out.push(".");
+    }
+    out
+}
+
+/// The catalog file of a reference folder.
+pub const CATALOG_FILE: &str = "datapackage.json";

@@ -17,11 +17,12 @@
 //! standard input are read whole: run them without `--streaming`). Output: csv to `-o FILE`.
 //! Margins of error are refused: their rank intervals and ties need every row at once.
 
+use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::ingest::encoding::EncodingChoice;
 use crate::ingest::table;
 use crate::pipeline::{self, FlagCounts, PipelineSettings};
-use crate::plan::AdjustPlan;
+use crate::reference::References;
 use crate::report::{self, Format};
 use polars::prelude::*;
 use std::collections::HashMap;
@@ -160,10 +161,21 @@ struct Columns {
 /// The run needs restarting with `assume_base_rows` (a later piece holds base-currency rows).
 struct Restart;
 
+/// What a streamed run reads from the plan (the plan itself lives above this module).
+pub struct StreamRun<'a> {
+    pub settings: &'a PipelineSettings,
+    pub input_label: &'a str,
+    pub resolver: &'a Resolver,
+    pub references: Option<&'a References>,
+    pub output_path: Option<&'a Path>,
+    pub rounding: crate::format::Rounding,
+    pub guard_formulas: bool,
+}
+
 /// Runs the table in pieces; the csv is staged in `staging`, to be renamed into place with the
 /// run's other outputs.
 pub fn execute(
-    plan: &AdjustPlan,
+    plan: &StreamRun<'_>,
     stream: &StreamingPlan,
     staging: &mut report::Staging,
 ) -> Result<pipeline::AdjustOutput> {
@@ -177,16 +189,14 @@ pub fn execute(
 }
 
 fn run(
-    plan: &AdjustPlan,
+    plan: &StreamRun<'_>,
     stream: &StreamingPlan,
     settings: &PipelineSettings,
     staging: &mut report::Staging,
 ) -> Result<std::result::Result<pipeline::AdjustOutput, Restart>> {
-    let label = plan.input_label.as_str();
+    let label = plan.input_label;
     let output = plan
-        .output
-        .path
-        .as_deref()
+        .output_path
         .ok_or_else(|| Error::usage("--streaming writes csv to a file", "pass -o FILE.csv"))?;
     let file = std::fs::File::open(&stream.path).map_err(|e| Error::io(label, "open", e))?;
     let mut reader = BufReader::with_capacity(1 << 20, file);
@@ -238,14 +248,9 @@ fn run(
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
         let prepared = match &first {
-            None => pipeline::prepare(
-                &bytes,
-                label,
-                settings,
-                &plan.resolver,
-                plan.references.as_ref(),
-                ord,
-            )?,
+            None => {
+                pipeline::prepare(&bytes, label, settings, plan.resolver, plan.references, ord)?
+            }
             Some(f) => {
                 let text = match f.encoding {
                     Some(EncodingChoice::Windows1252) => encoding_rs::WINDOWS_1252.decode(&bytes).0.into_owned(),
@@ -266,8 +271,8 @@ fn run(
                     piece.as_bytes(),
                     label,
                     &piece_settings,
-                    &plan.resolver,
-                    plan.references.as_ref(),
+                    plan.resolver,
+                    plan.references,
                     ord,
                 )?
             }
@@ -418,9 +423,9 @@ fn run(
         counts.add(FlagCounts::of(&frame)?);
         report::write_csv(
             &frame,
-            plan.output.rounding,
+            plan.rounding,
             i == 0,
-            plan.output.guard_formulas,
+            plan.guard_formulas,
             &mut buffered,
         )?;
         let _ = std::fs::remove_file(&piece.path);
@@ -461,7 +466,7 @@ fn run(
         settings,
         &baseline_steps,
         deflator_used,
-        plan.references.as_ref(),
+        plan.references,
     );
     summary
         .warnings

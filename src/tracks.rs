@@ -8,7 +8,7 @@ use crate::adjust::{
     self, At, Deflator, FactorNeed, Prices, Step, StepContext, Track, TrackState, Unit,
 };
 use crate::error::Result;
-use crate::pipeline::PipelineSettings;
+use crate::model::PipelineSettings;
 use crate::reference::Kind;
 use polars::prelude::*;
 use std::collections::BTreeSet;

@@ -317,6 +317,41 @@ pub fn misplaced(step: &str, problem: impl Into<String>, fix: impl Into<String>)
     Error::usage(format!("step {step}: {}", problem.into()), fix.into())
 }
 
+/// The options a list of steps needs: a base year for deflate, per-income last.
+pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -> Result<()> {
+    check_year_option("--base-year", base_year)?;
+    if steps.iter().any(|s| s.name() == "deflate") && base_year.is_none() {
+        return Err(Error::usage(
+            "step deflate needs a base year",
+            "pass --base-year YYYY (for example --base-year 2023)",
+        ));
+    }
+    if let Some(i) = steps.iter().position(|s| s.name() == "per-income") {
+        if i + 1 != steps.len() {
+            return Err(Error::usage(
+                "per-income must be the last step: its result is a ratio without currency or price base",
+                "move per-income to the end of --steps",
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// A year given as an option must be a calendar year the tables can hold.
+pub fn check_year_option(flag: &str, year: Option<i32>) -> Result<()> {
+    match year {
+        Some(y) if !crate::ingest::words::YEARS.contains(&y) => Err(Error::usage(
+            format!("{flag} {y} is not a calendar year the tables can hold"),
+            format!(
+                "pass {flag} with a four-digit year from {} to {}",
+                crate::ingest::words::YEARS.start(),
+                crate::ingest::words::YEARS.end()
+            ),
+        )),
+        _ => Ok(()),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -26,9 +26,9 @@ impl Step for PerCapita {
             1 => "Figures were divided by population, giving an amount per person.".into(),
             per => format!(
                 "Figures were divided by population and stated per {} people.",
-                crate::report::format::format_number(
+                crate::format::format_number(
                     per as f64,
-                    crate::report::format::Rounding::Decimals(0),
+                    crate::format::Rounding::Decimals(0),
                     true
                 )
             ),

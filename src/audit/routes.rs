@@ -106,7 +106,7 @@ impl<'a> Engine<'a> {
             .filter_map(|name| adjust::find_step(name))
             .collect();
         settings.factor_year_offset = year_offset;
-        crate::plan::check_step_options(&settings.steps, settings.step_settings.base_year)?;
+        crate::adjust::check_step_options(&settings.steps, settings.step_settings.base_year)?;
         Ok(pipeline::run_adjust(
             self.bytes,
             self.label,

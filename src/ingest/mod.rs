@@ -11,6 +11,7 @@ pub mod margins;
 pub mod number;
 pub mod spreadsheet;
 pub mod table;
+pub mod words;
 
 use crate::entity::Resolver;
 use crate::error::{Error, Location, Result};
@@ -442,7 +443,7 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
             )
         })?;
     // Read as it is: no formula guard on an input.
-    crate::report::render_csv(&frame, crate::report::format::Rounding::Full, false)
+    crate::format::render_csv(&frame, crate::format::Rounding::Full, false)
 }
 
 /// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a

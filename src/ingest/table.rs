@@ -21,6 +21,7 @@
 
 use crate::error::{Error, Location, Result};
 use crate::ingest::number::{self, Cell, NumberStyle};
+pub use crate::ingest::words::shorten;
 
 /// A delimited table as text cells, with the line each record starts on.
 #[derive(Debug, Clone)]
@@ -172,7 +173,7 @@ fn classify(cell: &str) -> CellClass {
     if t.is_empty() {
         return CellClass::Empty;
     }
-    if crate::ingest::layout::header_year(t).is_some() {
+    if crate::ingest::words::header_year(t).is_some() {
         return CellClass::Year;
     }
     match number::parse_cell(t, NumberStyle::default()) {
@@ -206,7 +207,7 @@ impl Raw {
             .iter()
             .zip(&classes)
             .filter(|(_, c)| **c == CellClass::Year)
-            .filter_map(|(cell, _)| crate::ingest::layout::header_year(cell))
+            .filter_map(|(cell, _)| crate::ingest::words::header_year(cell))
             .collect();
         let ordered = years.len() < 2
             || years.windows(2).all(|w| w[0] < w[1])
@@ -495,7 +496,7 @@ fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usiz
         let names = window[h]
             .record
             .iter()
-            .filter(|c| crate::ingest::layout::is_role_word(c))
+            .filter(|c| crate::ingest::words::is_role_word(c))
             .count();
         let score = (covered, exact, names);
         if best.is_none_or(|(_, b)| score > b) {
@@ -790,16 +791,6 @@ impl<'a> LineCounter<'a> {
             self.at += 1;
         }
         self.line
-    }
-}
-
-/// A cell or line cut to a length that fits in a message.
-pub fn shorten(text: &str) -> String {
-    const MAX: usize = 60;
-    if text.chars().count() <= MAX {
-        text.to_string()
-    } else {
-        format!("{}…", text.chars().take(MAX).collect::<String>())
     }
 }
 

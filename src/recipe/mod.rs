@@ -201,25 +201,7 @@ impl LoadedRecipe {
 }
 
 /// Removes `.` and folds `name/..` without touching the file system (a leading `..` stays).
-pub fn normalize(path: &Path) -> PathBuf {
-    use std::path::Component;
-    let mut out = PathBuf::new();
-    for part in path.components() {
-        match part {
-            Component::CurDir => {}
-            Component::ParentDir
-                if matches!(out.components().next_back(), Some(Component::Normal(_))) =>
-            {
-                out.pop();
-            }
-            other => out.push(other.as_os_str()),
-        }
-    }
-    if out.as_os_str().is_empty() {
-        out.push(".");
-    }
-    out
-}
+pub use crate::source::normalize;
 
 /// Merges the recipe named by `--recipe` (if any) into `args`, resolves the plan, and records
 /// the recipe for the methods note: the file read, or the recipe equivalent to the flags.

@@ -334,6 +334,6 @@ pub fn write(
             "review and edit it, or pass -o FILE to write the draft elsewhere (or --force to replace it)",
         ));
     }
-    crate::report::write_atomically(&target, &drafted.json)?;
+    crate::staging::write_atomically(&target, &drafted.json)?;
     Ok(target)
 }

@@ -7,6 +7,7 @@
 pub mod catalog;
 pub mod coverage;
 pub mod draft;
+pub mod factors;
 pub mod sdmx;
 pub mod table;
 
@@ -14,9 +15,9 @@ use crate::entity::Resolver;
 use crate::error::Result;
 use crate::source::FileSource;
 pub use catalog::{Basis, Catalog, Kind, Resource};
-pub use table::{Factor, RefTable};
+pub use factors::{Factor, RefTable};
 
-pub const CATALOG_FILE: &str = "datapackage.json";
+pub use crate::source::CATALOG_FILE;
 
 /// Adds the alias files a catalog declares (its `aliases` property) to the resolver.
 pub fn add_catalog_aliases(
@@ -28,10 +29,7 @@ pub fn add_catalog_aliases(
     for path in &catalog.aliases {
         let bytes = source.read(path)?;
         resolver.add_alias_text(&String::from_utf8_lossy(&bytes), &source.label(path))?;
-        read.push((
-            source.label(path),
-            crate::report::methods::sha256_hex(&bytes),
-        ));
+        read.push((source.label(path), crate::source::sha256_hex(&bytes)));
     }
     Ok(read)
 }
@@ -114,7 +112,7 @@ impl References {
 pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<References> {
     let catalog_file = source.label(CATALOG_FILE);
     let catalog_bytes = source.read(CATALOG_FILE)?;
-    let catalog_sha256 = crate::report::methods::sha256_hex(&catalog_bytes);
+    let catalog_sha256 = crate::source::sha256_hex(&catalog_bytes);
     let catalog = catalog::parse_catalog(&catalog_bytes, &catalog_file)?;
     let alias_files = add_catalog_aliases(&catalog, source, resolver)?;
     let mut tables = Vec::with_capacity(catalog.resources.len());

@@ -14,7 +14,7 @@ use crate::error::{Error, Location, Result};
 use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
-use crate::reference::table::{check_positive, empty_table, insert_factor, RefTable};
+use crate::reference::factors::{check_positive, empty_table, insert_factor, RefTable};
 use std::collections::{BTreeMap, BTreeSet, HashMap};
 
 /// Columns that are not dimensions of a series.

@@ -8,15 +8,9 @@
 
 use crate::pipeline::{PipelineSettings, RunSummary};
 use crate::reference::References;
-use sha2::{Digest, Sha256};
+pub use crate::source::sha256_hex;
 
 /// The sha256 of some bytes, as lowercase hex.
-pub fn sha256_hex(bytes: &[u8]) -> String {
-    Sha256::digest(bytes)
-        .iter()
-        .map(|b| format!("{b:02x}"))
-        .collect()
-}
 
 /// The note's content, independent of its rendering.
 #[derive(Debug, Clone, serde::Serialize)]
@@ -70,14 +64,6 @@ pub struct FileLine {
     pub description: String,
     pub sha256: String,
 }
-
-/// The standard cautions printed with every note.
-pub const CAUTIONS: &[&str] = &[
-    "Market rates and PPPs answer different questions: market rates for what money buys abroad, PPPs for what it buys at home. Say which one a chart uses.",
-    "Reference data (exchange rates, PPPs, price indices, populations) are revised between releases; cite the vintage used.",
-    "A rank change inside the uncertainty of the figures is not a finding: a small gap can reverse with the next revision.",
-    "Where the figures concern health, poverty lines or safety, defer to the published figures of the responsible authorities.",
-];
 
 /// What the flags mean, grouped for readers.
 fn flag_reason(flag: &str) -> String {

@@ -5,6 +5,7 @@
 //! machine formats (csv, json) keep every digit and reader formats (table, md) use the reading
 //! rule: no decimals from 100 up, two from 1 up, three significant digits below 1.
 
+use crate::error::{Error, Result};
 use polars::prelude::*;
 use rust_decimal::prelude::FromPrimitive;
 use rust_decimal::{Decimal, RoundingStrategy};
@@ -326,6 +327,69 @@ pub fn column_json(frame: &DataFrame, name: &str, rounding: Rounding) -> Vec<ser
             Ok(other) => serde_json::Value::String(other.to_string()),
         })
         .collect()
+}
+
+/// The frame as csv text; `guard` neutralises text cells a spreadsheet would run as formulas.
+pub fn render_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> Result<String> {
+    let mut bytes = Vec::new();
+    write_csv(frame, rounding, true, guard, &mut bytes)?;
+    Ok(String::from_utf8_lossy(&bytes).into_owned())
+}
+
+/// Rows formatted at a time: the cell texts of one slice are held, not those of the frame.
+const CSV_SLICE_ROWS: usize = 65_536;
+
+/// Writes the frame as csv (with or without the header line) to `out`, a slice at a time.
+/// With `guard`, a text cell that a spreadsheet would take for a formula (it starts with `=`,
+/// `+`, `-`, `@`, a tab or a carriage return and is not a number) is written with a leading
+/// `'`, the common defence of csv exports (OWASP, "CSV Injection"); numbers are never touched.
+pub fn write_csv(
+    frame: &DataFrame,
+    rounding: Rounding,
+    header: bool,
+    guard: bool,
+    out: &mut dyn std::io::Write,
+) -> Result<()> {
+    let names: Vec<String> = frame
+        .get_column_names()
+        .iter()
+        .map(|n| n.to_string())
+        .collect();
+    let io_error = |e: csv::Error| {
+        Error::io(
+            "the csv output",
+            "write",
+            std::io::Error::other(e.to_string()),
+        )
+    };
+    let mut writer = csv::WriterBuilder::new()
+        .terminator(csv::Terminator::Any(b'\n'))
+        .buffer_capacity(1 << 16)
+        .from_writer(out);
+    if header {
+        writer.write_record(&names).map_err(io_error)?;
+    }
+    let mut start = 0;
+    let mut cell = String::new();
+    while start < frame.height() {
+        let slice = frame.slice(start as i64, CSV_SLICE_ROWS);
+        let mut columns: Vec<CellSource> = names
+            .iter()
+            .map(|n| CellSource::new(&slice, n, rounding))
+            .collect();
+        for _ in 0..slice.height() {
+            for column in columns.iter_mut() {
+                column.next_into(rounding, guard, &mut cell);
+                writer.write_field(cell.as_bytes()).map_err(io_error)?;
+            }
+            writer.write_record(None::<&[u8]>).map_err(io_error)?;
+        }
+        start += slice.height();
+    }
+    writer
+        .flush()
+        .map_err(|e| Error::io("the csv output", "write", e))?;
+    Ok(())
 }
 
 #[cfg(test)]
