@@ -511,6 +511,16 @@ pub struct OutputArgs {
     /// only: a recipe cannot turn the guard off.
     #[arg(long, help_heading = "Output")]
     pub allow_formulas: bool,
+
+    /// The columns of csv, json and Parquet output: all (every stage and factor column), core
+    /// (ids, entity, year, group, value, baseline, adjusted, margins, ranks, shift, flags), or
+    /// output column names separated by commas.
+    #[arg(long, value_name = "SET", default_value = "all", value_parser = parse_column_set, help_heading = "Output")]
+    pub write_columns: crate::model::ColumnSet,
+}
+
+fn parse_column_set(text: &str) -> Result<crate::model::ColumnSet, String> {
+    crate::model::ColumnSet::parse(text)
 }
 
 #[derive(Debug, Args)]

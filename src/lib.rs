@@ -156,6 +156,7 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
                 output_path: plan.output.path.as_deref(),
                 rounding: plan.output.rounding,
                 guard_formulas: plan.output.guard_formulas,
+                columns: &plan.output.columns,
             };
             streaming::execute(&run, stream, &mut staging)?
         }
@@ -178,6 +179,24 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         });
     }
     output.summary.notice = plan.output.notice.clone();
+    if plan.streaming.is_none() {
+        let available = output.frame.width();
+        let written = plan
+            .output
+            .columns
+            .pick(
+                &output
+                    .frame
+                    .get_column_names()
+                    .iter()
+                    .map(|n| n.to_string())
+                    .collect::<Vec<_>>(),
+            )?
+            .len();
+        if let Some(note) = plan.output.columns.describe(written, available) {
+            output.summary.notes.push(note);
+        }
+    }
     let input_sha256 = match &plan.streaming {
         Some(stream) => source::sha256_of_file(&stream.path)?,
         None => report::methods::sha256_hex(&plan.input_bytes),
@@ -203,14 +222,14 @@ fn stage_outputs(
 ) -> Result<()> {
     // A notice (the demo's INVENTED DATA) becomes the first column of the data files, so that
     // it stays with every copy of them; json carries it in its metadata.
-    let marked;
-    let frame = match &plan.output.notice {
+    let marked = match &plan.output.notice {
         Some(notice) if plan.output.format != report::Format::Json => {
-            marked = report::with_notice_column(&output.frame, notice)?;
-            &marked
+            Some(report::with_notice_column(&output.frame, notice)?)
         }
-        _ => &output.frame,
+        _ => None,
     };
+    let frame = data_columns(marked.as_ref().unwrap_or(&output.frame), &plan.output)?;
+    let frame = &frame;
     let render = || -> Result<String> {
         Ok(match plan.output.format {
             report::Format::Methods => report::methods::render_markdown(note),
@@ -250,6 +269,25 @@ fn stage_outputs(
         }
     }
     Ok(())
+}
+
+/// The columns a data file gets (`--write-columns`); reader formats choose their own.
+fn data_columns(
+    frame: &polars::prelude::DataFrame,
+    output: &plan::OutputPlan,
+) -> Result<polars::prelude::DataFrame> {
+    let available: Vec<String> = frame
+        .get_column_names()
+        .iter()
+        .map(|n| n.to_string())
+        .collect();
+    let keep = output.columns.pick(&available)?;
+    if keep.len() == available.len() {
+        return Ok(frame.clone());
+    }
+    frame
+        .select(keep)
+        .map_err(error::Error::engine("selecting the output columns"))
 }
 
 /// Writes to standard output. When its reader has gone away (`| head`), the tool stops quietly

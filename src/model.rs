@@ -55,3 +55,102 @@ pub struct RunSummary {
     #[serde(skip_serializing_if = "Option::is_none")]
     pub notice: Option<String>,
 }
+
+/// The columns of a data file (csv, json, Parquet): every column (the default), the data
+/// contract's core, or a list the user names (`--write-columns`).
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub enum ColumnSet {
+    #[default]
+    All,
+    Core,
+    List(Vec<String>),
+}
+
+/// The data contract's core: ids, entity, year, group, value, both tracks, their margins,
+/// ranks, rank ranges, the shift and the flags. Stage and factor columns are left out.
+pub const CORE_COLUMNS: &[&str] = &[
+    "data_notice",
+    "row_id",
+    "entity_input",
+    "entity_code",
+    "entity_name",
+    "year",
+    "group",
+    "value",
+    "value_baseline",
+    "value_adjusted",
+    "moe_baseline",
+    "moe_adjusted",
+    "rank_baseline",
+    "rank_adjusted",
+    "rank_shift",
+    "rank_baseline_low",
+    "rank_baseline_high",
+    "rank_adjusted_low",
+    "rank_adjusted_high",
+    "tied_with",
+    "flags",
+];
+
+impl ColumnSet {
+    /// Reads `all`, `core` or a comma-separated list of output column names.
+    pub fn parse(text: &str) -> std::result::Result<ColumnSet, String> {
+        match text.trim() {
+            "all" => Ok(ColumnSet::All),
+            "core" => Ok(ColumnSet::Core),
+            list => {
+                let names: Vec<String> = list
+                    .split(',')
+                    .map(|n| n.trim().to_string())
+                    .filter(|n| !n.is_empty())
+                    .collect();
+                if names.is_empty() {
+                    return Err("name core, all, or output columns separated by commas".into());
+                }
+                Ok(ColumnSet::List(names))
+            }
+        }
+    }
+
+    /// The columns to write, in the output's order, out of `available`. A named column that
+    /// the run does not write is an error naming the ones it does.
+    pub fn pick(&self, available: &[String]) -> crate::error::Result<Vec<String>> {
+        match self {
+            ColumnSet::All => Ok(available.to_vec()),
+            ColumnSet::Core => Ok(available
+                .iter()
+                .filter(|c| CORE_COLUMNS.contains(&c.as_str()))
+                .cloned()
+                .collect()),
+            ColumnSet::List(names) => {
+                if let Some(unknown) = names.iter().find(|n| !available.contains(n)) {
+                    return Err(crate::error::Error::usage(
+                        format!(
+                            "--write-columns names \"{unknown}\", which this run does not write"
+                        ),
+                        format!("name columns among: {}", available.join(", ")),
+                    ));
+                }
+                // Kept in the output's order; the notice of invented data is never dropped.
+                Ok(available
+                    .iter()
+                    .filter(|c| names.contains(c) || c.as_str() == "data_notice")
+                    .cloned()
+                    .collect())
+            }
+        }
+    }
+
+    /// What the summary says was written.
+    pub fn describe(&self, written: usize, available: usize) -> Option<String> {
+        match self {
+            ColumnSet::All => None,
+            ColumnSet::Core => Some(format!(
+                "columns: the core set, {written} of {available} (--write-columns all for every stage and factor column)"
+            )),
+            ColumnSet::List(_) => Some(format!(
+                "columns: {written} of {available}, as --write-columns names them"
+            )),
+        }
+    }
+}

@@ -53,6 +53,8 @@ pub struct OutputPlan {
     pub notice: Option<String>,
     /// Text cells that a spreadsheet would run as formulas get a leading `'` in csv.
     pub guard_formulas: bool,
+    /// The columns of data files (`--write-columns`).
+    pub columns: crate::model::ColumnSet,
 }
 
 pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
@@ -499,6 +501,7 @@ pub fn resolve_output(args: &OutputArgs) -> Result<OutputPlan> {
         report: args.report.clone(),
         notice: None,
         guard_formulas: !args.allow_formulas,
+        columns: args.write_columns.clone(),
     })
 }
 

@@ -170,6 +170,7 @@ pub struct StreamRun<'a> {
     pub output_path: Option<&'a Path>,
     pub rounding: crate::format::Rounding,
     pub guard_formulas: bool,
+    pub columns: &'a crate::model::ColumnSet,
 }
 
 /// Runs the table in pieces; the csv is staged in `staging`, to be renamed into place with the
@@ -244,6 +245,7 @@ fn run(
     let mut rows_before = 0usize;
     let mut ord = 0u64;
     let mut later_notes: Vec<String> = Vec::new();
+    let mut column_note: Option<String> = None;
     let mut shape: Option<Columns> = None;
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
@@ -401,7 +403,11 @@ fn run(
     let rows_in = ord as usize;
 
     // The pieces again, in order, with their ranks, into the output.
-    let order = pipeline::output_columns(&head, settings);
+    let all = pipeline::output_columns(&head, settings);
+    let order = plan.columns.pick(&all)?;
+    if let Some(note) = plan.columns.describe(order.len(), all.len()) {
+        column_note = Some(note);
+    }
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
     let temp = report::temp_beside(output)?;
     let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
@@ -452,6 +458,7 @@ fn run(
         );
     }
     notes.extend(later_notes);
+    notes.extend(column_note);
     notes.push(format!(
         "streaming: read in {} piece(s) of about {:.2} MB; ranks computed once over the whole table",
         spilled.len(),

@@ -335,6 +335,16 @@ fn merge_output(m: &mut Merge, o: &super::OutputSection, args: &mut cli::OutputA
     if let Some(v) = m.take("output.report", "report", &o.report) {
         args.report = Some(PathBuf::from(m.output_path("output.report", v)?));
     }
+    if let Some(v) = m.take("output.write_columns", "write_columns", &o.write_columns) {
+        args.write_columns = crate::model::ColumnSet::parse(v.get_ref()).map_err(|why| {
+            m.loaded.error_at(
+                "output.write_columns",
+                v.span(),
+                format!("\"{}\" is not a column set", v.get_ref()),
+                why,
+            )
+        })?;
+    }
     Ok(())
 }
 

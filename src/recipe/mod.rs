@@ -151,6 +151,9 @@ pub struct OutputSection {
     pub methods: At<String>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub report: At<String>,
+    /// `--write-columns`: all, core, or column names separated by commas.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub write_columns: At<String>,
 }
 
 /// A recipe read from disk, with what errors need to point into it.

@@ -125,6 +125,11 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
             Some(p) => rel(p)?,
             None => None,
         },
+        write_columns: match &o.write_columns {
+            crate::model::ColumnSet::All => None,
+            crate::model::ColumnSet::Core => at("core".to_string()),
+            crate::model::ColumnSet::List(names) => at(names.join(",")),
+        },
     };
     let recipe = Recipe {
         input,

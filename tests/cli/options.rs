@@ -232,3 +232,91 @@ fn share_units_percent_and_fraction_give_the_same_margin() {
         run.stdout
     );
 }
+
+#[test]
+fn write_columns_keeps_the_core_or_a_list_with_the_same_cells() {
+    // Penn World Table figures (tests/data/world): the core set and a list hold exactly the
+    // cells of the full output, in its order; the summary says which set was written.
+    let env = setup();
+    let world = env.repo.join("tests/data/world");
+    let input = world.join("gdp-long-titled.csv").display().to_string();
+    let refs = world.join("wb-bulk").display().to_string();
+    let run = |extra: &[&str]| {
+        let mut argv = vec![
+            "adjust",
+            &input,
+            "--refs",
+            &refs,
+            "--steps",
+            "ppp,per-capita",
+            "--format",
+            "csv",
+        ];
+        argv.extend_from_slice(extra);
+        let run = env.run(&argv);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        run
+    };
+    let all = run(&[]);
+    let core = run(&["--write-columns", "core"]);
+    assert!(
+        core.stderr.contains("columns: the core set"),
+        "{}",
+        core.stderr
+    );
+    let header = core.stdout.lines().next().unwrap();
+    assert_eq!(
+        header,
+        "row_id,entity_input,entity_code,entity_name,year,group,value,value_baseline,value_adjusted,rank_baseline,rank_adjusted,rank_shift,flags"
+    );
+    let (all_rows, core_rows) = (all.rows(), core.rows());
+    assert_eq!(all_rows.len(), 120);
+    for (a, c) in all_rows.iter().zip(&core_rows) {
+        for (name, cell) in c {
+            assert_eq!(&a[name], cell, "{name}");
+        }
+    }
+    let list = run(&["--write-columns", "value_adjusted,entity_code"]);
+    assert_eq!(
+        list.stdout.lines().next().unwrap(),
+        "entity_code,value_adjusted"
+    );
+    let streamed = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp,per-capita",
+        "--write-columns",
+        "core",
+        "--streaming",
+        "-o",
+        "s.csv",
+    ]);
+    assert_eq!(streamed.code, 0, "{}", streamed.stderr);
+    assert_eq!(
+        std::fs::read_to_string(env.path("s.csv")).unwrap(),
+        core.stdout
+    );
+    let bad = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp",
+        "--write-columns",
+        "nope",
+        "-o",
+        "bad.csv",
+    ]);
+    assert_eq!(bad.code, 2);
+    assert!(
+        bad.stderr
+            .contains("\"nope\", which this run does not write"),
+        "{}",
+        bad.stderr
+    );
+    assert!(!env.path("bad.csv").exists());
+}
