@@ -1,7 +1,7 @@
 """Times, on the same files and in one run, side by side:
   1. the I/O floor: polars reads the CSV and writes it back unchanged;
   2. levelfield adjust (deflate, ppp, per-capita; ranks per item and year), in memory;
-  3. the same with --streaming;
+  3. the same with --streaming, and with --write-columns core (the data contract's columns);
   4. the job written by hand in pandas (bench/hand_pandas.py);
   5. the job written by hand in polars, Python (bench/hand_polars.py);
 and a 200-row table through levelfield. Wall time, rows per second and peak memory (maximum
@@ -87,6 +87,7 @@ def main():
             ("I/O floor (polars read + write)", "floor", floor_script(data, f"{data}/out-floor.csv")),
             ("levelfield adjust", "levelfield", levelfield(data, f"{data}/out-levelfield.csv")),
             ("levelfield adjust --streaming", "streaming", levelfield(data, f"{data}/out-streaming.csv", "--streaming")),
+            ("levelfield adjust --write-columns core", "core", levelfield(data, f"{data}/out-core.csv", "--write-columns", "core")),
             ("hand-written pandas", "pandas", [PY, f"{HERE}/hand_pandas.py", data, f"{data}/out-pandas.csv"]),
             ("hand-written polars (Python)", "polars", [PY, f"{HERE}/hand_polars.py", data, f"{data}/out-polars.csv"]),
         ]

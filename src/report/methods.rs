@@ -10,8 +10,6 @@ use crate::pipeline::{PipelineSettings, RunSummary};
 use crate::reference::References;
 pub use crate::source::sha256_hex;
 
-/// The sha256 of some bytes, as lowercase hex.
-
 /// The note's content, independent of its rendering.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct MethodsNote {

@@ -121,7 +121,7 @@ mod tests {
         // ACS General Handbook, ch. 8: margins 3,860, 2,642 and 1,957 of a sum give ± 5,070 (the
         // handbook rounds to units); the root of the squares, worked by hand, is 5,070.4648.
         let moe = moe_sum(&[3860.0, 2642.0, 1957.0]);
-        assert!((moe - 5070.464_771_596_386).abs() < 1e-9, "{moe}");
+        assert!((moe - 5_070.464_771_596_386).abs() < 1e-9, "{moe}");
         // A plain sum of margins (a wrong formula) would give 8,459.
         assert!((moe_sum(&[3860.0, 2642.0, 1957.0]) - 8459.0).abs() > 3000.0);
     }
