@@ -179,7 +179,11 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         });
     }
     output.summary.notice = plan.output.notice.clone();
-    if plan.streaming.is_none() {
+    let data_file = matches!(
+        plan.output.format,
+        report::Format::Csv | report::Format::Json | report::Format::Parquet
+    );
+    if plan.streaming.is_none() && data_file {
         let available = output.frame.width();
         let written = plan
             .output
@@ -228,7 +232,12 @@ fn stage_outputs(
         }
         _ => None,
     };
-    let frame = data_columns(marked.as_ref().unwrap_or(&output.frame), &plan.output)?;
+    let frame = match plan.output.format {
+        report::Format::Csv | report::Format::Json | report::Format::Parquet => {
+            data_columns(marked.as_ref().unwrap_or(&output.frame), &plan.output)?
+        }
+        _ => marked.unwrap_or_else(|| output.frame.clone()),
+    };
     let frame = &frame;
     let render = || -> Result<String> {
         Ok(match plan.output.format {

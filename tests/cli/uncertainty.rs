@@ -277,6 +277,16 @@ fn demo_with_margins_separates_real_shifts_from_noise() {
     assert_golden("demo-margins-table.txt", &run.stdout);
     let csv = env.run(&["demo", "--margins", "--format", "csv"]);
     let rows = csv.rows();
+    // Worked by hand from the demo's (invented) tables: Bolqueth spends 877 ± 35.1 (90%) in
+    // 2023; at its PPP of 10.2 that is 85.98 ± 3.441 international dollars, and at its market
+    // rate of 8.5, 103.18 ± 4.129 US dollars. An exact factor scales the margin by itself (ACS
+    // General Handbook, ch. 8).
+    let bolqueth = rows.iter().find(|r| r["entity_code"] == "XAB").unwrap();
+    let num = |c: &str| bolqueth[c].parse::<f64>().unwrap();
+    assert!((num("value_adjusted") - 877.0 / 10.2).abs() < 1e-9);
+    assert!((num("moe_adjusted") - 35.1 / 10.2).abs() < 1e-9);
+    assert!((num("value_baseline") - 877.0 / 8.5).abs() < 1e-9);
+    assert!((num("moe_baseline") - 35.1 / 8.5).abs() < 1e-9);
     let moved: Vec<_> = rows.iter().filter(|r| r["rank_shift"] != "0").collect();
     assert!(
         moved
