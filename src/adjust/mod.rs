@@ -356,6 +356,47 @@ pub fn check_year_option(flag: &str, year: Option<i32>) -> Result<()> {
 mod tests {
     use super::*;
 
+    /// `ratio_se` evaluated on one row of literals.
+    fn ratio_se_of(x: f64, se_x: f64, y: f64, se_y: f64, proportion: bool) -> f64 {
+        let frame = polars::df!("x" => [x], "sx" => [se_x], "y" => [y], "sy" => [se_y]).unwrap();
+        let out = frame
+            .lazy()
+            .select([ratio_se(col("x"), col("sx"), col("y"), col("sy"), proportion).alias("se")])
+            .collect()
+            .unwrap();
+        out.column("se").unwrap().f64().unwrap().get(0).unwrap()
+    }
+
+    #[test]
+    fn ratio_and_proportion_standard_errors_follow_the_handbook_formulas() {
+        // ACS General Handbook (U.S. Census Bureau, 2018/2020), ch. 8, worked by hand:
+        // X = 500 ± 20 (SE), Y = 2000 ± 50: r = 0.25.
+        // ratio:      sqrt(20² + 0.25²·50²) / 2000 = sqrt(556.25) / 2000 = 0.011792476415070755
+        // proportion: sqrt(20² − 0.25²·50²) / 2000 = sqrt(243.75) / 2000 = 0.0078062474979979975
+        let ratio = ratio_se_of(500.0, 20.0, 2000.0, 50.0, false);
+        assert!((ratio - 556.25f64.sqrt() / 2000.0).abs() < 1e-15, "{ratio}");
+        assert!((ratio - 0.011_792_476_415_070_755).abs() < 1e-15);
+        let proportion = ratio_se_of(500.0, 20.0, 2000.0, 50.0, true);
+        assert!(
+            (proportion - 243.75f64.sqrt() / 2000.0).abs() < 1e-15,
+            "{proportion}"
+        );
+        assert!((proportion - 0.007_806_247_497_997_998).abs() < 1e-15);
+        // Under the root negative (X = 100 ± 5, Y = 200 ± 20, r = 0.5: 25 − 100 < 0): the
+        // handbook says to use the ratio form, sqrt(25 + 100) / 200 = 0.05590169943749475.
+        let fallback = ratio_se_of(100.0, 5.0, 200.0, 20.0, true);
+        assert!(
+            (fallback - 125f64.sqrt() / 200.0).abs() < 1e-15,
+            "{fallback}"
+        );
+        assert_eq!(fallback, ratio_se_of(100.0, 5.0, 200.0, 20.0, false));
+    }
+
+    #[test]
+    fn step_names_list_the_registry_for_messages() {
+        assert_eq!(step_names(), "market, ppp, deflate, per-capita, per-income");
+    }
+
     #[test]
     fn registry_rules_unique_names_and_complete_docs() {
         let mut names: Vec<&str> = STEPS.iter().map(|s| s.name()).collect();
