@@ -320,3 +320,124 @@ fn write_columns_keeps_the_core_or_a_list_with_the_same_cells() {
     );
     assert!(!env.path("bad.csv").exists());
 }
+
+#[test]
+fn per_capita_margins_with_and_without_an_uncertain_population() {
+    // ACS General Handbook (U.S. Census Bureau), ch. 8, worked by hand: X = 500 with SE 20,
+    // population 2000 with SE 50, per 1000 people, margins written at 90% (z = 1.6448536...).
+    // ratio:      1000 · sqrt(20² + 0.25²·50²) / 2000
+    // proportion: 1000 · sqrt(20² − 0.25²·50²) / 2000 (X counts people within the population)
+    // exact population: 1000 · 20 / 2000, for ratios and proportions alike.
+    let env = setup();
+    let input = env.write("x.csv", "country,year,value,se\nFrance,2020,500,20\n");
+    for (name, se_field) in [("uncertain", r#","se_field":"se""#), ("exact", "")] {
+        let dir = env.path(name);
+        std::fs::create_dir(&dir).unwrap();
+        std::fs::write(
+            dir.join("population.csv"),
+            "country,year,value,se\nFrance,2020,2000,50\n",
+        )
+        .unwrap();
+        std::fs::write(
+            dir.join("datapackage.json"),
+            format!(r#"{{"resources":[{{"name":"pop","path":"population.csv","kind":"population"{se_field}}}]}}"#),
+        )
+        .unwrap();
+    }
+    let moe = |refs: &str, proportion: bool| {
+        let refs = env.path(refs).display().to_string();
+        let mut argv = vec![
+            "adjust",
+            &input,
+            "--refs",
+            &refs,
+            "--steps",
+            "per-capita",
+            "--per",
+            "1000",
+            "--currency-code",
+            "XXX",
+            "--se",
+            "se",
+            "--format",
+            "csv",
+        ];
+        if proportion {
+            argv.push("--proportion");
+        }
+        let run = env.run(&argv);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        let rows = run.rows();
+        assert!((num(&rows[0], "value_adjusted") - 250.0).abs() < 1e-12);
+        num(&rows[0], "moe_adjusted")
+    };
+    let close = |got: f64, want: f64| assert!((got - want).abs() < 1e-9 * want, "{got} vs {want}");
+    close(
+        moe("uncertain", false),
+        Z_95 * 1000.0 * 556.25f64.sqrt() / 2000.0,
+    );
+    close(
+        moe("uncertain", true),
+        Z_95 * 1000.0 * 243.75f64.sqrt() / 2000.0,
+    );
+    close(moe("exact", true), Z_95 * 1000.0 * 20.0 / 2000.0);
+    close(moe("exact", false), Z_95 * 1000.0 * 20.0 / 2000.0);
+}
+
+#[test]
+fn the_methods_note_explains_each_step_that_ran() {
+    // The note's plain sentences come from the step registry; the deflation sentence names the
+    // index actually used, and cpi_ratio is CPI[base] / CPI[year] (BLS CPI-U, recalled from
+    // memory: 2023 = 304.702, 2020 = 258.811, 2000 = 172.2).
+    let env = setup();
+    let refs = env.data("published");
+    let fr = env.write("fr.csv", "country,year,price\nFrance,2020,2.30\n");
+    let us = env.write("us.csv", "country,year,price\nUnited States,2000,100\n");
+    let note = |input: &str, steps: &str, extra: &[&str]| {
+        let mut argv = vec![
+            "adjust",
+            input,
+            "--refs",
+            &refs,
+            "--steps",
+            steps,
+            "--base-year",
+            "2023",
+            "--format",
+            "methods",
+        ];
+        argv.extend_from_slice(extra);
+        let run = env.run(&argv);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        run.stdout
+    };
+    let market = note(&fr, "market", &[]);
+    assert!(
+        market.contains("converted from each country's currency to USD at market exchange rates"),
+        "{market}"
+    );
+    let base = note(&fr, "ppp,deflate", &["--deflator", "base-currency"]);
+    assert!(
+        base.contains("with the USD consumer price index, after conversion at each year's rate"),
+        "{base}"
+    );
+    let csv = |input: &str, steps: &str| {
+        let run = env.run(&[
+            "adjust",
+            input,
+            "--refs",
+            &refs,
+            "--steps",
+            steps,
+            "--base-year",
+            "2023",
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        num(&run.rows()[0], "cpi_ratio")
+    };
+    // The entity's own CPI (before any conversion) and the base currency's (after one).
+    assert!((csv(&us, "deflate") - 304.702 / 172.2).abs() < 1e-12);
+    assert!((csv(&fr, "ppp,deflate") - 304.702 / 258.811).abs() < 1e-12);
+}
