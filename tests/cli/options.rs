@@ -441,3 +441,129 @@ fn the_methods_note_explains_each_step_that_ran() {
     assert!((csv(&us, "deflate") - 304.702 / 172.2).abs() < 1e-12);
     assert!((csv(&fr, "ppp,deflate") - 304.702 / 258.811).abs() < 1e-12);
 }
+
+#[test]
+fn per_income_margins_and_rules_whatever_the_currency_route() {
+    // A share of income does not depend on the currency it is computed in: 500 (SE 20) against
+    // an income of 2000 (SE 50) in local currency, reached directly, through international
+    // dollars (PPP 1.15, the OECD FAQ's France figure) or through US dollars (fixture rate
+    // 0.92), and with the income table itself in international dollars. ACS General Handbook,
+    // ch. 8 (ratio of two estimates), worked by hand: share 0.25, SE sqrt(20² + 0.25²·50²) /
+    // 2000, margin at 90% = z · SE; days of income: 365 times both.
+    let env = setup();
+    let input = env.write("x.csv", "country,year,value,se\nFrance,2020,500,20\n");
+    for (name, basis, income, se) in [
+        ("lcu", "lcu", 2000.0, 50.0),
+        ("intl", "intl", 2000.0 / 1.15, 50.0 / 1.15),
+    ] {
+        let dir = env.path(name);
+        std::fs::create_dir(&dir).unwrap();
+        std::fs::write(dir.join("ppp.csv"), "country,2020\nFrance,1.15\n").unwrap();
+        std::fs::write(dir.join("fx.csv"), "country,2020\nFrance,0.92\n").unwrap();
+        std::fs::write(
+            dir.join("income.csv"),
+            format!("country,year,value,se\nFrance,2020,{income},{se}\n"),
+        )
+        .unwrap();
+        std::fs::write(
+            dir.join("datapackage.json"),
+            format!(
+                r#"{{"resources":[{{"name":"ppp","path":"ppp.csv","kind":"ppp"}},{{"name":"fx","path":"fx.csv","kind":"fx"}},{{"name":"income","path":"income.csv","kind":"income","basis":"{basis}","se_field":"se"}}]}}"#
+            ),
+        )
+        .unwrap();
+    }
+    let se = 556.25f64.sqrt() / 2000.0;
+    for refs in ["lcu", "intl"] {
+        for steps in ["per-income", "ppp,per-income", "market,per-income"] {
+            for (income_as, scale) in [("share", 1.0), ("days", 365.0)] {
+                let refs_dir = env.path(refs).display().to_string();
+                let run = env.run(&[
+                    "adjust",
+                    &input,
+                    "--refs",
+                    &refs_dir,
+                    "--steps",
+                    steps,
+                    "--se",
+                    "se",
+                    "--income-as",
+                    income_as,
+                    "--format",
+                    "csv",
+                ]);
+                assert_eq!(run.code, 0, "{refs} {steps}: {}", run.stderr);
+                let row = &run.rows()[0];
+                let what = format!("{refs} {steps} {income_as}");
+                let value = num(row, "value_per_income");
+                assert!(
+                    (value - 0.25 * scale).abs() < 1e-9 * scale,
+                    "{what}: {value}"
+                );
+                let moe = num(row, "moe_adjusted");
+                let want = Z_95 * se * scale;
+                assert!((moe - want).abs() < 1e-9 * want, "{what}: {moe} vs {want}");
+            }
+        }
+    }
+    // Per-capita figures per person may be compared with income per person; per 1000 may not.
+    let refs = env.path("lcu").display().to_string();
+    let pop = env.path("lcu/population.csv");
+    std::fs::write(&pop, "country,2020\nFrance,4\n").unwrap();
+    let catalog = std::fs::read_to_string(env.path("lcu/datapackage.json")).unwrap();
+    std::fs::write(
+        env.path("lcu/datapackage.json"),
+        catalog.replace(
+            r#""resources":["#,
+            r#""resources":[{"name":"pop","path":"population.csv","kind":"population"},"#,
+        ),
+    )
+    .unwrap();
+    let per_person = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "per-capita,per-income",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(per_person.code, 0, "{}", per_person.stderr);
+    // 500 / 4 people = 125 per person, against 2000 per person: 0.0625.
+    assert!((num(&per_person.rows()[0], "value_per_income") - 0.0625).abs() < 1e-12);
+    let per_thousand = env.run(&[
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "per-capita,per-income",
+        "--per",
+        "1000",
+    ]);
+    assert_eq!(per_thousand.code, 2);
+    assert!(
+        per_thousand.stderr.contains("use --per 1 with per-income"),
+        "{}",
+        per_thousand.stderr
+    );
+    // The note says which comparison was made.
+    let note = |income_as: &str| {
+        env.run(&[
+            "adjust",
+            &input,
+            "--refs",
+            &refs,
+            "--steps",
+            "per-income",
+            "--income-as",
+            income_as,
+            "--format",
+            "methods",
+        ])
+        .stdout
+    };
+    assert!(note("share").contains("as a share of a year's income"));
+    assert!(note("days").contains("as the number of days of income they cost"));
+}

@@ -353,7 +353,7 @@ fn forcing_the_header_line_and_the_layout_gives_the_same_published_figures() {
 }
 
 #[test]
-fn income_in_international_dollars_is_taken_back_to_local_currency() {
+fn income_in_international_or_us_dollars_is_taken_back_to_local_currency() {
     // An income table in international dollars (catalog "basis": "intl") is multiplied by the
     // row year's PPP before dividing. Income = PWT's published cgdp (GDP per capita at current
     // PPPs), figure = GDP in national currency: their ratio is the population PWT used
@@ -368,6 +368,7 @@ fn income_in_international_dollars_is_taken_back_to_local_currency() {
     let mut reader =
         csv::Reader::from_path(env.repo.join("tests/data/world/expected.csv")).unwrap();
     let mut income = String::from("iso3,year,value\n");
+    let mut income_usd = String::from("iso3,year,value\n");
     let mut population = HashMap::new();
     for row in reader.deserialize::<HashMap<String, String>>() {
         let row = row.unwrap();
@@ -375,45 +376,52 @@ fn income_in_international_dollars_is_taken_back_to_local_currency() {
             "{},{},{}\n",
             row["iso3"], row["year"], row["published_intl_per_capita"]
         ));
+        // The same income in US dollars: cgdp × PPP / market rate (PWT's ppp and xrat).
+        let usd = row["published_intl_per_capita"].parse::<f64>().unwrap()
+            * row["ppp"].parse::<f64>().unwrap()
+            / row["fx"].parse::<f64>().unwrap();
+        income_usd.push_str(&format!("{},{},{usd}\n", row["iso3"], row["year"]));
         population.insert(
             (row["iso3"].clone(), row["year"].clone()),
             row["population"].parse::<f64>().unwrap(),
         );
     }
     std::fs::write(refs.join("income.csv"), income).unwrap();
-    std::fs::write(
-        refs.join("datapackage.json"),
-        r#"{"resources":[{"name":"ppp","path":"ppp.csv","kind":"ppp"},{"name":"population","path":"population.csv","kind":"population"},{"name":"fx","path":"fx.csv","kind":"fx"},{"name":"cgdp","path":"income.csv","kind":"income","basis":"intl","unit":"GDP per capita, international dollars (PWT 7.1 cgdp)"}]}"#,
-    )
-    .unwrap();
-    let run = env.run(&[
-        "adjust",
-        &env.repo
-            .join("tests/data/world/gdp-long-titled.csv")
-            .display()
-            .to_string(),
-        "--refs",
-        &refs.display().to_string(),
-        "--steps",
-        "per-income",
-        "--format",
-        "csv",
-    ]);
-    assert_eq!(run.code, 0, "{}", run.stderr);
-    let mut checked = 0;
-    for row in run.rows() {
-        let key = (row["entity_code"].clone(), row["year"].clone());
-        let Some(expected) = population.get(&key) else {
-            continue;
-        };
-        let share = num(&row, "value_per_income");
-        assert!(
-            ((share - expected) / expected).abs() < PUBLISHED_TOLERANCE,
-            "{key:?}: {share} against {expected}"
-        );
-        checked += 1;
+    std::fs::write(refs.join("income-usd.csv"), income_usd).unwrap();
+    for (file, basis) in [("income.csv", "intl"), ("income-usd.csv", "usd")] {
+        let catalog = r#"{"resources":[{"name":"ppp","path":"ppp.csv","kind":"ppp"},{"name":"population","path":"population.csv","kind":"population"},{"name":"fx","path":"fx.csv","kind":"fx"},{"name":"cgdp","path":"FILE","kind":"income","basis":"BASIS","unit":"GDP per capita (PWT 7.1 cgdp)"}]}"#
+        .replace("FILE", file)
+        .replace("BASIS", basis);
+        std::fs::write(refs.join("datapackage.json"), catalog).unwrap();
+        let run = env.run(&[
+            "adjust",
+            &env.repo
+                .join("tests/data/world/gdp-long-titled.csv")
+                .display()
+                .to_string(),
+            "--refs",
+            &refs.display().to_string(),
+            "--steps",
+            "per-income",
+            "--format",
+            "csv",
+        ]);
+        assert_eq!(run.code, 0, "{}", run.stderr);
+        let mut checked = 0;
+        for row in run.rows() {
+            let key = (row["entity_code"].clone(), row["year"].clone());
+            let Some(expected) = population.get(&key) else {
+                continue;
+            };
+            let share = num(&row, "value_per_income");
+            assert!(
+                ((share - expected) / expected).abs() < PUBLISHED_TOLERANCE,
+                "{key:?}: {share} against {expected}"
+            );
+            checked += 1;
+        }
+        assert_eq!(checked, 120, "{basis}");
     }
-    assert_eq!(checked, 120);
 }
 
 #[test]
