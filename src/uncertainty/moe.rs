@@ -117,6 +117,18 @@ mod tests {
     }
 
     #[test]
+    fn levels_print_as_the_percent_they_stand_for() {
+        let printed: Vec<u32> = [Level::P90, Level::P95, Level::P99]
+            .iter()
+            .map(|l| l.percent())
+            .collect();
+        assert_eq!(printed, [90, 95, 99]);
+        for level in [Level::P90, Level::P95, Level::P99] {
+            assert_eq!(level.percent() as f64 / 100.0, level.confidence());
+        }
+    }
+
+    #[test]
     fn acs_handbook_sum() {
         // ACS General Handbook, ch. 8: margins 3,860, 2,642 and 1,957 of a sum give ± 5,070 (the
         // handbook rounds to units); the root of the squares, worked by hand, is 5,070.4648.
