@@ -117,6 +117,15 @@ mod tests {
     }
 
     #[test]
+    fn proportion_at_exactly_zero_under_the_root_keeps_the_proportion_form() {
+        // The handbook falls back to the ratio form only when the value under the root is
+        // negative: X = 100 ± 5 of Y = 200 ± 10 gives 25 − 0.25·100 = 0, so the margin is 0
+        // (the ratio form would give sqrt(25 + 25) / 200 = 0.0354).
+        assert_eq!(moe_proportion(100.0, 5.0, 200.0, 10.0), 0.0);
+        assert!((moe_ratio(100.0, 5.0, 200.0, 10.0) - 50f64.sqrt() / 200.0).abs() < 1e-15);
+    }
+
+    #[test]
     fn levels_print_as_the_percent_they_stand_for() {
         let printed: Vec<u32> = [Level::P90, Level::P95, Level::P99]
             .iter()
