@@ -79,9 +79,7 @@ impl Step for PerCapita {
                     proportion,
                 ) * per
             }
-            None if proportion => {
-                super::ratio_se(value_before, se_before, population, lit(0.0), true) * per
-            }
+            // An exact population: the ratio and proportion forms both reduce to SE_X / Y.
             None => se_before / population * per,
         })
     }
