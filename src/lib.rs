@@ -179,11 +179,7 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         });
     }
     output.summary.notice = plan.output.notice.clone();
-    let data_file = matches!(
-        plan.output.format,
-        report::Format::Csv | report::Format::Json | report::Format::Parquet
-    );
-    if plan.streaming.is_none() && data_file {
+    if plan.streaming.is_none() && plan.output.format.is_data_file() {
         let available = output.frame.width();
         let written = plan
             .output
@@ -232,11 +228,10 @@ fn stage_outputs(
         }
         _ => None,
     };
-    let frame = match plan.output.format {
-        report::Format::Csv | report::Format::Json | report::Format::Parquet => {
-            data_columns(marked.as_ref().unwrap_or(&output.frame), &plan.output)?
-        }
-        _ => marked.unwrap_or_else(|| output.frame.clone()),
+    let frame = if plan.output.format.is_data_file() {
+        data_columns(marked.as_ref().unwrap_or(&output.frame), &plan.output)?
+    } else {
+        marked.unwrap_or_else(|| output.frame.clone())
     };
     let frame = &frame;
     let render = || -> Result<String> {

@@ -28,7 +28,9 @@ pub struct AdjustOutput {
 }
 
 /// Whether the steps bring every figure to one unit (a currency conversion, or a ratio of
-/// income); without one, figures in different currencies must not be ranked together.
+/// income); without one, figures in different currencies must not be ranked together. The
+/// same steps make each figure's currency matter: a figure in a foreign currency cannot be
+/// converted with its country's factors.
 pub(crate) fn converts_currency(steps: &[&'static dyn Step]) -> bool {
     steps
         .iter()
@@ -43,14 +45,6 @@ pub(crate) fn figures_are_not_money(settings: &PipelineSettings) -> bool {
         crate::ingest::margins::MarginSpec::SampleSize { .. }
     ) || settings.step_settings.proportion
         || settings.ingest.currency_code.as_deref() == Some("XXX")
-}
-
-/// Columns that currency steps make relevant: a figure in a foreign currency cannot be
-/// converted with its country's factors.
-fn needs_currency(steps: &[&'static dyn Step]) -> bool {
-    steps
-        .iter()
-        .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
 }
 
 pub fn run_adjust(
@@ -146,7 +140,7 @@ pub(crate) fn prepare(
             base_currency: &base_currency,
         },
     )?;
-    let check_currency = needs_currency(&settings.steps);
+    let check_currency = converts_currency(&settings.steps);
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
     let rows_in = ingested.rows.len();
@@ -633,7 +627,7 @@ pub(crate) fn summarize(
     let mut notes = reading_notes;
     if settings.ingest.currency_code.is_none()
         && settings.ingest.roles.currency.is_none()
-        && needs_currency(&settings.steps)
+        && converts_currency(&settings.steps)
     {
         notes.push("currency: no --currency or --currency-code given, so each figure is taken to be in its entity's own currency (the unit of its reference tables)".into());
     }

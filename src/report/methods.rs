@@ -78,9 +78,7 @@ fn flag_reason(flag: &str) -> String {
         "within_uncertainty" => "rank shift within the uncertainty of the figures",
         "no_margin" => "no margin of error given (treated as exact)",
         "asymmetric_ci" => "asymmetric confidence interval (larger half used)",
-        other if crate::flags::meaning(other).is_some() => {
-            return crate::flags::meaning(other).unwrap_or(other).to_string()
-        }
+        other if let Some(meaning) = crate::flags::meaning(other) => meaning,
         other if other.starts_with("no_") => {
             return format!(
                 "no reference factor ({})",

@@ -51,6 +51,11 @@ impl Format {
         }
     }
 
+    /// A data file (csv, json, Parquet): pure data, whose columns `--write-columns` chooses.
+    pub fn is_data_file(self) -> bool {
+        matches!(self, Format::Csv | Format::Json | Format::Parquet)
+    }
+
     /// The file extension a file of this format gets when levelfield names it.
     pub fn extension(self) -> &'static str {
         match self {
