@@ -609,8 +609,8 @@ pub(crate) fn summarize(
     }
     if names.contains(&"per-capita") {
         method_notes.push(format!(
-            "per capita: per {} people",
-            settings.step_settings.per
+            "per capita: {}",
+            crate::units::per_people_words(settings.step_settings.per)
         ));
     }
     let mut warnings: Vec<String> = references.map(|r| r.warnings()).unwrap_or_default();

@@ -162,10 +162,9 @@ impl TrackUnit {
                 None => text.push_str(", current prices"),
             }
         }
-        match self.per_people {
-            Some(1) => text.push_str(", per person"),
-            Some(n) => text.push_str(&format!(", per {n} people")),
-            None => {}
+        if let Some(n) = self.per_people {
+            text.push_str(", ");
+            text.push_str(&per_people_words(n));
         }
         text
     }
@@ -177,6 +176,15 @@ impl TrackUnit {
             _ if self == adjusted => "baseline, the same steps (no PPP step)".into(),
             _ => format!("baseline, {}", self.words),
         }
+    }
+}
+
+/// A per-capita scale in words: "per person", "per 1000 people".
+pub fn per_people_words(per: u32) -> String {
+    if per == 1 {
+        "per person".into()
+    } else {
+        format!("per {per} people")
     }
 }
 
