@@ -227,22 +227,26 @@ fn job_plan(
     output_dir: Option<&Path>,
     allow_outside: bool,
 ) -> Result<(AdjustArgs, crate::plan::AdjustPlan)> {
-    let argv = [
+    let mut argv: Vec<std::ffi::OsString> = vec![
         "levelfield".into(),
         "adjust".into(),
         "--recipe".into(),
         job.recipe.clone().into_os_string(),
     ];
+    if allow_outside {
+        argv.push("--allow-outside".into());
+    }
+    if let Some(input) = &job.input {
+        argv.extend(["--".into(), input.clone().into_os_string()]);
+    }
     let cli = crate::cli::parse_from(argv)
         .map_err(|e| Error::usage(format!("batch job: {e}"), "report this as a bug"))?;
-    let crate::cli::Command::Adjust(mut args) = cli.command else {
+    let crate::cli::Command::Adjust(args) = cli.command else {
         return Err(Error::usage(
             "batch job is not an adjust run",
             "report this as a bug",
         ));
     };
-    args.input = job.input.as_ref().map(|p| p.to_string_lossy().into_owned());
-    args.allow_outside = allow_outside;
     let place_outputs = |args: &mut AdjustArgs| -> Result<()> {
         let input =
             match args.input.as_deref() {

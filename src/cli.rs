@@ -217,6 +217,11 @@ pub struct AdjustArgs {
     #[arg(skip)]
     pub given: std::collections::BTreeSet<String>,
 
+    /// The words of the command line after `adjust` (a recipe's keys are parsed in front of
+    /// them, and a saved recipe is written from them).
+    #[arg(skip)]
+    pub argv: Vec<std::ffi::OsString>,
+
     /// Folder of reference tables described by a datapackage.json.
     #[arg(long, value_name = "DIR", help_heading = "Method")]
     pub refs: Option<PathBuf>,
@@ -582,10 +587,13 @@ where
     }) {
         eprintln!("levelfield: note: --moe-level was renamed --margin-confidence; the old name still works for now");
     }
+    let words: Vec<std::ffi::OsString> = argv.iter().map(|a| a.clone().into()).collect();
     let matches = Cli::command().try_get_matches_from(argv)?;
     let mut cli = Cli::from_arg_matches(&matches)?;
     if let (Command::Adjust(args), Some(("adjust", sub))) = (&mut cli.command, matches.subcommand())
     {
+        // No option comes before the subcommand, so its words start after `levelfield adjust`.
+        args.argv = words.into_iter().skip(2).collect();
         args.given = sub
             .ids()
             .filter(|id| {

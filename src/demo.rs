@@ -5,14 +5,13 @@
 //! currencies and invented reference tables. The demo runs the same plan that
 //! `levelfield adjust` would build from `DEMO_ARGS`, only with embedded files.
 
-use crate::cli::{Cli, Command, DemoArgs};
+use crate::cli::{Command, DemoArgs};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::plan;
 use crate::reference;
 use crate::source::Embedded;
 use crate::Outcome;
-use clap::Parser;
 
 /// The `adjust` arguments the demo runs, as a user would type them.
 pub const DEMO_ARGS: &[&str] = &[
@@ -174,7 +173,7 @@ fn demo_recipe(demo_args: &[&str]) -> Result<String> {
 fn demo_adjust_args(demo_args: &[&str]) -> Result<Box<crate::cli::AdjustArgs>> {
     let mut argv = vec!["levelfield", "adjust"];
     argv.extend_from_slice(demo_args);
-    let cli = Cli::try_parse_from(argv)
+    let cli = crate::cli::parse_from(argv)
         .map_err(|e| Error::usage(format!("demo arguments: {e}"), "report this as a bug"))?;
     match cli.command {
         Command::Adjust(adjust) => Ok(adjust),

@@ -1,15 +1,21 @@
-//! Merging a recipe into the `adjust` arguments: a key fills its flag unless the flag (or a
-//! flag that excludes it, such as `--year-value` for `year`) was given on the command line, in
-//! which case the flag wins and the key is reported as overridden. Values are checked with the
-//! flags' own parsers, and combinations the flags would refuse are errors at the key's line.
+//! Merging a recipe into the `adjust` arguments. A recipe is a set of flags written as keys:
+//! each key becomes its flag (`base_year = 2023` is `--base-year=2023`), and the recipe's flags
+//! followed by the command line's are parsed by the same clap definition as any command line,
+//! so a recipe can say nothing a flag cannot, with the flags' own parsers and defaults.
+//!
+//! A key whose flag (or a flag that excludes it, such as `--year-value` for `year`) was given
+//! on the command line is dropped and reported as overridden. Each key is first parsed on its
+//! own, so that a refused value is an error at the key's line; keys the flags refuse together
+//! are an error at the later one.
 
-use super::{At, LoadedRecipe};
-use crate::cli::{self, AdjustArgs};
+use super::keys::{self, Kind, LAYOUT_VALUES};
+use super::{Entry, LoadedRecipe, Value};
+use crate::cli::AdjustArgs;
 use crate::error::{Error, Result};
-use clap::ValueEnum;
+use clap::error::{ContextKind, ContextValue, ErrorKind};
+use clap::{Command, FromArgMatches};
 use std::collections::BTreeSet;
-use std::path::PathBuf;
-use toml::Spanned;
+use std::ffi::OsString;
 
 /// What the merge did, for the run summary and the methods note.
 #[derive(Debug, Clone, Default)]
@@ -20,428 +26,310 @@ pub struct RecipeUse {
     pub overridden: Vec<String>,
 }
 
-/// Flags that exclude each other: giving one on the command line drops the recipe's others.
-const GROUPS: &[&[&str]] = &[
-    &["year", "year_value"],
-    &["currency", "currency_code"],
-    &["wide_years", "long"],
-    &["decimals", "sig"],
-    &["moe", "se", "ci_low", "ci_high", "sample_size"],
-];
-
-struct Merge<'a> {
-    loaded: &'a LoadedRecipe,
-    given: &'a BTreeSet<String>,
-    overridden: Vec<String>,
-    /// `--allow-outside` was given on the command line (a recipe key cannot grant it).
-    allow_outside: bool,
-}
-
-impl<'a> Merge<'a> {
-    /// The recipe's value for a key, unless the command line gave its flag or an excluding one.
-    fn take<'r, T>(&mut self, key: &str, id: &str, value: &'r At<T>) -> Option<&'r Spanned<T>> {
-        let value = value.as_ref()?;
-        let group: &[&str] = GROUPS
-            .iter()
-            .find(|g| g.contains(&id))
-            .copied()
-            .unwrap_or(std::slice::from_ref(&id));
-        if group.iter().any(|g| self.given.contains(*g)) {
-            self.overridden.push(key.to_string());
-            None
-        } else {
-            Some(value)
-        }
+/// The arguments of a run of `loaded` with the command line of `args` (its `argv` and `given`).
+pub fn merge(loaded: &LoadedRecipe, args: AdjustArgs) -> Result<(AdjustArgs, RecipeUse)> {
+    let command = keys::adjust_command();
+    let excluded = excluded_by(&command, &args.given);
+    let mut kept: Vec<bool> = loaded
+        .entries
+        .iter()
+        .map(|e| !flag_ids(e).iter().any(|id| excluded.contains(id)))
+        .collect();
+    // A key the command line replaces is not checked (its value is not used).
+    let mut needs = Vec::with_capacity(loaded.entries.len());
+    for (entry, keep) in loaded.entries.iter().zip(&kept) {
+        needs.push(match keep {
+            true => check_alone(loaded, entry, &command, args.allow_outside)?,
+            false => Vec::new(),
+        });
     }
-
-    fn choice<E: ValueEnum>(&self, key: &str, value: &Spanned<String>) -> Result<E> {
-        E::from_str(value.get_ref(), false).map_err(|_| {
-            let names: Vec<String> = E::value_variants()
-                .iter()
-                .filter_map(|v| v.to_possible_value())
-                .map(|p| p.get_name().to_string())
-                .collect();
-            self.loaded.error_at(
-                key,
-                value.span(),
-                format!("\"{}\" is not a value of {key}", value.get_ref()),
-                format!("use one of: {}", names.join(", ")),
+    check_together(loaded, &command, &needs)?;
+    // A key that needs a dropped key goes with it (`ci_high` when the command line gave --moe).
+    loop {
+        let present: BTreeSet<String> = loaded
+            .entries
+            .iter()
+            .zip(&kept)
+            .filter(|(_, k)| **k)
+            .filter_map(|(e, _)| e.key.long.clone())
+            .chain(
+                args.given
+                    .iter()
+                    .map(|id| format!("--{}", id.replace('_', "-"))),
             )
-        })
-    }
-
-    fn path(&self, value: &Spanned<String>) -> String {
-        self.loaded.path(value.get_ref())
-    }
-
-    /// An output path of the recipe: it must lie inside the recipe's folder, so that a recipe
-    /// from someone else cannot write elsewhere, unless the command line allows it.
-    fn output_path(&self, key: &str, value: &Spanned<String>) -> Result<String> {
-        let written = value.get_ref();
-        if !self.allow_outside && !crate::source::stays_inside(&self.loaded.folder, written) {
-            return Err(self.loaded.error_at(
-                key,
-                value.span(),
-                format!("\"{written}\" is outside the recipe's folder"),
-                "write the outputs of a recipe inside its folder, or pass --allow-outside on the command line to let this recipe write there",
-            ));
-        }
-        Ok(self.path(value))
-    }
-}
-
-/// Fills `args` from the recipe where the command line did not speak; `given` holds the clap
-/// ids of the flags given on the command line.
-pub fn merge(
-    loaded: &LoadedRecipe,
-    args: &mut AdjustArgs,
-    given: &BTreeSet<String>,
-) -> Result<RecipeUse> {
-    let r = &loaded.recipe;
-    let mut m = Merge {
-        loaded,
-        given,
-        overridden: Vec::new(),
-        allow_outside: args.allow_outside,
-    };
-    if let Some(v) = r.input.as_ref() {
-        if args.input.is_some() {
-            m.overridden.push("input".into());
-        } else {
-            args.input = Some(m.path(v));
-        }
-    }
-    if let Some(v) = m.take("refs", "refs", &r.refs) {
-        args.refs = Some(PathBuf::from(m.path(v)));
-    }
-    if let Some(v) = m.take("steps", "steps", &r.steps) {
-        args.steps = v.get_ref().clone();
-    }
-    if let Some(v) = m.take("base_year", "base_year", &r.base_year) {
-        args.base_year = Some(*v.get_ref());
-    }
-    if let Some(v) = m.take("deflator", "deflator", &r.deflator) {
-        args.deflator = Some(m.choice("deflator", v)?);
-    }
-    if let Some(v) = m.take("per", "per", &r.per) {
-        args.per = cli::parse_per(&v.get_ref().to_string()).map_err(|problem| {
-            loaded.error_at("per", v.span(), problem, "write per = 1000, for example")
-        })?;
-    }
-    if let Some(v) = m.take("income_as", "income_as", &r.income_as) {
-        args.income_as = m.choice("income_as", v)?;
-    }
-    if let Some(v) = m.take("nearest_year", "nearest_year", &r.nearest_year) {
-        args.nearest_year = *v.get_ref();
-    }
-    if let Some(v) = m.take("order", "order", &r.order) {
-        args.order = m.choice("order", v)?;
-    }
-    if let Some(v) = m.take("rank_aggregates", "rank_aggregates", &r.rank_aggregates) {
-        args.rank_aggregates = *v.get_ref();
-    }
-    if let Some(v) = m.take("aliases", "aliases", &r.aliases) {
-        args.aliases = v
-            .get_ref()
-            .iter()
-            .map(|p| PathBuf::from(loaded.path(p)))
             .collect();
+        let lost =
+            (0..kept.len()).find(|&i| kept[i] && needs[i].iter().any(|n| !present.contains(n)));
+        match lost {
+            Some(i) => kept[i] = false,
+            None => break,
+        }
     }
-    if let Some(v) = m.take("allow_unresolved", "allow_unresolved", &r.allow_unresolved) {
-        args.allow_unresolved = *v.get_ref();
+    let mut tokens: Vec<OsString> = Vec::new();
+    let mut input = None;
+    let mut overridden = Vec::new();
+    for (entry, keep) in loaded.entries.iter().zip(&kept) {
+        if !keep {
+            overridden.push(entry.key.key.clone());
+        } else if entry.key.id == "input" {
+            input = tokens_of(loaded, entry, args.allow_outside)?.pop();
+        } else {
+            tokens.extend(tokens_of(loaded, entry, args.allow_outside)?);
+        }
     }
-    if let Some(v) = m.take("streaming", "streaming", &r.streaming) {
-        args.streaming = *v.get_ref();
+    tokens.extend(args.argv.iter().cloned());
+    if let Some(input) = input {
+        tokens.extend(["--".into(), input]);
     }
-    if let Some(v) = m.take("chunk_mb", "chunk_mb", &r.chunk_mb) {
-        args.chunk_mb = cli::parse_chunk_mb(&v.get_ref().to_string()).map_err(|problem| {
-            loaded.error_at(
-                "chunk_mb",
-                v.span(),
-                problem,
-                "write chunk_mb = 16, for example",
-            )
-        })?;
-    }
-    if let Some(c) = &r.columns {
-        merge_columns(&mut m, c, &mut args.columns)?;
-    }
-    if let Some(u) = &r.uncertainty {
-        merge_uncertainty(&mut m, u, &mut args.uncertainty)?;
-    }
-    if let Some(o) = &r.output {
-        merge_output(&mut m, o, &mut args.output)?;
-    }
-    check_conflicts(loaded)?;
-    Ok(RecipeUse {
+    let matches = command.try_get_matches_from(&tokens).map_err(|e| {
+        Error::usage(
+            format!(
+                "{}: the recipe's keys and the command line together: {}",
+                loaded.label,
+                first_line(&e)
+            ),
+            "drop the key or the flag",
+        )
+    })?;
+    let mut merged = AdjustArgs::from_arg_matches(&matches)
+        .map_err(|e| Error::usage(first_line(&e), "report this as a bug"))?;
+    merged.given = args.given;
+    merged.argv = tokens;
+    let used = RecipeUse {
         label: loaded.label.clone(),
         text: loaded.text.clone(),
-        overridden: m.overridden,
+        overridden,
+    };
+    Ok((merged, used))
+}
+
+/// The clap ids of the flags an entry sets (both layout flags for `columns.layout`).
+fn flag_ids(entry: &Entry) -> Vec<String> {
+    match entry.key.kind {
+        Kind::Layout => LAYOUT_VALUES
+            .iter()
+            .filter_map(|(_, flag)| flag.map(str::to_string))
+            .collect(),
+        _ => vec![entry.key.id.clone()],
+    }
+}
+
+/// The ids given on the command line and every id they exclude.
+fn excluded_by(command: &Command, given: &BTreeSet<String>) -> BTreeSet<String> {
+    let mut excluded = given.clone();
+    for arg in command.get_arguments() {
+        let id = arg.get_id().as_str();
+        if given.contains(id) {
+            excluded.extend(
+                command
+                    .get_arg_conflicts_with(arg)
+                    .iter()
+                    .map(|a| a.get_id().to_string()),
+            );
+        } else if command
+            .get_arg_conflicts_with(arg)
+            .iter()
+            .any(|a| given.contains(a.get_id().as_str()))
+        {
+            excluded.insert(id.to_string());
+        }
+    }
+    excluded
+}
+
+/// The flags an entry stands for, as command-line words.
+fn tokens_of(loaded: &LoadedRecipe, entry: &Entry, allow_outside: bool) -> Result<Vec<OsString>> {
+    let key = &entry.key;
+    let long = key.long.clone().unwrap_or_default();
+    let place = |written: &str| -> Result<String> {
+        if key.is_output() {
+            output_path(loaded, entry, written, allow_outside)
+        } else if key.path {
+            Ok(loaded.path(written))
+        } else {
+            Ok(written.to_string())
+        }
+    };
+    let flag = |value: String| -> OsString {
+        if key.long.is_some() {
+            format!("{long}={value}").into()
+        } else {
+            value.into()
+        }
+    };
+    Ok(match &entry.value {
+        Value::Text(v) if key.kind == Kind::Layout => {
+            match LAYOUT_VALUES.iter().find(|(name, _)| name == v) {
+                Some((_, Some(id))) => vec![format!("--{}", id.replace('_', "-")).into()],
+                Some((_, None)) => Vec::new(),
+                None => {
+                    return Err(loaded.error_at(
+                        &key.key,
+                        entry.span.clone(),
+                        format!("\"{v}\" is not a layout"),
+                        "use auto, long or wide",
+                    ))
+                }
+            }
+        }
+        Value::Text(v) => vec![flag(place(v)?)],
+        Value::Bool(true) => vec![long.into()],
+        Value::Bool(false) => Vec::new(),
+        Value::Integer(i) => vec![flag(i.to_string())],
+        Value::Float(x) => vec![flag(x.to_string())],
+        Value::List(items) => items
+            .iter()
+            .map(|item| Ok(flag(place(item)?)))
+            .collect::<Result<_>>()?,
     })
 }
 
-fn merge_columns(
-    m: &mut Merge,
-    c: &super::ColumnsSection,
-    args: &mut cli::ColumnArgs,
-) -> Result<()> {
-    let text = |v: &Spanned<String>| Some(v.get_ref().clone());
-    if let Some(v) = m.take("columns.entity", "entity", &c.entity) {
-        args.entity = text(v);
+/// An output path of the recipe: it must lie inside the recipe's folder, so that a recipe
+/// from someone else cannot write elsewhere, unless the command line allows it.
+fn output_path(
+    loaded: &LoadedRecipe,
+    entry: &Entry,
+    written: &str,
+    allow_outside: bool,
+) -> Result<String> {
+    if !allow_outside && !crate::source::stays_inside(&loaded.folder, written) {
+        return Err(loaded.error_at(
+            &entry.key.key,
+            entry.span.clone(),
+            format!("\"{written}\" is outside the recipe's folder"),
+            "write the outputs of a recipe inside its folder, or pass --allow-outside on the command line to let this recipe write there",
+        ));
     }
-    if let Some(v) = m.take("columns.value", "value", &c.value) {
-        args.value = text(v);
+    Ok(loaded.path(written))
+}
+
+/// Parses one entry's flags on their own: a value its flag refuses is an error at the key.
+/// Gives the flags (`--ci-high`) the entry needs beside it.
+fn check_alone(
+    loaded: &LoadedRecipe,
+    entry: &Entry,
+    command: &Command,
+    allow_outside: bool,
+) -> Result<Vec<String>> {
+    let mut argv: Vec<OsString> = vec!["--recipe=recipe".into()];
+    argv.extend(tokens_of(loaded, entry, allow_outside)?);
+    let Err(error) = command.clone().try_get_matches_from(&argv) else {
+        return Ok(Vec::new());
+    };
+    let key = &entry.key;
+    if error.kind() == ErrorKind::MissingRequiredArgument {
+        return Ok(context_flags(&error, ContextKind::InvalidArg));
     }
-    if let Some(v) = m.take("columns.year", "year", &c.year) {
-        args.year = text(v);
-    }
-    if let Some(v) = m.take("columns.year_value", "year_value", &c.year_value) {
-        args.year_value = Some(*v.get_ref());
-    }
-    if let Some(v) = m.take("columns.group", "group", &c.group) {
-        args.group = text(v);
-    }
-    if let Some(v) = m.take("columns.currency", "currency", &c.currency) {
-        args.currency = text(v);
-    }
-    if let Some(v) = m.take("columns.currency_code", "currency_code", &c.currency_code) {
-        args.currency_code = text(v);
-    }
-    if let Some(v) = m.take(
-        "columns.value_multiplier",
-        "value_multiplier",
-        &c.value_multiplier,
-    ) {
-        args.value_multiplier = text(v);
-    }
-    if let Some(v) = m.take("columns.layout", "wide_years", &c.layout) {
-        let (wide, long) = match v.get_ref().as_str() {
-            "auto" => (false, false),
-            "wide" => (true, false),
-            "long" => (false, true),
-            other => {
-                return Err(m.loaded.error_at(
-                    "columns.layout",
-                    v.span(),
-                    format!("\"{other}\" is not a layout"),
-                    "use auto, long or wide",
-                ))
-            }
+    let (problem, fix) = if !key.possible.is_empty() {
+        let written = match &entry.value {
+            Value::Text(v) => v.clone(),
+            Value::Integer(i) => i.to_string(),
+            other => format!("{other:?}"),
         };
-        args.wide_years = wide;
-        args.long = long;
-    }
-    if let Some(v) = m.take("columns.delimiter", "delimiter", &c.delimiter) {
-        args.delimiter = text(v);
-    }
-    if let Some(v) = m.take("columns.encoding", "encoding", &c.encoding) {
-        args.encoding = Some(m.choice("columns.encoding", v)?);
-    }
-    if let Some(v) = m.take("columns.decimal_comma", "decimal_comma", &c.decimal_comma) {
-        args.decimal_comma = *v.get_ref();
-    }
-    if let Some(v) = m.take("columns.lenient", "lenient", &c.lenient) {
-        args.lenient = *v.get_ref();
-    }
-    if let Some(v) = m.take("columns.sheet", "sheet", &c.sheet) {
-        args.sheet = text(v);
-    }
-    if let Some(v) = m.take("columns.header_row", "header_row", &c.header_row) {
-        args.header_row = Some(*v.get_ref());
-    }
-    if let Some(v) = m.take("columns.max_input_mb", "max_input_mb", &c.max_input_mb) {
-        args.max_input_mb = *v.get_ref();
-    }
-    Ok(())
+        (
+            format!("\"{written}\" is not a value of {}", key.key),
+            format!("use one of: {}", key.possible.join(", ")),
+        )
+    } else {
+        let problem = std::error::Error::source(&error)
+            .map(|s| s.to_string())
+            .unwrap_or_else(|| first_line(&error));
+        (problem, format!("{}: {}", key.key, key.help))
+    };
+    Err(loaded.error_at(&key.key, entry.span.clone(), problem, fix))
 }
 
-fn merge_uncertainty(
-    m: &mut Merge,
-    u: &super::UncertaintySection,
-    args: &mut cli::UncertaintyArgs,
-) -> Result<()> {
-    let text = |v: &Spanned<String>| Some(v.get_ref().clone());
-    if let Some(v) = m.take("uncertainty.moe", "moe", &u.moe) {
-        args.moe = text(v);
-    }
-    if let Some(v) = m.take("uncertainty.se", "se", &u.se) {
-        args.se = text(v);
-    }
-    if let Some(v) = m.take("uncertainty.ci_low", "ci_low", &u.ci_low) {
-        args.ci_low = text(v);
-    }
-    if let Some(v) = m.take("uncertainty.ci_high", "ci_high", &u.ci_high) {
-        args.ci_high = text(v);
-    }
-    if let Some(v) = m.take("uncertainty.sample_size", "sample_size", &u.sample_size) {
-        args.sample_size = text(v);
-    }
-    if let Some(v) = m.take(
-        "uncertainty.margin_confidence",
-        "margin_confidence",
-        &u.margin_confidence,
-    ) {
-        let as_text = Spanned::new(v.span(), v.get_ref().to_string());
-        args.margin_confidence = Some(m.choice("uncertainty.margin_confidence", &as_text)?);
-    }
-    if let Some(v) = m.take("uncertainty.share_unit", "share_unit", &u.share_unit) {
-        args.share_unit = m.choice("uncertainty.share_unit", v)?;
-    }
-    if let Some(v) = m.take("uncertainty.proportion", "proportion", &u.proportion) {
-        args.proportion = *v.get_ref();
-    }
-    if let Some(v) = m.take(
-        "uncertainty.rank_intervals",
-        "rank_intervals",
-        &u.rank_intervals,
-    ) {
-        args.rank_intervals = m.choice("uncertainty.rank_intervals", v)?;
-    }
-    if let Some(v) = m.take(
-        "uncertainty.joint_adjustment",
-        "joint_adjustment",
-        &u.joint_adjustment,
-    ) {
-        args.joint_adjustment = m.choice("uncertainty.joint_adjustment", v)?;
-    }
-    if let Some(v) = m.take("uncertainty.draws", "draws", &u.draws) {
-        args.draws = *v.get_ref();
-    }
-    if let Some(v) = m.take("uncertainty.seed", "seed", &u.seed) {
-        args.seed = *v.get_ref();
-    }
-    Ok(())
-}
-
-fn merge_output(m: &mut Merge, o: &super::OutputSection, args: &mut cli::OutputArgs) -> Result<()> {
-    if let Some(v) = m.take("output.format", "format", &o.format) {
-        args.format = Some(m.choice("output.format", v)?);
-    }
-    if let Some(v) = m.take("output.file", "output", &o.file) {
-        args.output = Some(PathBuf::from(m.output_path("output.file", v)?));
-    }
-    if let Some(v) = m.take("output.decimals", "decimals", &o.decimals) {
-        args.decimals = Some(*v.get_ref());
-    }
-    if let Some(v) = m.take("output.sig", "sig", &o.sig) {
-        args.sig = Some(*v.get_ref());
-    }
-    if let Some(v) = m.take("output.quiet", "quiet", &o.quiet) {
-        args.quiet = *v.get_ref();
-    }
-    if let Some(v) = m.take("output.methods", "methods", &o.methods) {
-        args.methods = Some(PathBuf::from(m.output_path("output.methods", v)?));
-    }
-    if let Some(v) = m.take("output.report", "report", &o.report) {
-        args.report = Some(PathBuf::from(m.output_path("output.report", v)?));
-    }
-    if let Some(v) = m.take("output.write_columns", "write_columns", &o.write_columns) {
-        args.write_columns = crate::model::ColumnSet::parse(v.get_ref()).map_err(|why| {
-            m.loaded.error_at(
-                "output.write_columns",
-                v.span(),
-                format!("\"{}\" is not a column set", v.get_ref()),
-                why,
-            )
-        })?;
-    }
-    Ok(())
-}
-
-/// Pairs of keys a recipe may not hold together (the flags refuse the same pairs).
-fn check_conflicts(loaded: &LoadedRecipe) -> Result<()> {
-    let r = &loaded.recipe;
-    let mut present: Vec<(&str, std::ops::Range<usize>)> = Vec::new();
-    fn span<T>(v: &At<T>) -> Option<std::ops::Range<usize>> {
-        v.as_ref().map(|s| s.span())
-    }
-    if let Some(c) = &r.columns {
-        for (key, s) in [
-            ("columns.year", span(&c.year)),
-            ("columns.year_value", span(&c.year_value)),
-            ("columns.currency", span(&c.currency)),
-            ("columns.currency_code", span(&c.currency_code)),
-        ] {
-            if let Some(s) = s {
-                present.push((key, s));
+/// Keys the flags refuse together: a pair that excludes each other (error at the later key),
+/// and a key without the key it needs.
+fn check_together(loaded: &LoadedRecipe, command: &Command, needs: &[Vec<String>]) -> Result<()> {
+    let arg_of = |entry: &Entry| {
+        command
+            .get_arguments()
+            .find(|a| a.get_id().as_str() == entry.key.id)
+    };
+    let entries = &loaded.entries;
+    for (j, later) in entries.iter().enumerate() {
+        let Some(later_arg) = arg_of(later) else {
+            continue;
+        };
+        for earlier in &entries[..j] {
+            let Some(earlier_arg) = arg_of(earlier) else {
+                continue;
+            };
+            let excludes = |a: &clap::Arg, b: &clap::Arg| {
+                command
+                    .get_arg_conflicts_with(a)
+                    .iter()
+                    .any(|c| c.get_id() == b.get_id())
+            };
+            if excludes(later_arg, earlier_arg) || excludes(earlier_arg, later_arg) {
+                return Err(loaded.error_at(
+                    &later.key.key,
+                    later.span.clone(),
+                    format!("{} cannot be used with {}", later.key.key, earlier.key.key),
+                    format!("keep one of {}, {}", earlier.key.key, later.key.key),
+                ));
             }
         }
     }
-    if let Some(u) = &r.uncertainty {
-        for (key, s) in [
-            ("uncertainty.moe", span(&u.moe)),
-            ("uncertainty.se", span(&u.se)),
-            ("uncertainty.ci_low", span(&u.ci_low)),
-            ("uncertainty.sample_size", span(&u.sample_size)),
-        ] {
-            if let Some(s) = s {
-                present.push((key, s));
-            }
-        }
-        if let (Some(low), None) = (&u.ci_low, &u.ci_high) {
+    let longs: BTreeSet<&str> = entries
+        .iter()
+        .filter_map(|e| e.key.long.as_deref())
+        .collect();
+    let all = keys::all();
+    for (entry, needed) in entries.iter().zip(needs) {
+        if let Some(missing) = needed.iter().find(|n| !longs.contains(n.as_str())) {
+            let other = all
+                .iter()
+                .find(|k| k.long.as_deref() == Some(missing))
+                .map_or(missing.clone(), |k| k.key.clone());
             return Err(loaded.error_at(
-                "uncertainty.ci_low",
-                low.span(),
-                "ci_low without ci_high",
-                "give both bounds, ci_low and ci_high",
-            ));
-        }
-        if let (None, Some(high)) = (&u.ci_low, &u.ci_high) {
-            return Err(loaded.error_at(
-                "uncertainty.ci_high",
-                high.span(),
-                "ci_high without ci_low",
-                "give both bounds, ci_low and ci_high",
-            ));
-        }
-    }
-    if let Some(o) = &r.output {
-        for (key, s) in [
-            ("output.decimals", span(&o.decimals)),
-            ("output.sig", span(&o.sig)),
-        ] {
-            if let Some(s) = s {
-                present.push((key, s));
-            }
-        }
-    }
-    let groups: &[&[&str]] = &[
-        &["columns.year", "columns.year_value"],
-        &["columns.currency", "columns.currency_code"],
-        &["output.decimals", "output.sig"],
-        &[
-            "uncertainty.moe",
-            "uncertainty.se",
-            "uncertainty.ci_low",
-            "uncertainty.sample_size",
-        ],
-    ];
-    for group in groups {
-        let found: Vec<&(&str, std::ops::Range<usize>)> =
-            present.iter().filter(|(k, _)| group.contains(k)).collect();
-        if let [first, second, ..] = found.as_slice() {
-            return Err(loaded.error_at(
-                second.0,
-                second.1.clone(),
-                format!("{} cannot be used with {}", second.0, first.0),
-                format!("keep one of {}", group.join(", ")),
+                &entry.key.key,
+                entry.span.clone(),
+                format!("{} without {other}", entry.key.key),
+                format!("give both, {} and {other}", entry.key.key),
             ));
         }
     }
     Ok(())
+}
+
+/// The long flags a clap error names in one of its contexts (`--ci-high <COL>` → `--ci-high`).
+fn context_flags(error: &clap::Error, kind: ContextKind) -> Vec<String> {
+    let words = match error.get(kind) {
+        Some(ContextValue::String(s)) => vec![s.clone()],
+        Some(ContextValue::Strings(s)) => s.clone(),
+        _ => Vec::new(),
+    };
+    words
+        .iter()
+        .filter_map(|w| w.split_whitespace().next())
+        .filter(|w| w.starts_with("--"))
+        .map(str::to_string)
+        .collect()
+}
+
+/// A clap error's message without its `error:` prefix and usage lines.
+fn first_line(error: &clap::Error) -> String {
+    let text = error.render().to_string();
+    text.lines()
+        .next()
+        .unwrap_or("")
+        .trim_start_matches("error: ")
+        .to_string()
 }
 
 /// Checks what only the merged arguments can show (such as `deflate` without a base year)
 /// and points the error at the recipe key it concerns when the recipe set that key.
 pub fn check_merged(loaded: &LoadedRecipe, used: &RecipeUse, args: &AdjustArgs) -> Result<()> {
-    let r = &loaded.recipe;
-    let from_recipe = |key: &str, span: Option<std::ops::Range<usize>>| {
-        span.filter(|_| !used.overridden.iter().any(|o| o == key))
+    let span_of = |key: &str| {
+        loaded
+            .entries
+            .iter()
+            .find(|e| e.key.key == key && !used.overridden.iter().any(|o| o == key))
+            .map(|e| e.span.clone())
     };
-    let relocate = |error: Error, key: &str, span: Option<std::ops::Range<usize>>| match (
-        &error,
-        from_recipe(key, span),
-    ) {
+    let relocate = |error: Error, key: &str| match (&error, span_of(key)) {
         (Error::Usage { problem, fix }, Some(span)) => loaded.error_at(
             key,
             span,
@@ -450,34 +338,23 @@ pub fn check_merged(loaded: &LoadedRecipe, used: &RecipeUse, args: &AdjustArgs) 
         ),
         _ => error,
     };
-    let steps_span = r.steps.as_ref().map(|s| s.span());
     crate::plan::parse_steps(&args.steps)
         .and_then(|steps| crate::plan::check_step_options(&steps, args.base_year))
-        .map_err(|e| relocate(e, "steps", steps_span))?;
-    let u = r.uncertainty.as_ref();
-    let margin = u.and_then(|u| {
-        [
-            ("uncertainty.moe", &u.moe),
-            ("uncertainty.ci_low", &u.ci_low),
-            ("uncertainty.ci_high", &u.ci_high),
-        ]
-        .into_iter()
-        .find_map(|(key, v)| v.as_ref().map(|s| (key, s.span())))
-    });
-    let (margin_key, margin_span) = match margin {
-        Some((key, span)) => (key, Some(span)),
-        None => ("uncertainty", None),
+        .map_err(|e| relocate(e, "steps"))?;
+    let margin_key = [
+        "uncertainty.moe",
+        "uncertainty.ci_low",
+        "uncertainty.ci_high",
+    ]
+    .into_iter()
+    .find(|key| span_of(key).is_some())
+    .unwrap_or("uncertainty");
+    crate::plan::margin_spec(&args.uncertainty).map_err(|e| relocate(e, margin_key))?;
+    let rounding_key = if span_of("output.decimals").is_some() {
+        "output.decimals"
+    } else {
+        "output.sig"
     };
-    crate::plan::margin_spec(&args.uncertainty)
-        .map_err(|e| relocate(e, margin_key, margin_span))?;
-    let (rounding_key, rounding_span) = match r.output.as_ref() {
-        Some(o) if o.decimals.is_some() => {
-            ("output.decimals", o.decimals.as_ref().map(|s| s.span()))
-        }
-        Some(o) => ("output.sig", o.sig.as_ref().map(|s| s.span())),
-        None => ("output.sig", None),
-    };
-    crate::plan::resolve_output(&args.output)
-        .map_err(|e| relocate(e, rounding_key, rounding_span))?;
+    crate::plan::resolve_output(&args.output).map_err(|e| relocate(e, rounding_key))?;
     Ok(())
 }

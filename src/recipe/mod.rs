@@ -8,158 +8,43 @@
 //! that the flags would refuse. Paths in a recipe are relative to the recipe's own folder.
 
 pub mod apply;
+pub mod keys;
 pub mod save;
 
 use crate::cli::AdjustArgs;
 use crate::error::{Error, Result};
 use crate::plan::AdjustPlan;
 use crate::report::methods::{sha256_hex, RecipeQuote};
-use serde::{Deserialize, Serialize};
+use keys::{Key, Kind};
+use std::ops::Range;
 use std::path::{Path, PathBuf};
+use toml::de::{DeTable, DeValue};
 use toml::Spanned;
 
-/// A value with the place it was written, so an error can point at it.
-pub type At<T> = Option<Spanned<T>>;
-
-/// The recipe file. Top-level keys hold the method; the sections hold how the input is read,
-/// its margins of error and the outputs.
-#[derive(Debug, Default, Deserialize, Serialize)]
-#[serde(deny_unknown_fields)]
-pub struct Recipe {
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub input: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub refs: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub steps: At<Vec<String>>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub base_year: At<i32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub deflator: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub per: At<u32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub income_as: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub nearest_year: At<u32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub order: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub rank_aggregates: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub aliases: At<Vec<String>>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub allow_unresolved: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub streaming: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub chunk_mb: At<f64>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub columns: Option<ColumnsSection>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub uncertainty: Option<UncertaintySection>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub output: Option<OutputSection>,
+/// A value as the recipe wrote it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Value {
+    Text(String),
+    Integer(i64),
+    Float(f64),
+    Bool(bool),
+    List(Vec<String>),
 }
 
-/// `[columns]`: which columns hold what, and how the file is read.
-#[derive(Debug, Default, Deserialize, Serialize)]
-#[serde(deny_unknown_fields)]
-pub struct ColumnsSection {
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub entity: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub value: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub year: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub year_value: At<i32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub group: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub currency: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub currency_code: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub value_multiplier: At<String>,
-    /// auto, long or wide.
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub layout: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub delimiter: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub encoding: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub decimal_comma: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub lenient: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub sheet: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub header_row: At<usize>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub max_input_mb: At<u64>,
-}
-
-/// `[uncertainty]`: the margins of the figures and how rank intervals are drawn.
-#[derive(Debug, Default, Deserialize, Serialize)]
-#[serde(deny_unknown_fields)]
-pub struct UncertaintySection {
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub moe: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub se: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub ci_low: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub ci_high: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub sample_size: At<String>,
-    /// 90, 95 or 99.
-    #[serde(skip_serializing_if = "Option::is_none")]
-    #[serde(alias = "moe_level")]
-    pub margin_confidence: At<u32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub share_unit: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub proportion: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub rank_intervals: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub joint_adjustment: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub draws: At<usize>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub seed: At<u64>,
-}
-
-/// `[output]`: what is written where.
-#[derive(Debug, Default, Deserialize, Serialize)]
-#[serde(deny_unknown_fields)]
-pub struct OutputSection {
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub format: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub file: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub decimals: At<u32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub sig: At<u32>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub quiet: At<bool>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub methods: At<String>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub report: At<String>,
-    /// `--write-columns`: all, core, or column names separated by commas.
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub write_columns: At<String>,
+/// One key of a recipe file, with the flag behind it and where it was written.
+#[derive(Debug, Clone)]
+pub struct Entry {
+    pub key: Key,
+    pub value: Value,
+    /// Where the value was written.
+    pub span: Range<usize>,
 }
 
 /// A recipe read from disk, with what errors need to point into it.
 #[derive(Debug)]
 pub struct LoadedRecipe {
-    pub recipe: Recipe,
+    /// The keys in the order they were written.
+    pub entries: Vec<Entry>,
     /// The path as the user gave it.
     pub label: String,
     /// The folder its relative paths start from.
@@ -215,16 +100,17 @@ pub fn resolve(args: AdjustArgs) -> Result<(AdjustArgs, AdjustPlan)> {
 /// As `resolve`, with `finish` given the merged arguments before the plan is resolved (batch
 /// runs use it to place outputs).
 pub fn resolve_with(
-    mut args: AdjustArgs,
+    args: AdjustArgs,
     finish: impl FnOnce(&mut AdjustArgs) -> Result<()>,
 ) -> Result<(AdjustArgs, AdjustPlan)> {
     let mut quote = None;
     let mut file = None;
+    let mut args = args;
     if let Some(path) = args.recipe.clone() {
         let loaded = load(&path)?;
-        let given = args.given.clone();
-        let used = apply::merge(&loaded, &mut args, &given)?;
-        apply::check_merged(&loaded, &used, &args)?;
+        let (merged, used) = apply::merge(&loaded, args)?;
+        apply::check_merged(&loaded, &used, &merged)?;
+        args = merged;
         file = Some((loaded.label.clone(), sha256_hex(loaded.text.as_bytes())));
         quote = Some(RecipeQuote {
             origin: format!("Read from {}", loaded.label),
@@ -282,31 +168,156 @@ pub fn load(path: &Path) -> Result<LoadedRecipe> {
     parse(&text, &label, path.parent().unwrap_or(Path::new("")))
 }
 
-/// Parses recipe text; `folder` is where its relative paths start.
+/// Parses recipe text; `folder` is where its relative paths start. Every key must be a flag's
+/// key (see `keys`) holding a value of the flag's type.
 pub fn parse(text: &str, label: &str, folder: &Path) -> Result<LoadedRecipe> {
-    let recipe: Recipe = toml::from_str(text).map_err(|e| {
-        let (line, column) = e
-            .span()
-            .map(|span| line_column(text, span.start))
-            .unwrap_or((1, 1));
-        let key = e
-            .span()
-            .map(|span| key_at(text, span.start))
-            .unwrap_or_default();
+    let error_at = |offset: usize, key: String, problem: String| {
+        let (line, column) = line_column(text, offset);
         Error::Recipe {
             file: label.to_string(),
             line,
             column,
             key,
-            problem: e.message().trim().to_string(),
+            problem,
             fix: "correct the key or value (see `levelfield adjust --help` for what each key means; keys are the flag names with _ for -)".into(),
         }
+    };
+    let table = DeTable::parse(text).map_err(|e| {
+        let offset = e.span().map_or(0, |s| s.start);
+        let key = e.span().map(|s| key_at(text, s.start)).unwrap_or_default();
+        error_at(offset, key, e.message().trim().to_string())
     })?;
+    let known = keys::all();
+    let mut entries = Vec::new();
+    let mut items: Vec<(&Spanned<std::borrow::Cow<str>>, &Spanned<DeValue>)> =
+        table.get_ref().iter().collect();
+    items.sort_by_key(|(k, _)| k.span().start);
+    for (name, value) in items {
+        let name_text = name.get_ref().as_ref();
+        let is_section = known.iter().any(|k| k.section() == name_text);
+        match (value.get_ref(), is_section) {
+            (DeValue::Table(section), true) => {
+                let mut inner: Vec<_> = section.iter().collect();
+                inner.sort_by_key(|(k, _)| k.span().start);
+                for (inner_name, inner_value) in inner {
+                    let dotted = format!("{name_text}.{}", inner_name.get_ref());
+                    let key = find_key(&known, &dotted, inner_name.get_ref()).map_err(|p| {
+                        error_at(inner_name.span().start, inner_name.get_ref().to_string(), p)
+                    })?;
+                    let value = typed(key.kind, inner_value.get_ref()).map_err(|p| {
+                        error_at(
+                            inner_value.span().start,
+                            inner_name.get_ref().to_string(),
+                            p,
+                        )
+                    })?;
+                    entries.push(Entry {
+                        key,
+                        value,
+                        span: inner_value.span(),
+                    });
+                }
+            }
+            (other, true) => {
+                return Err(error_at(
+                    value.span().start,
+                    name_text.to_string(),
+                    format!(
+                        "invalid type: {}, expected a table (the section [{name_text}])",
+                        other.type_str()
+                    ),
+                ))
+            }
+            (other, false) => {
+                let key = find_key(&known, name_text, name_text)
+                    .map_err(|p| error_at(name.span().start, name_text.to_string(), p))?;
+                let typed_value = typed(key.kind, other)
+                    .map_err(|p| error_at(value.span().start, name_text.to_string(), p))?;
+                entries.push(Entry {
+                    key,
+                    value: typed_value,
+                    span: value.span(),
+                });
+            }
+        }
+    }
     Ok(LoadedRecipe {
-        recipe,
+        entries,
         label: label.to_string(),
         folder: folder.to_path_buf(),
         text: text.to_string(),
+    })
+}
+
+/// The key `dotted` (or one of its aliases), or an error naming the keys of its section.
+fn find_key(known: &[Key], dotted: &str, written: &str) -> std::result::Result<Key, String> {
+    if let Some(key) = known
+        .iter()
+        .find(|k| k.key == dotted || k.aliases.iter().any(|a| a == dotted))
+    {
+        return Ok(key.clone());
+    }
+    let section = dotted.rsplit_once('.').map_or("", |(s, _)| s);
+    let mut names: Vec<String> = known
+        .iter()
+        .filter(|k| k.section() == section)
+        .map(|k| format!("`{}`", k.name()))
+        .collect();
+    if section.is_empty() {
+        let mut sections: Vec<String> = known
+            .iter()
+            .map(|k| k.section().to_string())
+            .filter(|s| !s.is_empty())
+            .collect();
+        sections.dedup();
+        names.extend(sections.into_iter().map(|s| format!("`{s}`")));
+    }
+    Err(format!(
+        "unknown field `{written}`, expected one of {}",
+        names.join(", ")
+    ))
+}
+
+/// The value in the type the key's flag takes.
+fn typed(kind: Kind, value: &DeValue) -> std::result::Result<Value, String> {
+    let wrong = || {
+        let found = match value {
+            DeValue::String(s) => format!("string \"{s}\""),
+            DeValue::Integer(i) => format!("integer `{i}`"),
+            DeValue::Float(f) => format!("floating point `{f}`"),
+            DeValue::Boolean(b) => format!("boolean `{b}`"),
+            other => other.type_str().to_string(),
+        };
+        format!("invalid type: {found}, expected {}", kind.expected())
+    };
+    let integer = |i: &toml::de::DeInteger| {
+        i64::from_str_radix(&i.as_str().replace('_', ""), i.radix()).map_err(|_| wrong())
+    };
+    Ok(match (kind, value) {
+        (Kind::Text | Kind::Layout, DeValue::String(s)) => Value::Text(s.to_string()),
+        (Kind::Integer | Kind::NumericChoice | Kind::Number, DeValue::Integer(i)) => {
+            Value::Integer(integer(i)?)
+        }
+        (Kind::Number, DeValue::Float(f)) => Value::Float(
+            f.as_str()
+                .replace('_', "")
+                .parse::<f64>()
+                .map_err(|_| wrong())?,
+        ),
+        (Kind::Bool, DeValue::Boolean(b)) => Value::Bool(*b),
+        (Kind::List, DeValue::Array(items)) => Value::List(
+            items
+                .iter()
+                .map(|item| match item.get_ref() {
+                    DeValue::String(s) => Ok(s.to_string()),
+                    _ => Err(format!(
+                        "invalid type: {} in the array, expected a string",
+                        item.get_ref().type_str()
+                    )),
+                })
+                .collect::<std::result::Result<_, _>>()?,
+        ),
+        _ => return Err(wrong()),
     })
 }
 
@@ -336,21 +347,25 @@ mod tests {
     #[test]
     fn reads_every_section() {
         let loaded = parse_text(
-            "input = \"fees.csv\"\nsteps = [\"deflate\", \"ppp\"]\nbase_year = 2023\n\n[columns]\nentity = \"country\"\n\n[uncertainty]\nmoe = \"moe\"\nmargin_confidence = 90\n\n[output]\nfile = \"out.csv\"\n",
+            "input = \"fees.csv\"\nsteps = [\"deflate\", \"ppp\"]\nbase_year = 2023\n\n[columns]\nentity = \"country\"\n\n[uncertainty]\nmoe = \"moe\"\nmoe_level = 90\n\n[output]\nfile = \"out.csv\"\n",
         )
         .unwrap();
-        let r = &loaded.recipe;
-        assert_eq!(r.steps.as_ref().unwrap().get_ref(), &["deflate", "ppp"]);
-        assert_eq!(*r.base_year.as_ref().unwrap().get_ref(), 2023);
+        let found: Vec<(&str, &Value)> = loaded
+            .entries
+            .iter()
+            .map(|e| (e.key.key.as_str(), &e.value))
+            .collect();
         assert_eq!(
-            r.columns
-                .as_ref()
-                .unwrap()
-                .entity
-                .as_ref()
-                .unwrap()
-                .get_ref(),
-            "country"
+            found,
+            [
+                ("input", &Value::Text("fees.csv".into())),
+                ("steps", &Value::List(vec!["deflate".into(), "ppp".into()])),
+                ("base_year", &Value::Integer(2023)),
+                ("columns.entity", &Value::Text("country".into())),
+                ("uncertainty.moe", &Value::Text("moe".into())),
+                ("uncertainty.margin_confidence", &Value::Integer(90)),
+                ("output.file", &Value::Text("out.csv".into())),
+            ]
         );
         assert_eq!(loaded.path("fees.csv"), "/data/fees.csv");
         assert_eq!(loaded.path("/abs/x.csv"), "/abs/x.csv");
@@ -359,6 +374,15 @@ mod tests {
             normalize(Path::new("r/../../a/./b.csv")),
             PathBuf::from("../a/b.csv")
         );
+    }
+
+    #[test]
+    fn a_section_or_a_list_of_the_wrong_type_is_an_error() {
+        assert!(message("columns = 3\n").contains("expected a table"));
+        assert!(message("steps = [1]\n").contains("expected a string"));
+        assert!(message("[output]\nquiet = \"yes\"\n").contains("expected a boolean"));
+        assert!(message("[colums]\nentity = \"c\"\n").contains("unknown field `colums`"));
+        assert!(message("recipe = \"x.toml\"\n").contains("unknown field `recipe`"));
     }
 
     #[test]

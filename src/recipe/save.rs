@@ -3,173 +3,166 @@
 //! Method keys are always written (so a later change of a default cannot change the result);
 //! reading and output keys only where they differ from the defaults.
 
-use super::{ColumnsSection, OutputSection, Recipe, UncertaintySection};
-use crate::cli::{AdjustArgs, IntervalKind, ShareUnit};
+use super::keys::{self, Key, Kind};
+use crate::cli::AdjustArgs;
 use crate::error::{Error, Result};
-use crate::uncertainty::intervals::Adjustment;
-use clap::ValueEnum;
+use clap::parser::ValueSource;
+use clap::ArgMatches;
 use std::path::{Component, Path, PathBuf};
-use toml::Spanned;
+use toml::{Table, Value};
 
 const HEADER: &str = "# levelfield recipe: run it with `levelfield adjust --recipe FILE`.\n\
 # Paths are relative to this file's folder; flags given on the command line override keys.\n\n";
 
-fn at<T>(value: T) -> Option<Spanned<T>> {
-    Some(Spanned::new(0..0, value))
+/// What decides whether a key is written, read off the run's flags.
+struct Run<'a> {
+    matches: &'a ArgMatches,
+    margins: bool,
 }
 
-fn name<E: ValueEnum>(value: &E) -> String {
-    value
-        .to_possible_value()
-        .map(|p| p.get_name().to_string())
-        .unwrap_or_default()
+impl Run<'_> {
+    fn text(&self, id: &str) -> Option<&str> {
+        self.matches
+            .get_raw(id)
+            .and_then(|mut v| v.next())
+            .and_then(|v| v.to_str())
+    }
+
+    fn given(&self, id: &str) -> bool {
+        self.matches.value_source(id) == Some(ValueSource::CommandLine)
+    }
+
+    fn steps(&self) -> Vec<String> {
+        self.matches
+            .get_raw("steps")
+            .into_iter()
+            .flatten()
+            .filter_map(|s| s.to_str())
+            .map(|s| s.trim().to_string())
+            .filter(|s| !s.is_empty())
+            .collect()
+    }
+
+    /// Is `key` written? Keys that decide the result are written at their defaults too (so a
+    /// later change of a default cannot change what a saved recipe computes); reading and
+    /// output keys only when given. Margin keys only for a run with margins.
+    fn writes(&self, key: &Key) -> bool {
+        if key.kind == Kind::Layout {
+            return self.matches.get_flag("wide_years") || self.matches.get_flag("long");
+        }
+        let given = self.given(&key.id);
+        let rank_intervals = self.text("rank_intervals").unwrap_or("");
+        match key.id.as_str() {
+            "steps" | "per" | "nearest_year" | "order" | "rank_aggregates" | "allow_unresolved" => {
+                true
+            }
+            "income_as" => self.steps().iter().any(|s| s == "per-income"),
+            "chunk_mb" => given && self.matches.get_flag("streaming"),
+            "rank_intervals" => self.margins,
+            "share_unit" => self.margins && (given || self.given("sample_size")),
+            "joint_adjustment" => self.margins && (given || rank_intervals == "joint"),
+            "draws" | "seed" => self.margins && rank_intervals == "simulate",
+            _ if key.section() == "uncertainty" => self.margins && given,
+            _ => given,
+        }
+    }
 }
 
-fn text(value: &Option<String>) -> Option<Spanned<String>> {
-    value.clone().map(|v| Spanned::new(0..0, v))
-}
-
-/// The recipe text for `args`, to be saved in `folder`.
+/// The recipe text for `args` (its flags, `args.argv`), to be saved in `folder`.
 pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
-    let rel = |p: &Path| -> Result<Option<Spanned<String>>> {
-        Ok(at(relative_to(p, folder)?.to_string_lossy().into_owned()))
+    let matches = keys::adjust_command()
+        .try_get_matches_from(&args.argv)
+        .map_err(|e| Error::usage(format!("the run's flags: {e}"), "report this as a bug"))?;
+    let run = Run {
+        matches: &matches,
+        margins: ["moe", "se", "ci_low", "sample_size"]
+            .iter()
+            .any(|id| matches.get_raw(id).is_some()),
     };
-    let c = &args.columns;
-    let u = &args.uncertainty;
-    let o = &args.output;
-    let input = match args.input.as_deref() {
-        Some("-") => at("-".to_string()),
-        Some(path) => rel(Path::new(path))?,
-        None => None,
-    };
-    let steps: Vec<String> = args
-        .steps
-        .iter()
-        .map(|s| s.trim().to_string())
-        .filter(|s| !s.is_empty())
-        .collect();
-    let aliases = args
-        .aliases
-        .iter()
-        .map(|p| relative_to(p, folder).map(|r| r.to_string_lossy().into_owned()))
-        .collect::<Result<Vec<_>>>()?;
-    let uses_income = steps.iter().any(|s| s == "per-income");
-    let columns = ColumnsSection {
-        entity: text(&c.entity),
-        value: text(&c.value),
-        year: text(&c.year),
-        year_value: c.year_value.and_then(at),
-        group: text(&c.group),
-        currency: text(&c.currency),
-        currency_code: text(&c.currency_code),
-        value_multiplier: text(&c.value_multiplier),
-        layout: if c.wide_years {
-            at("wide".into())
-        } else if c.long {
-            at("long".into())
-        } else {
-            None
-        },
-        delimiter: text(&c.delimiter),
-        encoding: c.encoding.as_ref().map(name).and_then(at),
-        decimal_comma: c.decimal_comma.then_some(true).and_then(at),
-        lenient: c.lenient.then_some(true).and_then(at),
-        sheet: text(&c.sheet),
-        header_row: c.header_row.and_then(at),
-        max_input_mb: (c.max_input_mb != 4096)
-            .then_some(c.max_input_mb)
-            .and_then(at),
-    };
-    let has_margins =
-        u.moe.is_some() || u.se.is_some() || u.ci_low.is_some() || u.sample_size.is_some();
-    let uncertainty = has_margins.then(|| UncertaintySection {
-        moe: text(&u.moe),
-        se: text(&u.se),
-        ci_low: text(&u.ci_low),
-        ci_high: text(&u.ci_high),
-        sample_size: text(&u.sample_size),
-        margin_confidence: u
-            .margin_confidence
-            .map(|l| (l.confidence() * 100.0).round() as u32)
-            .and_then(at),
-        share_unit: (u.sample_size.is_some() || u.share_unit != ShareUnit::Percent)
-            .then(|| name(&u.share_unit))
-            .and_then(at),
-        proportion: u.proportion.then_some(true).and_then(at),
-        rank_intervals: at(name(&u.rank_intervals)),
-        joint_adjustment: (u.rank_intervals == IntervalKind::Joint
-            || u.joint_adjustment != Adjustment::Independence)
-            .then(|| name(&u.joint_adjustment))
-            .and_then(at),
-        draws: (u.rank_intervals == IntervalKind::Simulate)
-            .then_some(u.draws)
-            .and_then(at),
-        seed: (u.rank_intervals == IntervalKind::Simulate)
-            .then_some(u.seed)
-            .and_then(at),
-    });
-    let output = OutputSection {
-        format: o.format.as_ref().map(name).and_then(at),
-        file: match &o.output {
-            Some(p) => rel(p)?,
-            None => None,
-        },
-        decimals: o.decimals.and_then(at),
-        sig: o.sig.and_then(at),
-        quiet: o.quiet.then_some(true).and_then(at),
-        methods: match &o.methods {
-            Some(p) => rel(p)?,
-            None => None,
-        },
-        report: match &o.report {
-            Some(p) => rel(p)?,
-            None => None,
-        },
-        write_columns: match &o.write_columns {
-            crate::model::ColumnSet::All => None,
-            crate::model::ColumnSet::Core => at("core".to_string()),
-            crate::model::ColumnSet::List(names) => at(names.join(",")),
-        },
-    };
-    let recipe = Recipe {
-        input,
-        refs: match &args.refs {
-            Some(p) => rel(p)?,
-            None => None,
-        },
-        steps: at(steps),
-        base_year: args.base_year.and_then(at),
-        deflator: args.deflator.as_ref().map(name).and_then(at),
-        per: at(args.per),
-        income_as: uses_income.then(|| name(&args.income_as)).and_then(at),
-        nearest_year: at(args.nearest_year),
-        order: at(name(&args.order)),
-        rank_aggregates: at(args.rank_aggregates),
-        aliases: (!aliases.is_empty()).then_some(aliases).and_then(at),
-        allow_unresolved: at(args.allow_unresolved),
-        streaming: args.streaming.then_some(true).and_then(at),
-        chunk_mb: (args.streaming && args.chunk_mb != 16.0)
-            .then_some(args.chunk_mb)
-            .and_then(at),
-        columns: (!toml::to_string(&columns)
-            .unwrap_or_default()
-            .trim()
-            .is_empty())
-        .then_some(columns),
-        uncertainty,
-        output: (!toml::to_string(&output)
-            .unwrap_or_default()
-            .trim()
-            .is_empty())
-        .then_some(output),
-    };
-    let body = toml::to_string(&recipe).map_err(|e| {
+    let mut top = Table::new();
+    let mut sections: Vec<(String, Table)> = Vec::new();
+    for key in keys::all() {
+        if !run.writes(&key) {
+            continue;
+        }
+        let Some(value) = value_of(&run, &key, folder)? else {
+            continue;
+        };
+        match key.section() {
+            "" => {
+                top.insert(key.name().to_string(), value);
+            }
+            section => {
+                if sections.last().map(|(s, _)| s.as_str()) != Some(section) {
+                    sections.push((section.to_string(), Table::new()));
+                }
+                if let Some((_, table)) = sections.last_mut() {
+                    table.insert(key.name().to_string(), value);
+                }
+            }
+        }
+    }
+    for (section, table) in sections {
+        top.insert(section, Value::Table(table));
+    }
+    let body = toml::to_string(&top).map_err(|e| {
         Error::usage(
             format!("the recipe could not be written as TOML: {e}"),
             "report this as a bug",
         )
     })?;
     Ok(format!("{HEADER}{body}"))
+}
+
+/// The key's value in the run, as TOML of the key's type.
+fn value_of(run: &Run, key: &Key, folder: &Path) -> Result<Option<Value>> {
+    let id = key.id.as_str();
+    let path = |written: &str| -> Result<String> {
+        if written == "-" || !key.path {
+            return Ok(written.to_string());
+        }
+        Ok(relative_to(Path::new(written), folder)?
+            .to_string_lossy()
+            .into_owned())
+    };
+    let number = |text: &str| text.replace(['_', ','], "");
+    Ok(match key.kind {
+        Kind::Bool => Some(Value::Boolean(run.matches.get_flag(id))),
+        Kind::Layout => Some(Value::String(
+            if run.matches.get_flag("wide_years") {
+                "wide"
+            } else {
+                "long"
+            }
+            .into(),
+        )),
+        Kind::List => {
+            let items: Vec<Value> = if id == "steps" {
+                run.steps().into_iter().map(Value::String).collect()
+            } else {
+                run.matches
+                    .get_raw(id)
+                    .into_iter()
+                    .flatten()
+                    .filter_map(|v| v.to_str())
+                    .map(|v| path(v).map(Value::String))
+                    .collect::<Result<_>>()?
+            };
+            (id == "steps" || !items.is_empty()).then_some(Value::Array(items))
+        }
+        Kind::Integer | Kind::NumericChoice => run
+            .text(id)
+            .and_then(|t| number(t).parse::<i64>().ok())
+            .map(Value::Integer),
+        Kind::Number => run
+            .text(id)
+            .and_then(|t| number(t).parse::<f64>().ok())
+            .map(Value::Float),
+        Kind::Text => match run.text(id) {
+            Some(text) => Some(Value::String(path(text)?)),
+            None => None,
+        },
+    })
 }
 
 /// `path` written relative to `folder` (both taken from the current directory when relative).
