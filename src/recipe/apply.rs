@@ -212,6 +212,9 @@ fn check_alone(
     allow_outside: bool,
 ) -> Result<Vec<String>> {
     let mut argv: Vec<OsString> = vec!["--recipe=recipe".into()];
+    if entry.key.long.is_none() {
+        argv.push("--".into());
+    }
     argv.extend(tokens_of(loaded, entry, allow_outside)?);
     let Err(error) = command.clone().try_get_matches_from(&argv) else {
         return Ok(Vec::new());
@@ -357,4 +360,79 @@ pub fn check_merged(loaded: &LoadedRecipe, used: &RecipeUse, args: &AdjustArgs) 
     };
     crate::plan::resolve_output(&args.output).map_err(|e| relocate(e, rounding_key))?;
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::path::Path;
+
+    /// The merged arguments of `recipe` run with `levelfield adjust --recipe r.toml FLAGS`.
+    fn merged(recipe: &str, flags: &[&str]) -> Result<(AdjustArgs, RecipeUse)> {
+        let loaded = super::super::parse(recipe, "r.toml", Path::new("/data"))?;
+        let mut argv = vec!["levelfield", "adjust", "--recipe", "r.toml"];
+        argv.extend_from_slice(flags);
+        let crate::cli::Command::Adjust(args) = crate::cli::parse_from(argv).unwrap().command
+        else {
+            unreachable!()
+        };
+        merge(&loaded, *args)
+    }
+
+    #[test]
+    fn keys_become_flags_and_the_command_line_wins() {
+        let (args, used) = merged(
+            "input = \"-x.csv\"\nsteps = [\"ppp\", \"per-capita\"]\nper = 1000\n[columns]\nyear = \"Year\"\nlayout = \"wide\"\n[uncertainty]\nci_low = \"lo\"\nci_high = \"hi\"\nmargin_confidence = 95\n",
+            &["--year-value", "2020", "--moe", "m"],
+        )
+        .unwrap();
+        assert_eq!(args.input.as_deref(), Some("/data/-x.csv"));
+        assert_eq!(args.steps, ["ppp", "per-capita"]);
+        assert_eq!(args.per, 1000);
+        assert!(args.columns.wide_years && !args.columns.long);
+        assert_eq!(args.columns.year, None);
+        assert_eq!(args.columns.year_value, Some(2020));
+        assert_eq!(args.uncertainty.moe.as_deref(), Some("m"));
+        assert_eq!(args.uncertainty.ci_low, None);
+        assert_eq!(args.uncertainty.ci_high, None);
+        assert_eq!(
+            used.overridden,
+            ["columns.year", "uncertainty.ci_low", "uncertainty.ci_high"]
+        );
+    }
+
+    #[test]
+    fn outputs_stay_in_the_recipe_folder_unless_the_command_line_allows() {
+        let recipe = "[output]\nfile = \"../elsewhere.csv\"\n";
+        let error = merged(recipe, &["in.csv"]).unwrap_err().to_string();
+        assert!(error.contains("outside the recipe's folder"), "{error}");
+        let (args, _) = merged(recipe, &["in.csv", "--allow-outside"]).unwrap();
+        assert_eq!(
+            args.output.output.as_deref(),
+            Some(Path::new("/elsewhere.csv"))
+        );
+        // Replaced on the command line, the key is not checked.
+        assert!(merged(recipe, &["in.csv", "-o", "out.csv"]).is_ok());
+    }
+
+    #[test]
+    fn a_saved_recipe_reads_back_to_the_same_flags() {
+        let recipe = "input = \"fees.csv\"\nsteps = [\"deflate\", \"ppp\"]\nbase_year = 2023\nstreaming = true\nchunk_mb = 0.5\n[columns]\nlayout = \"long\"\nheader_row = 3\n[uncertainty]\nse = \"se\"\nrank_intervals = \"simulate\"\n[output]\nformat = \"json\"\nwrite_columns = \"core\"\n";
+        let (args, _) = merged(recipe, &[]).unwrap();
+        let saved = super::super::save::recipe_text(&args, Path::new("/data")).unwrap();
+        let (mut again, _) = merged(&saved, &[]).unwrap();
+        // The same arguments (the saved recipe also writes the method keys' defaults).
+        let mut first = args.clone();
+        (first.argv, again.argv) = (Vec::new(), Vec::new());
+        assert_eq!(format!("{again:?}"), format!("{first:?}"));
+        for line in [
+            "chunk_mb = 0.5",
+            "layout = \"long\"",
+            "header_row = 3",
+            "draws = 2000",
+            "write_columns = \"core\"",
+        ] {
+            assert!(saved.contains(line), "{line} in {saved}");
+        }
+    }
 }

@@ -241,6 +241,15 @@ pub fn parse(text: &str, label: &str, folder: &Path) -> Result<LoadedRecipe> {
             }
         }
     }
+    for (i, later) in entries.iter().enumerate() {
+        if entries[..i].iter().any(|e| e.key.key == later.key.key) {
+            return Err(error_at(
+                later.span.start,
+                later.key.key.clone(),
+                format!("{} is written twice (under two names)", later.key.key),
+            ));
+        }
+    }
     Ok(LoadedRecipe {
         entries,
         label: label.to_string(),
@@ -383,6 +392,10 @@ mod tests {
         assert!(message("[output]\nquiet = \"yes\"\n").contains("expected a boolean"));
         assert!(message("[colums]\nentity = \"c\"\n").contains("unknown field `colums`"));
         assert!(message("recipe = \"x.toml\"\n").contains("unknown field `recipe`"));
+        assert!(
+            message("[uncertainty]\nmargin_confidence = 90\nmoe_level = 95\n")
+                .starts_with("r.toml, line 3")
+        );
     }
 
     #[test]
