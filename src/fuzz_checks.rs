@@ -63,8 +63,8 @@ pub fn ingest_adjust(data: &[u8]) {
     static SETUP: OnceLock<(Resolver, References, PipelineSettings)> = OnceLock::new();
     let (resolver, references, settings) = SETUP.get_or_init(|| {
         let mut resolver = Resolver::builtin();
-        let references =
-            reference::load(&crate::demo::DEMO_REFERENCES, &mut resolver).expect("demo references");
+        let references = reference::load(&crate::cmd::demo::DEMO_REFERENCES, &mut resolver)
+            .expect("demo references");
         let settings = PipelineSettings {
             ingest: IngestOptions {
                 lenient: true,

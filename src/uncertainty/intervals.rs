@@ -162,6 +162,69 @@ mod tests {
     }
 
     #[test]
+    fn splitmix64_gives_the_published_sequence() {
+        // Seed 1234567: the first outputs of Vigna's reference splitmix64.c (values recalled
+        // from memory, and reproduced by a Python transcription of that C code, which agree).
+        let mut generator = SplitMix64::new(1_234_567);
+        let first: Vec<u64> = (0..5).map(|_| generator.next_u64()).collect();
+        assert_eq!(
+            first,
+            [
+                6_457_827_717_110_365_317,
+                3_203_168_211_198_807_973,
+                9_817_491_932_198_370_423,
+                4_593_380_528_125_082_431,
+                16_408_922_859_458_223_821,
+            ]
+        );
+    }
+
+    #[test]
+    fn the_first_draw_is_box_muller_of_the_first_two_uniforms() {
+        // Uniform = (top 53 bits + 0.5) / 2^53 of the published outputs above; Box–Muller
+        // z = sqrt(-2 ln u1) cos(2π u2), worked in Python from those two outputs:
+        // u1 = 0.3500795420214082, u2 = 0.17364409667091268, z = 0.6687418474759114.
+        let mut generator = SplitMix64::new(1_234_567);
+        assert_eq!(generator.uniform(), 0.3500795420214082);
+        let z = SplitMix64::new(1_234_567).normal();
+        assert!((z - 0.6687418474759114).abs() < 1e-15, "{z}");
+        // One simulated ranking: entity 0 is drawn at 0 + 1·z = 0.669, entity 1 is exact. It
+        // ranks first against 0 (the draw is added, not subtracted) and second against
+        // z + 0.5 (the margin is scaled by z, not added to it).
+        let one_draw = |other: f64| {
+            simulated_intervals(&[0.0, other], &[1.0, 0.0], 1, 1_234_567, 0.9, Order::Desc)
+        };
+        assert_eq!(one_draw(0.0), vec![(1, 1), (2, 2)]);
+        assert_eq!(one_draw(z + 0.5), vec![(2, 2), (1, 1)]);
+    }
+
+    #[test]
+    fn simulated_intervals_match_an_independent_transcription() {
+        // Expected values from a Python transcription of the published pieces (SplitMix64 as in
+        // splitmix64.c, the top 53 bits as a uniform, Box–Muller, standard competition ranks,
+        // nearest-rank percentiles at (1 − c)/2 and 1 − (1 − c)/2), written apart from this
+        // code; 200 draws, seed 7.
+        let values = [10.0, 10.8, 11.5, 14.0];
+        let ses = [1.0, 0.6, 1.0, 0.3];
+        let run = |confidence, order| simulated_intervals(&values, &ses, 200, 7, confidence, order);
+        assert_eq!(run(0.9, Order::Desc), vec![(2, 4), (2, 4), (2, 4), (1, 1)]);
+        assert_eq!(run(0.9, Order::Asc), vec![(1, 3), (1, 3), (1, 3), (4, 4)]);
+        assert_eq!(run(0.5, Order::Desc), vec![(3, 4), (2, 3), (2, 3), (1, 1)]);
+        assert_eq!(run(0.5, Order::Asc), vec![(1, 2), (2, 3), (2, 3), (4, 4)]);
+    }
+
+    #[test]
+    fn intervals_that_touch_overlap() {
+        // Closed intervals [v - c·se, v + c·se] that share an end point cannot be told apart,
+        // so both entities may hold either rank (common practice: a confidence interval
+        // includes its bounds). Here [−1, 1] and [1, 3].
+        for order in [Order::Desc, Order::Asc] {
+            let ivs = joint_intervals(&[0.0, 2.0], &[1.0, 1.0], 1.0, order);
+            assert_eq!(ivs, vec![(1, 2), (1, 2)], "{order:?}");
+        }
+    }
+
+    #[test]
     fn widening_margins_never_narrows_an_interval() {
         let values = [3.0, 4.0, 6.0, 6.5, 9.0, 12.0];
         let mut previous = joint_intervals(&values, &[0.0; 6], 2.0, Order::Desc);

@@ -107,6 +107,20 @@ mod tests {
     use super::*;
 
     #[test]
+    fn the_difference_test_divides_by_the_combined_standard_error() {
+        // Worked by hand: |10 − 4| / sqrt(3² + 4²) = 6 / 5 = 1.2.
+        assert_eq!(z_statistic(10.0, 3.0, 4.0, 4.0), 1.2);
+        // Exact figures: equal ones do not differ, unequal ones always do.
+        assert_eq!(z_statistic(7.0, 0.0, 7.0, 0.0), 0.0);
+        assert_eq!(z_statistic(7.0, 0.0, 8.0, 0.0), f64::INFINITY);
+        // The Census Bureau's rule is "greater than" the critical value: at exactly z it is
+        // not a significant difference.
+        let z = Level::P90.z();
+        assert!(!differ(z, 1.0, 0.0, 0.0, Level::P90));
+        assert!(differ(z * (1.0 + 1e-12), 1.0, 0.0, 0.0, Level::P90));
+    }
+
+    #[test]
     fn level_conversions_match_the_handbook_factors() {
         // ACS handbook: MOE95 = MOE90 × 1.960/1.645; MOE99 = MOE90 × 2.576/1.645; SE = MOE90/1.645.
         let moe90 = 1000.0;

@@ -139,6 +139,17 @@ mod tests {
     }
 
     #[test]
+    fn quantile_in_the_far_tail() {
+        // Beyond p ≈ 1.4e-11 AS 241 uses its third rational function. Expected z found by
+        // bisection on P(Z <= z) = erfc(-z/√2)/2 with the C library's erfc (Python's
+        // math.erfc), apart from this code: -7.034483825301133 (p = 1e-12) and
+        // -9.262340089798409 (p = 1e-20).
+        assert!((quantile(1e-12) + 7.034_483_825_301_133).abs() < 1e-12);
+        assert!((quantile(1e-20) + 9.262_340_089_798_409).abs() < 1e-12);
+        assert!((quantile(1.0 - 1e-12) - 7.034_483_825_301_133).abs() < 1e-4);
+    }
+
+    #[test]
     fn quantile_tails_and_symmetry() {
         // z for p = 1e-10 is -6.3613 (standard normal tables).
         assert!((quantile(1e-10) + 6.361_340_902_404_056).abs() < 1e-9);

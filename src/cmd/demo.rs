@@ -5,13 +5,13 @@
 //! currencies and invented reference tables. The demo runs the same plan that
 //! `levelfield adjust` would build from `DEMO_ARGS`, only with embedded files.
 
+use super::Outcome;
 use crate::cli::{Command, DemoArgs};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::plan;
 use crate::reference;
 use crate::source::Embedded;
-use crate::Outcome;
 
 /// The `adjust` arguments the demo runs, as a user would type them.
 pub const DEMO_ARGS: &[&str] = &[
@@ -37,26 +37,26 @@ pub const DEMO_MARGIN_ARGS: &[&str] = &[
     "90",
 ];
 
-pub const DEMO_INPUT: &str = include_str!("../demo/transit-pass-fees.csv");
-pub const DEMO_MARGIN_INPUT: &str = include_str!("../demo/transit-spending-survey.csv");
+pub const DEMO_INPUT: &str = include_str!("../../demo/transit-pass-fees.csv");
+pub const DEMO_MARGIN_INPUT: &str = include_str!("../../demo/transit-spending-survey.csv");
 
 pub static DEMO_REFERENCES: Embedded = Embedded {
     prefix: "reference-tables",
     files: &[
         (
             "datapackage.json",
-            include_str!("../reference-tables/datapackage.json"),
+            include_str!("../../reference-tables/datapackage.json"),
         ),
         (
             "aliases.csv",
-            include_str!("../reference-tables/aliases.csv"),
+            include_str!("../../reference-tables/aliases.csv"),
         ),
-        ("fx.csv", include_str!("../reference-tables/fx.csv")),
-        ("ppp.csv", include_str!("../reference-tables/ppp.csv")),
-        ("cpi.csv", include_str!("../reference-tables/cpi.csv")),
+        ("fx.csv", include_str!("../../reference-tables/fx.csv")),
+        ("ppp.csv", include_str!("../../reference-tables/ppp.csv")),
+        ("cpi.csv", include_str!("../../reference-tables/cpi.csv")),
         (
             "population.csv",
-            include_str!("../reference-tables/population.csv"),
+            include_str!("../../reference-tables/population.csv"),
         ),
     ],
 };
@@ -132,9 +132,9 @@ pub fn run(args: &DemoArgs) -> Result<Outcome> {
     }
     let plan = demo_plan(args)?;
     if plan.output.format == crate::report::Format::Table {
-        crate::write_stdout(if args.margins { MARGIN_BANNER } else { BANNER })?;
+        super::write_stdout(if args.margins { MARGIN_BANNER } else { BANNER })?;
     }
-    crate::execute(&plan)?;
+    super::adjust::execute(&plan)?;
     eprintln!(
         "reproduce with: levelfield demo --extract levelfield-demo && cd levelfield-demo && levelfield adjust {}",
         if args.margins { DEMO_MARGIN_ARGS } else { DEMO_ARGS }.join(" ")

@@ -7,10 +7,10 @@
 //! table does not stop the others unless `--fail-fast`; the final table lists every input with
 //! its rows, flags, status and output, and the exit code is 1 when any failed.
 
+use super::Outcome;
 use crate::cli::{AdjustArgs, BatchArgs};
 use crate::error::{Error, Result};
 use crate::recipe;
-use crate::Outcome;
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use rayon::prelude::*;
 use serde::Deserialize;
@@ -72,7 +72,7 @@ pub fn run(args: &BatchArgs) -> Result<Outcome> {
         .filter(|r| matches!(r.status, Status::Failed(_)))
         .count();
     if !args.quiet || failed > 0 {
-        crate::write_stdout(&render_results(&results))?;
+        super::write_stdout(&render_results(&results))?;
     }
     for r in &results {
         if let Status::Failed(message) = &r.status {
@@ -354,7 +354,7 @@ fn run_jobs(jobs: &[Job], output_dir: Option<&Path>, args: &BatchArgs) -> Result
             None => job_plan(job, output_dir, args.allow_outside).and_then(|(_, plan)| {
                 result.input = plan.input_label.clone();
                 result.output = plan.output.path.clone();
-                crate::execute(&plan)
+                super::adjust::execute(&plan)
             }),
         };
         match outcome {
