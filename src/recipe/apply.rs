@@ -35,31 +35,38 @@ pub fn merge(loaded: &LoadedRecipe, args: AdjustArgs) -> Result<(AdjustArgs, Rec
         .iter()
         .map(|e| !flag_ids(e).iter().any(|id| excluded.contains(id)))
         .collect();
-    // A key the command line replaces is not checked (its value is not used).
-    let mut needs = Vec::with_capacity(loaded.entries.len());
+    // Each kept key as command-line words; a key the command line replaces is neither turned
+    // into words nor checked (its value is not used).
+    let mut words: Vec<Option<Vec<OsString>>> = Vec::with_capacity(kept.len());
+    let mut needs = Vec::with_capacity(kept.len());
     for (entry, keep) in loaded.entries.iter().zip(&kept) {
-        needs.push(match keep {
-            true => check_alone(loaded, entry, &command, args.allow_outside)?,
-            false => Vec::new(),
-        });
+        if *keep {
+            let entry_words = tokens_of(loaded, entry, &command, args.allow_outside)?;
+            needs.push(check_alone(loaded, entry, &entry_words, &command)?);
+            words.push(Some(entry_words));
+        } else {
+            needs.push(Vec::new());
+            words.push(None);
+        }
     }
     check_together(loaded, &command, &needs)?;
     // A key that needs a dropped key goes with it (`ci_high` when the command line gave --moe).
+    let given_longs: Vec<String> = args
+        .given
+        .iter()
+        .filter_map(|id| long_of(&command, id))
+        .collect();
     loop {
-        let present: BTreeSet<String> = loaded
+        let present: BTreeSet<&str> = loaded
             .entries
             .iter()
             .zip(&kept)
             .filter(|(_, k)| **k)
-            .filter_map(|(e, _)| e.key.long.clone())
-            .chain(
-                args.given
-                    .iter()
-                    .map(|id| format!("--{}", id.replace('_', "-"))),
-            )
+            .filter_map(|(e, _)| e.key.long.as_deref())
+            .chain(given_longs.iter().map(String::as_str))
             .collect();
-        let lost =
-            (0..kept.len()).find(|&i| kept[i] && needs[i].iter().any(|n| !present.contains(n)));
+        let lost = (0..kept.len())
+            .find(|&i| kept[i] && needs[i].iter().any(|n| !present.contains(n.as_str())));
         match lost {
             Some(i) => kept[i] = false,
             None => break,
@@ -68,13 +75,11 @@ pub fn merge(loaded: &LoadedRecipe, args: AdjustArgs) -> Result<(AdjustArgs, Rec
     let mut tokens: Vec<OsString> = Vec::new();
     let mut input = None;
     let mut overridden = Vec::new();
-    for (entry, keep) in loaded.entries.iter().zip(&kept) {
-        if !keep {
-            overridden.push(entry.key.key.clone());
-        } else if entry.key.id == "input" {
-            input = tokens_of(loaded, entry, args.allow_outside)?.pop();
-        } else {
-            tokens.extend(tokens_of(loaded, entry, args.allow_outside)?);
+    for ((entry, keep), entry_words) in loaded.entries.iter().zip(&kept).zip(words) {
+        match entry_words.filter(|_| *keep) {
+            None => overridden.push(entry.key.key.clone()),
+            Some(mut w) if entry.key.id == "input" => input = w.pop(),
+            Some(w) => tokens.extend(w),
         }
     }
     tokens.extend(args.argv.iter().cloned());
@@ -138,7 +143,12 @@ fn excluded_by(command: &Command, given: &BTreeSet<String>) -> BTreeSet<String> 
 }
 
 /// The flags an entry stands for, as command-line words.
-fn tokens_of(loaded: &LoadedRecipe, entry: &Entry, allow_outside: bool) -> Result<Vec<OsString>> {
+fn tokens_of(
+    loaded: &LoadedRecipe,
+    entry: &Entry,
+    command: &Command,
+    allow_outside: bool,
+) -> Result<Vec<OsString>> {
     let key = &entry.key;
     let long = key.long.clone().unwrap_or_default();
     let place = |written: &str| -> Result<String> {
@@ -160,7 +170,10 @@ fn tokens_of(loaded: &LoadedRecipe, entry: &Entry, allow_outside: bool) -> Resul
     Ok(match &entry.value {
         Value::Text(v) if key.kind == Kind::Layout => {
             match LAYOUT_VALUES.iter().find(|(name, _)| name == v) {
-                Some((_, Some(id))) => vec![format!("--{}", id.replace('_', "-")).into()],
+                Some((_, Some(id))) => long_of(command, id)
+                    .map(OsString::from)
+                    .into_iter()
+                    .collect(),
                 Some((_, None)) => Vec::new(),
                 None => {
                     return Err(loaded.error_at(
@@ -203,19 +216,28 @@ fn output_path(
     Ok(loaded.path(written))
 }
 
+/// The long flag (`--wide-years`) of a clap id.
+fn long_of(command: &Command, id: &str) -> Option<String> {
+    command
+        .get_arguments()
+        .find(|a| a.get_id().as_str() == id)
+        .and_then(|a| a.get_long())
+        .map(|l| format!("--{l}"))
+}
+
 /// Parses one entry's flags on their own: a value its flag refuses is an error at the key.
 /// Gives the flags (`--ci-high`) the entry needs beside it.
 fn check_alone(
     loaded: &LoadedRecipe,
     entry: &Entry,
+    words: &[OsString],
     command: &Command,
-    allow_outside: bool,
 ) -> Result<Vec<String>> {
     let mut argv: Vec<OsString> = vec!["--recipe=recipe".into()];
     if entry.key.long.is_none() {
         argv.push("--".into());
     }
-    argv.extend(tokens_of(loaded, entry, allow_outside)?);
+    argv.extend(words.iter().cloned());
     let Err(error) = command.clone().try_get_matches_from(&argv) else {
         return Ok(Vec::new());
     };

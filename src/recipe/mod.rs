@@ -4,8 +4,9 @@
 //! recipe of a run made with flags.
 //!
 //! Reading is strict: unknown keys and wrong types are errors naming the key, line and column
-//! (serde's `deny_unknown_fields` and the spans that the `toml` crate keeps), and so are values
-//! that the flags would refuse. Paths in a recipe are relative to the recipe's own folder.
+//! (from the spans that the `toml` crate keeps), and so are values that the flags would refuse
+//! (`apply`). The keys are the flags' own (`keys`). Paths in a recipe are relative to the
+//! recipe's own folder.
 
 pub mod apply;
 pub mod keys;
@@ -201,21 +202,13 @@ pub fn parse(text: &str, label: &str, folder: &Path) -> Result<LoadedRecipe> {
                 inner.sort_by_key(|(k, _)| k.span().start);
                 for (inner_name, inner_value) in inner {
                     let dotted = format!("{name_text}.{}", inner_name.get_ref());
-                    let key = find_key(&known, &dotted, inner_name.get_ref()).map_err(|p| {
-                        error_at(inner_name.span().start, inner_name.get_ref().to_string(), p)
-                    })?;
-                    let value = typed(key.kind, inner_value.get_ref()).map_err(|p| {
-                        error_at(
-                            inner_value.span().start,
-                            inner_name.get_ref().to_string(),
-                            p,
-                        )
-                    })?;
-                    entries.push(Entry {
-                        key,
-                        value,
-                        span: inner_value.span(),
-                    });
+                    entries.push(read_entry(
+                        &known,
+                        &dotted,
+                        inner_name,
+                        inner_value,
+                        error_at,
+                    )?);
                 }
             }
             (other, true) => {
@@ -228,17 +221,7 @@ pub fn parse(text: &str, label: &str, folder: &Path) -> Result<LoadedRecipe> {
                     ),
                 ))
             }
-            (other, false) => {
-                let key = find_key(&known, name_text, name_text)
-                    .map_err(|p| error_at(name.span().start, name_text.to_string(), p))?;
-                let typed_value = typed(key.kind, other)
-                    .map_err(|p| error_at(value.span().start, name_text.to_string(), p))?;
-                entries.push(Entry {
-                    key,
-                    value: typed_value,
-                    span: value.span(),
-                });
-            }
+            (_, false) => entries.push(read_entry(&known, name_text, name, value, error_at)?),
         }
     }
     for (i, later) in entries.iter().enumerate() {
@@ -255,6 +238,27 @@ pub fn parse(text: &str, label: &str, folder: &Path) -> Result<LoadedRecipe> {
         label: label.to_string(),
         folder: folder.to_path_buf(),
         text: text.to_string(),
+    })
+}
+
+/// One key as written (`name`, its `dotted` form with the section) and its value; errors point
+/// at the key when it is unknown and at the value when it has the wrong type.
+fn read_entry(
+    known: &[Key],
+    dotted: &str,
+    name: &Spanned<std::borrow::Cow<str>>,
+    value: &Spanned<DeValue>,
+    error_at: impl Fn(usize, String, String) -> Error,
+) -> Result<Entry> {
+    let written = name.get_ref().to_string();
+    let key = find_key(known, dotted, &written)
+        .map_err(|p| error_at(name.span().start, written.clone(), p))?;
+    let typed_value =
+        typed(key.kind, value.get_ref()).map_err(|p| error_at(value.span().start, written, p))?;
+    Ok(Entry {
+        key,
+        value: typed_value,
+        span: value.span(),
     })
 }
 
