@@ -274,11 +274,19 @@ impl<'a> Checks<'a> {
                 let factor = 10f64.powi(power);
                 self.within(row, index, claimed, expected * factor)
                     .then(|| {
-                        format!(
-                            "scale slip: the figure is per {} people but the table says per {}",
-                            group_digits(per * factor),
-                            group_digits(per)
-                        )
+                        if per * factor >= 1.0 {
+                            format!(
+                                "scale slip: the figure is per {} people but the table says per {}",
+                                group_digits(per * factor),
+                                group_digits(per)
+                            )
+                        } else {
+                            // Fewer than one person: the figure's unit slipped, not the per.
+                            format!(
+                                "scale slip: the figure is 1/{0} of the recomputation, as if written in a unit {0} times larger",
+                                group_digits(1.0 / factor)
+                            )
+                        }
                     })
             })
     }

@@ -6,6 +6,7 @@
 use super::keys::{self, Key, Kind};
 use crate::cli::AdjustArgs;
 use crate::error::{Error, Result};
+use crate::ingest::margins::MarginSpec;
 use clap::parser::ValueSource;
 use clap::ArgMatches;
 use std::path::{Component, Path, PathBuf};
@@ -75,9 +76,12 @@ pub fn recipe_text(args: &AdjustArgs, folder: &Path) -> Result<String> {
         .map_err(|e| Error::usage(format!("the run's flags: {e}"), "report this as a bug"))?;
     let run = Run {
         matches: &matches,
-        margins: ["moe", "se", "ci_low", "sample_size"]
-            .iter()
-            .any(|id| matches.get_raw(id).is_some()),
+        // A run has margins when plan reads a margin column from its flags (an error there,
+        // such as a margin without its level, still means margins were given).
+        margins: !matches!(
+            crate::plan::margin_spec(&args.uncertainty),
+            Ok(MarginSpec::None)
+        ),
     };
     let mut top = Table::new();
     let mut sections: Vec<(String, Table)> = Vec::new();

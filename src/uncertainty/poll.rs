@@ -99,6 +99,40 @@ mod tests {
     }
 
     #[test]
+    fn the_lead_and_both_margins_match_an_independent_computation() {
+        // Worked in Python 3 with statistics.NormalDist (its own inverse of the normal
+        // distribution): z = NormalDist().inv_cdf(0.975) = 1.9599639845400536, then
+        // z * sqrt((0.48 + 0.44 - 0.04**2) / 1000) = 0.05939693410375221 for the lead,
+        // z * sqrt(0.48 * 0.52 / 1000) = 0.030964949889274056 and
+        // z * sqrt(0.44 * 0.56 / 1000) = 0.030765816313223872 for the shares. The lead's own
+        // variance without the squared difference would give 0.05945, the sum of the share
+        // margins 0.06173: neither is within 1e-12.
+        let l = lead(0.48, 0.44, 1000.0, Level::P95);
+        let close = |got: f64, want: f64| (got / want - 1.0).abs() < 1e-12;
+        assert!(close(l.lead, 0.04), "{}", l.lead);
+        assert!(close(l.margin, 0.05939693410375221), "{}", l.margin);
+        assert!(
+            close(l.margin_first, 0.030964949889274056),
+            "{}",
+            l.margin_first
+        );
+        assert!(
+            close(l.margin_second, 0.030765816313223872),
+            "{}",
+            l.margin_second
+        );
+    }
+
+    #[test]
+    fn no_lead_with_no_margin_is_not_beyond_it() {
+        // "Larger than its margin" is strict (the Census Bureau's "greater than" rule for
+        // significance, as in moe::differ): shares of zero give a lead of 0 and a margin of 0.
+        let l = lead(0.0, 0.0, 1000.0, Level::P95);
+        assert_eq!((l.lead, l.margin, l.margin_second), (0.0, 0.0, 0.0));
+        assert!(!l.beyond_margin);
+    }
+
+    #[test]
     fn a_design_effect_widens_the_margin_by_its_square_root() {
         // Effective sample n / deff (Kish's design effect; common practice in survey reporting).
         let simple = lead(0.48, 0.44, 1000.0, Level::P95).margin;

@@ -176,6 +176,12 @@ fn nominal_as_real_points_as_percent_mixed_years_and_shares() {
         "{}",
         run.stdout
     );
+    // The first year has no claim (".."), the second is checked: one claim.
+    assert!(
+        run.stdout.contains("2 row(s), 1 claimed figure(s) checked"),
+        "{}",
+        run.stdout
+    );
     // A latest-year cross-section mixing 2019 and 2020, with shares that do not add to 100.
     let mixed = env.write(
         "mixed.csv",
@@ -200,6 +206,11 @@ fn nominal_as_real_points_as_percent_mixed_years_and_shares() {
     );
     assert!(
         run.stdout.contains("add up to 90, not 100"),
+        "{}",
+        run.stdout
+    );
+    assert!(
+        run.stdout.contains("2 row(s), 2 claimed figure(s) checked"),
         "{}",
         run.stdout
     );
@@ -249,6 +260,67 @@ fn header_words_suggest_claims_and_the_report_says_so() {
     assert!(
         run.stdout
             .contains("intl = \"Fee (PPP $)\" (assumed from the header"),
+        "{}",
+        run.stdout
+    );
+}
+
+#[test]
+fn shares_and_changes_within_rounding_pass_and_a_half_point_slip_does_not() {
+    // Invented figures, worked by hand. Shares: 1.0 and 3.0 of 4.0 are 25% and 75%; a claimed
+    // 26.3 differs by 1.3, which is exactly half a unit of the claim (0.05) plus the raw
+    // figure's half unit carried into the share (0.05 × 100 / 4 = 1.25): the roundings touch,
+    // so it passes (common practice: a printed figure is exact to half a unit of its last
+    // digit). In floating point the difference is 1.3 + 6.7e-16 (worked in Python 3), which
+    // only the tolerance's slack absorbs. In 2021, 1.000 of 8.000 is 12.5%, and 13.0 is off by
+    // 0.5 against a tolerance of 0.05 + 0.00625. Changes: 10 to 12 is +20%.
+    let env = setup();
+    let refs = small_refs(&env);
+    let shares = env.write(
+        "shares.csv",
+        "country,year,value,share\nFrance,2020,1.0,26.3\nChile,2020,3.0,75.0\nFrance,2021,1.000,13.0\nChile,2021,7.000,87.5\n",
+    );
+    let run = env.run(&[
+        "audit",
+        &shares,
+        "--refs",
+        &refs,
+        "--claim",
+        "share=share",
+        "--format",
+        "json",
+    ]);
+    let report: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    let errors: Vec<(u64, f64)> = report["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["check"] == "share" && f["severity"] == "error")
+        .map(|f| {
+            (
+                f["line"].as_u64().unwrap(),
+                f["recomputed"].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(errors, vec![(4, 12.5)], "{:#}", report["findings"]);
+    assert_eq!(report["claims_checked"], 4);
+    let change = env.write(
+        "changes.csv",
+        "country,year,value,change\nChile,2019,10,..\nChile,2020,12,20\nFrance,2019,50,..\nFrance,2020,40,-20.0\n",
+    );
+    let run = env.run(&[
+        "audit",
+        &change,
+        "--refs",
+        &refs,
+        "--claim",
+        "change=change",
+    ]);
+    assert_eq!(run.code, 0, "{}", run.stdout);
+    assert!(
+        run.stdout
+            .contains("4 row(s), 2 claimed figure(s) checked; 0 error(s)"),
         "{}",
         run.stdout
     );

@@ -364,3 +364,78 @@ fn the_audit_of_adjusts_own_output_finds_nothing_for_every_basis_and_step() {
     }
     assert!(checked > 2000, "{checked}");
 }
+
+#[test]
+fn a_claim_whose_rounding_just_touches_the_raw_figures_rounding_is_accepted() {
+    // A printed figure is exact to half a unit of its last digit (common practice in statistical
+    // publishing): a raw 10 stands for 9.5 to 10.5 and a claimed 11 for 10.5 to 11.5, so both
+    // can come from 10.5; a claimed 12 cannot. With three decimals at a thousand, 1000.003 -
+    // 1000.002 is 0.001 + 9.0e-14 in binary floating point (worked in Python 3), which the
+    // tolerance's slack for the last bits must absorb. The figures are invented; the table is
+    // in US dollars, so the usd claim is the raw figure itself.
+    let env = setup();
+    let input = env.write(
+        "touching.csv",
+        "country,year,gdp,usd\nFRA,2008,10,11\nDEU,2008,10,12\nITA,2008,1000.002,1000.003\nESP,2008,1000.002,1000.004\n",
+    );
+    let run = audit(
+        &env,
+        &input,
+        &[
+            "--value",
+            "gdp",
+            "--claim",
+            "usd=usd",
+            "--currency-code",
+            "USD",
+        ],
+    );
+    let lines: Vec<u64> = findings(&run)
+        .iter()
+        .map(|f| f["line"].as_u64().unwrap())
+        .collect();
+    assert_eq!(lines, vec![3, 5], "{}", run.stdout);
+}
+
+#[test]
+fn a_slip_by_any_power_of_ten_up_to_a_million_is_named() {
+    // Per-capita figures worked from PWT 7.1 (expected_intl_per_capita, by build.py, not by the
+    // tool) written 10^p times too large or too small, for p from -6 to 6: each is named as a
+    // slip of that power, and nothing else is found. Claims are written with every digit, so
+    // only the power differs.
+    let env = setup();
+    let slips = [
+        (-6, "is 1/1,000,000 of the recomputation, as if"),
+        (-5, "is 1/100,000 of the recomputation, as if"),
+        (-4, "is 1/10,000 of the recomputation, as if"),
+        (-3, "is 1/1,000 of the recomputation, as if"),
+        (-2, "is 1/100 of the recomputation, as if"),
+        (-1, "is 1/10 of the recomputation, as if"),
+        (1, "is per 10 people but the table says per 1"),
+        (2, "is per 100 people but the table says per 1"),
+        (3, "is per 1,000 people but the table says per 1"),
+        (4, "is per 10,000 people but the table says per 1"),
+        (5, "is per 100,000 people but the table says per 1"),
+        (6, "is per 1,000,000 people but the table says per 1"),
+    ];
+    let rows = expected(&env);
+    let slipped = twin(&env, "slipped.csv", true, 0, |i, cells| {
+        if let Some((power, _)) = slips.get(i) {
+            let per_person: f64 = rows[i]["expected_intl_per_capita"].parse().unwrap();
+            cells[2] = format!("{:e}", per_person * 10f64.powi(*power));
+        }
+    });
+    let mut args = CLAIMS.to_vec();
+    args.extend(["--currency-code", "USD", "--per", "1"]);
+    let found = findings(&audit(&env, &slipped, &args));
+    for (i, (_, want)) in slips.iter().enumerate() {
+        let line = i as u64 + 2;
+        let cause = found
+            .iter()
+            .find(|f| f["line"] == line && f["check"] == "intl+per-capita")
+            .map(|f| f["cause"].as_str().unwrap().to_string())
+            .unwrap_or_else(|| panic!("no finding on line {line}: {found:#?}"));
+        assert!(cause.contains(want), "line {line}: {cause}");
+    }
+    assert_eq!(found.len(), slips.len(), "{found:#?}");
+}
