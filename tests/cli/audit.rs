@@ -325,3 +325,55 @@ fn shares_and_changes_within_rounding_pass_and_a_half_point_slip_does_not() {
         run.stdout
     );
 }
+
+#[test]
+fn points_given_as_a_percent_change_are_named_up_to_their_rounding_and_no_further() {
+    // Invented figures, worked by hand: 10.0 to 20.0 is +100%, or +10 points. A claimed 12
+    // differs from the 10 points by 2, exactly its tolerance: half a unit of the claim (0.5)
+    // plus the raw figures' half units carried into the difference, 100 × (0.05 / 10 +
+    // 20 × 0.05 / 10²) = 1.5 (common practice: a printed figure is exact to half a unit of
+    // its last digit). A claimed 12.5 is 2.5 away against 0.05 + 1.5: neither a change nor
+    // points.
+    let env = setup();
+    let refs = small_refs(&env);
+    let change = env.write(
+        "points.csv",
+        "country,year,value,change\nChile,2019,10.0,..\nChile,2020,20.0,12\nFrance,2019,10.0,..\nFrance,2020,20.0,12.5\n",
+    );
+    let run = env.run(&[
+        "audit",
+        &change,
+        "--refs",
+        &refs,
+        "--claim",
+        "change=change",
+        "--format",
+        "json",
+    ]);
+    let report: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    let causes: Vec<(u64, String)> = report["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["check"] == "change")
+        .map(|f| {
+            (
+                f["line"].as_u64().unwrap(),
+                f["cause"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    assert_eq!(causes.len(), 2, "{causes:#?}");
+    assert_eq!(causes[0].0, 3);
+    assert!(
+        causes[0]
+            .1
+            .contains("percentage points are given as a percent change"),
+        "{causes:#?}"
+    );
+    assert_eq!(causes[1].0, 5);
+    assert!(
+        causes[1].1.contains("does not match the recomputation"),
+        "{causes:#?}"
+    );
+}
