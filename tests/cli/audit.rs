@@ -377,3 +377,39 @@ fn points_given_as_a_percent_change_are_named_up_to_their_rounding_and_no_furthe
         "{causes:#?}"
     );
 }
+
+#[test]
+fn ranks_are_recomputed_among_the_rows_that_claim_one_leaving_out_aggregates() {
+    // Invented figures. Japan claims no rank and World is an aggregate: neither takes a place,
+    // so Chile (300) is first and France (100) second. Ranking the rows without a claim would
+    // put Japan (500) first; the same table with the two ranks swapped has two wrong ranks.
+    let env = setup();
+    let refs = small_refs(&env);
+    let findings_of = |name: &str, france: &str, chile: &str| -> Vec<u64> {
+        let input = env.write(
+            name,
+            &format!("country,year,value,rank\nFrance,2020,100,{france}\nChile,2020,300,{chile}\nJapan,2020,500,..\nWorld,2020,1000,..\n"),
+        );
+        let run = env.run(&[
+            "audit",
+            &input,
+            "--refs",
+            &refs,
+            "--claim",
+            "rank=rank",
+            "--format",
+            "json",
+        ]);
+        let report: serde_json::Value = serde_json::from_str(&run.stdout)
+            .unwrap_or_else(|e| panic!("{e}: {}{}", run.stdout, run.stderr));
+        report["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|f| f["check"] == "rank")
+            .map(|f| f["line"].as_u64().unwrap())
+            .collect()
+    };
+    assert_eq!(findings_of("ranks.csv", "2", "1"), Vec::<u64>::new());
+    assert_eq!(findings_of("swapped.csv", "1", "2"), vec![2, 3]);
+}
