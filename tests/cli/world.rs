@@ -425,12 +425,13 @@ fn income_in_international_or_us_dollars_is_taken_back_to_local_currency() {
 }
 
 #[test]
-fn the_same_figures_in_xlsx_with_shared_strings_ods_and_xls_give_the_published_values() {
-    // tests/data/sheets/pwt-gdp.{xlsx,ods,xls}: the wide PWT table written by openpyxl 3.1.5
-    // (strings moved to a shared-strings table), odfpy 1.4.1 and xlwt 1.3.0 (PyPI; see
+fn the_same_figures_in_xlsx_with_shared_strings_ods_xls_and_xlsb_give_the_published_values() {
+    // tests/data/sheets/pwt-gdp.{xlsx,ods,xls,xlsb}: the wide PWT table written by openpyxl
+    // 3.1.5 (strings moved to a shared-strings table), odfpy 1.4.1, xlwt 1.3.0 (PyPI) and a
+    // BIFF12 writer after Microsoft's [MS-XLSB] specification, checked with pyxlsb 1.0.10 (see
     // tests/data/sheets/build_pwt_sheets.py), with the title in row 1.
     let env = setup();
-    for sheet in ["pwt-gdp.xlsx", "pwt-gdp.ods", "pwt-gdp.xls"] {
+    for sheet in ["pwt-gdp.xlsx", "pwt-gdp.ods", "pwt-gdp.xls", "pwt-gdp.xlsb"] {
         let run = env.run(&[
             "adjust",
             &env.data(&format!("sheets/{sheet}")),
