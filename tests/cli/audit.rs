@@ -273,12 +273,15 @@ fn shares_and_changes_within_rounding_pass_and_a_half_point_slip_does_not() {
     // so it passes (common practice: a printed figure is exact to half a unit of its last
     // digit). In floating point the difference is 1.3 + 6.7e-16 (worked in Python 3), which
     // only the tolerance's slack absorbs. In 2021, 1.000 of 8.000 is 12.5%, and 13.0 is off by
-    // 0.5 against a tolerance of 0.05 + 0.00625. Changes: 10 to 12 is +20%.
+    // 0.5 against a tolerance of 0.05 + 0.00625. In 2022, 1.0 of 4.0 claimed as 28 is off by
+    // 3 against 0.5 + 1.25 (the raw half unit is divided by the total, not multiplied: that
+    // would allow 20). In 2023 the total is zero, so no share is defined and none is checked.
+    // Changes: 10 to 12 is +20%.
     let env = setup();
     let refs = small_refs(&env);
     let shares = env.write(
         "shares.csv",
-        "country,year,value,share\nFrance,2020,1.0,26.3\nChile,2020,3.0,75.0\nFrance,2021,1.000,13.0\nChile,2021,7.000,87.5\n",
+        "country,year,value,share\nFrance,2020,1.0,26.3\nChile,2020,3.0,75.0\nFrance,2021,1.000,13.0\nChile,2021,7.000,87.5\nFrance,2022,1.0,28\nChile,2022,3.0,75\nFrance,2023,0,0\nChile,2023,0,0\n",
     );
     let run = env.run(&[
         "audit",
@@ -303,8 +306,13 @@ fn shares_and_changes_within_rounding_pass_and_a_half_point_slip_does_not() {
             )
         })
         .collect();
-    assert_eq!(errors, vec![(4, 12.5)], "{:#}", report["findings"]);
-    assert_eq!(report["claims_checked"], 4);
+    assert_eq!(
+        errors,
+        vec![(4, 12.5), (6, 25.0)],
+        "{:#}",
+        report["findings"]
+    );
+    assert_eq!(report["claims_checked"], 6);
     let change = env.write(
         "changes.csv",
         "country,year,value,change\nChile,2019,10,..\nChile,2020,12,20\nFrance,2019,50,..\nFrance,2020,40,-20.0\n",
@@ -412,4 +420,84 @@ fn ranks_are_recomputed_among_the_rows_that_claim_one_leaving_out_aggregates() {
     };
     assert_eq!(findings_of("ranks.csv", "2", "1"), Vec::<u64>::new());
     assert_eq!(findings_of("swapped.csv", "1", "2"), vec![2, 3]);
+}
+
+#[test]
+fn a_change_in_thousands_keeps_both_figures_roundings_and_nothing_more() {
+    // Invented figures, worked by hand. Chile goes from 10 to 12 (thousands): +20%. Each raw
+    // figure is exact to half a unit (0.5 thousand), so the change can lie anywhere within
+    // 100 × (0.5/10 + 12 × 0.5/10²) = 11 points of 20, plus half a unit of the claim (0.5):
+    // a claimed 31 is inside (off by 11 ≤ 11.5), 32 is not (common practice: a printed figure
+    // is exact to half a unit of its last digit). The multiplier scales figures and their
+    // roundings alike, so the bound is the same with --value-multiplier 1000 as without.
+    let env = setup();
+    let refs = small_refs(&env);
+    for (claim, errors) in [("31", 0), ("32", 1)] {
+        let input = env.write(
+            "change.csv",
+            &format!("country,year,value,change\nChile,2019,10,..\nChile,2020,12,{claim}\n"),
+        );
+        for multiplier in [None, Some("1000")] {
+            let mut args = vec!["audit", &input, "--refs", &refs, "--claim", "change=change"];
+            if let Some(m) = multiplier {
+                args.extend(["--value-multiplier", m]);
+            }
+            let run = env.run(&args);
+            assert!(
+                run.stdout.contains(&format!(
+                    "2 row(s), 1 claimed figure(s) checked; {errors} error(s)"
+                )),
+                "claim {claim}, multiplier {multiplier:?}: {}{}",
+                run.stdout,
+                run.stderr
+            );
+        }
+    }
+}
+
+#[test]
+fn a_rank_that_follows_a_wrong_claimed_figure_is_named_against_the_recomputation() {
+    // Invented figures, worked by hand from small_refs' PPPs for 2020 (France 0.2, Chile 420):
+    // France 100 / 0.2 = 500 and Chile 300000 / 420 = 714.29 international dollars, so Chile
+    // is first. The table claims Chile at 400 and ranks France first: the ranks follow the
+    // table's own figures but change once the figures are recomputed, on both lines.
+    let env = setup();
+    let refs = small_refs(&env);
+    let input = env.write(
+        "ranked.csv",
+        "country,year,value,intl,rank\nFrance,2020,100,500,1\nChile,2020,300000,400,2\n",
+    );
+    let run = env.run(&[
+        "audit",
+        &input,
+        "--refs",
+        &refs,
+        "--claim",
+        "intl=intl",
+        "--claim",
+        "rank=rank",
+        "--format",
+        "json",
+    ]);
+    let report: serde_json::Value = serde_json::from_str(&run.stdout)
+        .unwrap_or_else(|e| panic!("{e}: {}{}", run.stdout, run.stderr));
+    let ranks: Vec<(u64, f64)> = report["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["check"] == "rank")
+        .map(|f| {
+            assert!(
+                f["cause"]
+                    .as_str()
+                    .is_some_and(|c| c.contains("once the figures are recomputed")),
+                "{f:#}"
+            );
+            (
+                f["line"].as_u64().unwrap(),
+                f["recomputed"].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    assert_eq!(ranks, vec![(2, 2.0), (3, 1.0)], "{:#}", report["findings"]);
 }

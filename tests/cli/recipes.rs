@@ -236,6 +236,21 @@ fn batch_runs_every_table_reports_the_broken_one_and_equals_single_runs() {
             batch, alone,
             "batch output of {name} differs from its single run"
         );
+        // And not only equal: worked by hand from the fixture's (invented, rounded) factors,
+        // Korea 2020 is 1,200,000 won / PPP 848 = 1415.0943396... international dollars.
+        let mut reader = csv::Reader::from_reader(batch.as_slice());
+        let headers = reader.headers().unwrap().clone();
+        let column = |h: &str| headers.iter().position(|x| x == h).unwrap();
+        let korea = reader
+            .records()
+            .map(|r| r.unwrap())
+            .find(|r| &r[column("entity_code")] == "KOR" && &r[column("year")] == "2020")
+            .unwrap();
+        let adjusted: f64 = korea[column("value_adjusted")].parse().unwrap();
+        assert!(
+            (adjusted - 1_200_000.0 / 848.0).abs() < 1e-9 * adjusted,
+            "{name}: {adjusted}"
+        );
     }
 
     // A rerun does not pick up its own outputs; --fail-fast skips what follows a failure.
