@@ -13,4 +13,5 @@ if [ ! -x /usr/bin/time ]; then
   apt-get install -y time >/dev/null
 fi
 cargo build --release --locked
+export LEVELFIELD_BIN="${LEVELFIELD_BIN:-${CARGO_TARGET_DIR:-target}/release/levelfield}"
 "$VENV/bin/python" bench/run.py "$@"
