@@ -347,12 +347,12 @@ fn csv_writer<W: std::io::Write>(out: W) -> csv::Writer<W> {
         .from_writer(out)
 }
 
+fn write_error(e: std::io::Error) -> Error {
+    Error::io("the csv output", "write", e)
+}
+
 fn csv_error(e: impl std::fmt::Display) -> Error {
-    Error::io(
-        "the csv output",
-        "write",
-        std::io::Error::other(e.to_string()),
-    )
+    write_error(std::io::Error::other(e.to_string()))
 }
 
 /// The csv text of the rows of `slice` (no header line).
@@ -400,9 +400,7 @@ pub fn write_csv(
     if header {
         let mut writer = csv_writer(&mut *out);
         writer.write_record(&names).map_err(csv_error)?;
-        writer
-            .flush()
-            .map_err(|e| Error::io("the csv output", "write", e))?;
+        writer.flush().map_err(write_error)?;
     }
     let pool = &polars_core::runtime::THREAD_POOL;
     let batch = CSV_SLICE_ROWS * pool.current_num_threads().max(1);
@@ -425,14 +423,11 @@ pub fn write_csv(
                 .collect()
         });
         for text in texts {
-            out.write_all(&text?)
-                .map_err(|e| Error::io("the csv output", "write", e))?;
+            out.write_all(&text?).map_err(write_error)?;
         }
         start += batch;
     }
-    out.flush()
-        .map_err(|e| Error::io("the csv output", "write", e))?;
-    Ok(())
+    out.flush().map_err(write_error)
 }
 
 #[cfg(test)]

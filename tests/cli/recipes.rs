@@ -22,6 +22,19 @@ fn flag_args<'a>(env: &'a crate::Env, refs: &'a str, input: &'a str) -> Vec<&'a 
     ]
 }
 
+/// The `value_adjusted` cell of Korea's 2020 row in a csv output.
+fn korea_2020_adjusted(csv_bytes: &[u8]) -> String {
+    let mut reader = csv::Reader::from_reader(csv_bytes);
+    let headers = reader.headers().unwrap().clone();
+    let column = |name: &str| headers.iter().position(|h| h == name).unwrap();
+    let korea = reader
+        .records()
+        .map(|r| r.unwrap())
+        .find(|r| &r[column("entity_code")] == "KOR" && &r[column("year")] == "2020")
+        .unwrap();
+    korea[column("value_adjusted")].to_string()
+}
+
 #[test]
 fn recipe_run_is_byte_identical_to_the_flag_run_and_save_recipe_round_trips() {
     let env = setup();
@@ -65,17 +78,9 @@ fn recipe_run_is_byte_identical_to_the_flag_run_and_save_recipe_round_trips() {
     assert_eq!(a, b, "the recipe run differs from the flag run");
     // And both are right, worked by hand from the fixture's (invented, rounded) factors for
     // Korea 2020: 1,200,000 won / PPP 848 / (51.8 million people / 1000) = 0.02732 → 0.027.
-    let mut reader = csv::Reader::from_reader(b.as_slice());
-    let headers = reader.headers().unwrap().clone();
-    let column = |name: &str| headers.iter().position(|h| h == name).unwrap();
-    let korea = reader
-        .records()
-        .map(|r| r.unwrap())
-        .find(|r| &r[column("entity_code")] == "KOR" && &r[column("year")] == "2020")
-        .unwrap();
     let by_hand: f64 = 1_200_000.0 / 848.0 / (51.8e6 / 1000.0);
     assert!((by_hand - 0.027_318).abs() < 1e-6);
-    assert_eq!(&korea[column("value_adjusted")], "0.027");
+    assert_eq!(korea_2020_adjusted(&b), "0.027");
 
     // Saving the recipe of a recipe run gives the same recipe back.
     // The saved recipe writes its table above its own folder: the user allows that.
@@ -238,15 +243,7 @@ fn batch_runs_every_table_reports_the_broken_one_and_equals_single_runs() {
         );
         // And not only equal: worked by hand from the fixture's (invented, rounded) factors,
         // Korea 2020 is 1,200,000 won / PPP 848 = 1415.0943396... international dollars.
-        let mut reader = csv::Reader::from_reader(batch.as_slice());
-        let headers = reader.headers().unwrap().clone();
-        let column = |h: &str| headers.iter().position(|x| x == h).unwrap();
-        let korea = reader
-            .records()
-            .map(|r| r.unwrap())
-            .find(|r| &r[column("entity_code")] == "KOR" && &r[column("year")] == "2020")
-            .unwrap();
-        let adjusted: f64 = korea[column("value_adjusted")].parse().unwrap();
+        let adjusted: f64 = korea_2020_adjusted(&batch).parse().unwrap();
         assert!(
             (adjusted - 1_200_000.0 / 848.0).abs() < 1e-9 * adjusted,
             "{name}: {adjusted}"
