@@ -3,6 +3,9 @@
 
 use std::process::ExitCode;
 
+#[global_allocator]
+static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 fn main() -> ExitCode {
     let cli = match levelfield::cli::parse_from(std::env::args_os()) {
         Ok(cli) => cli,
