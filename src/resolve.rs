@@ -53,7 +53,8 @@ pub fn resolve_rows(
     resolver: &Resolver,
     options: &ResolveOptions,
 ) -> Result<(EntityColumns, Vec<InputBasis>)> {
-    let mut cache: HashMap<String, Option<Entity>> = HashMap::new();
+    // Each distinct text is resolved once: to its entity, or to its place among the unresolved.
+    let mut cache: HashMap<String, std::result::Result<Entity, usize>> = HashMap::new();
     let mut unresolved: Vec<UnresolvedName> = Vec::new();
     let n = ingested.rows.len();
     let mut columns = EntityColumns {
@@ -64,49 +65,43 @@ pub fn resolve_rows(
     };
     let mut bases = Vec::with_capacity(n);
     for row in ingested.rows.iter_mut() {
-        let found = cache
-            .entry(row.entity_input.clone())
-            .or_insert_with(|| match resolver.resolve(&row.entity_input) {
-                Resolution::Found(entity) => Some(entity.clone()),
+        if !cache.contains_key(&row.entity_input) {
+            let outcome = match resolver.resolve(&row.entity_input) {
+                Resolution::Found(entity) => Ok(entity.clone()),
                 Resolution::Unresolved { suggestions } => {
                     unresolved.push(UnresolvedName {
                         text: row.entity_input.clone(),
                         lines: Vec::new(),
                         suggestions,
                     });
-                    None
+                    Err(unresolved.len() - 1)
                 }
-            })
-            .clone();
-        match found {
-            Some(Entity {
-                code,
-                name,
-                kind,
-                currency,
-            }) => {
-                if kind == EntityKind::Aggregate && !options.rank_aggregates {
+            };
+            cache.insert(row.entity_input.clone(), outcome);
+        }
+        match &cache[&row.entity_input] {
+            Ok(entity) => {
+                if entity.kind == EntityKind::Aggregate && !options.rank_aggregates {
                     row.flags.push(flags::AGGREGATE.into());
                 }
                 let basis = input_basis(
                     row.currency.as_deref(),
-                    currency.as_deref(),
+                    entity.currency.as_deref(),
                     options.base_currency,
                 );
                 if basis == InputBasis::Mismatch {
                     row.flags.push(flags::CURRENCY_MISMATCH.into());
                 }
                 bases.push(basis);
-                columns.code.push(Some(code));
-                columns.name.push(Some(name));
-                columns.kind.push(Some(kind.as_str()));
-                columns.currency.push(currency);
+                columns.code.push(Some(entity.code.clone()));
+                columns.name.push(Some(entity.name.clone()));
+                columns.kind.push(Some(entity.kind.as_str()));
+                columns.currency.push(entity.currency.clone());
             }
-            None => {
-                if let Some(u) = unresolved.iter_mut().find(|u| u.text == row.entity_input) {
-                    if u.lines.last() != Some(&row.line) {
-                        u.lines.push(row.line);
-                    }
+            &Err(at) => {
+                let lines = &mut unresolved[at].lines;
+                if lines.last() != Some(&row.line) {
+                    lines.push(row.line);
                 }
                 row.flags.push(flags::UNRESOLVED.into());
                 bases.push(InputBasis::Local);
