@@ -179,7 +179,7 @@ pub fn html_escape(text: &str) -> String {
 /// and `-` are left as they are).
 pub fn runs_as_formula(text: &str) -> bool {
     text.starts_with(['=', '+', '-', '@', '\t', '\r'])
-        && crate::ingest::number::parse_cell(text, Default::default()).is_err()
+        && crate::cells::number::parse_cell(text, Default::default()).is_err()
 }
 
 /// A float column's cells (all null when the column is absent).

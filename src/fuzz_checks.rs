@@ -3,8 +3,8 @@
 //! (tests/cli/fuzz_replay.rs). Each panics when its property fails.
 
 use crate::adjust::{IncomeAs, StepSettings};
+use crate::cells::number::{parse_cell, Cell, NumberStyle};
 use crate::entity::{Resolution, Resolver};
-use crate::ingest::number::{parse_cell, Cell, NumberStyle};
 use crate::ingest::IngestOptions;
 use crate::pipeline::{run_adjust, PipelineSettings};
 use crate::rank::Order;

@@ -3,6 +3,7 @@
 //! Module map (data flows top to bottom, see DEVELOPERS.md):
 //! - `cli`: clap definitions (stage one: raw, validated arguments, no file access)
 //! - `plan`: the resolved plan (stage two: files read, references loaded, steps ordered)
+//! - `cells`: one cell's text: the exact number parser and the words of headers (bottom layer)
 //! - `ingest`: reading user tables (encoding, delimiter, long/wide layout, exact numbers)
 //! - `entity`: ISO 3166-1, publishers' name variants, aggregates, user alias files
 //! - `resolve`: entity and currency basis of every row
@@ -23,6 +24,7 @@
 pub mod adjust;
 pub mod attach;
 pub mod audit;
+pub mod cells;
 pub mod cleanup;
 pub mod cli;
 pub mod cmd;

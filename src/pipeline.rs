@@ -148,10 +148,10 @@ pub(crate) fn prepare(
     let mut flags_pre: Vec<Option<String>> = Vec::with_capacity(rows_in);
     let mut basis_text: Vec<&'static str> = Vec::with_capacity(rows_in);
     let mut eligible: Vec<bool> = Vec::with_capacity(rows_in);
-    let mut currency: Vec<Option<String>> = Vec::with_capacity(rows_in);
     let mut units: Vec<Option<String>> = Vec::with_capacity(rows_in);
     let converts = converts_currency(&settings.steps) || figures_are_not_money(settings);
-    let mut keys: HashSet<(String, i32)> = HashSet::new();
+    // The entity-years the rows need factors for, by the entity's place in `entities.found`.
+    let mut entity_years: PlHashSet<(u32, i32)> = PlHashSet::default();
     let mut any_base = false;
     for (i, row) in ingested.rows.iter_mut().enumerate() {
         let basis = if whole_table_in_base || !check_currency {
@@ -169,32 +169,32 @@ pub(crate) fn prepare(
         } else {
             Some(row.flags.join(";"))
         });
-        let kind = entities.kind[i];
+        let entity = entities.of(i);
+        let kind = entity.map(|e| e.kind.as_str());
         eligible.push(kind.is_some() && (kind != Some("aggregate") || settings.rank_aggregates));
-        currency.push(
-            row.currency
-                .clone()
-                .or_else(|| entities.currency[i].clone()),
-        );
         // The unit the adjusted value ends in, for the mixed-currency rule: one common unit
         // when a step converts currencies (or makes a ratio); else the figure's currency, or,
         // for an entity whose currency is unknown, a unit of its own.
-        units.push(if converts {
-            None
-        } else {
-            Some(
-                currency
-                    .last()
-                    .cloned()
-                    .flatten()
-                    .or_else(|| entities.code[i].clone().map(|c| format!("units of {c}")))
+        if !converts {
+            units.push(Some(
+                row.currency
+                    .clone()
+                    .or_else(|| entity.and_then(|e| e.currency.clone()))
+                    .or_else(|| entity.map(|e| format!("units of {}", e.code)))
                     .unwrap_or_default(),
-            )
-        });
-        if let (Some(code), Some(year)) = (&entities.code[i], row.year) {
-            keys.insert((code.clone(), year));
+            ));
+        }
+        if let (Some(at), Some(year)) = (entities.at[i], row.year) {
+            entity_years.insert((at, year));
         }
     }
+    if converts {
+        units = vec![None; rows_in];
+    }
+    let keys: HashSet<(String, i32)> = entity_years
+        .into_iter()
+        .map(|(at, year)| (entities.found[at as usize].code.clone(), year))
+        .collect();
     let rows = &ingested.rows;
     let frame = DataFrame::new(
         rows_in,
@@ -213,16 +213,31 @@ pub(crate) fn prepare(
                     .map(|r| r.entity_input.as_str())
                     .collect::<Vec<_>>(),
             ),
-            Column::new("entity_code".into(), entities.code.clone()),
-            Column::new("entity_name".into(), entities.name.clone()),
-            Column::new("entity_kind".into(), entities.kind.clone()),
+            Column::new(
+                "entity_code".into(),
+                (0..rows_in)
+                    .map(|i| entities.of(i).map(|e| e.code.as_str()))
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "entity_name".into(),
+                (0..rows_in)
+                    .map(|i| entities.of(i).map(|e| e.name.as_str()))
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "entity_kind".into(),
+                (0..rows_in)
+                    .map(|i| entities.of(i).map(|e| e.kind.as_str()))
+                    .collect::<Vec<_>>(),
+            ),
             Column::new(
                 "year".into(),
                 rows.iter().map(|r| r.year).collect::<Vec<_>>(),
             ),
             Column::new(
                 "group".into(),
-                rows.iter().map(|r| r.group.clone()).collect::<Vec<_>>(),
+                rows.iter().map(|r| r.group.as_deref()).collect::<Vec<_>>(),
             ),
             Column::new(
                 "value_input".into(),
@@ -234,7 +249,17 @@ pub(crate) fn prepare(
                 "value".into(),
                 rows.iter().map(|r| r.value).collect::<Vec<_>>(),
             ),
-            Column::new("currency".into(), currency),
+            Column::new(
+                "currency".into(),
+                rows.iter()
+                    .enumerate()
+                    .map(|(i, r)| {
+                        r.currency
+                            .as_deref()
+                            .or_else(|| entities.of(i).and_then(|e| e.currency.as_deref()))
+                    })
+                    .collect::<Vec<_>>(),
+            ),
             Column::new("_unit".into(), units),
             Column::new("_basis".into(), basis_text),
             Column::new("_flags_pre".into(), flags_pre),

@@ -4,6 +4,7 @@
 
 use crate::adjust::{self, Step, StepSettings};
 pub use crate::adjust::{check_step_options, check_year_option};
+use crate::cells::number::NumberStyle;
 use crate::cli::{
     AdjustArgs, ColumnArgs, IntervalKind, LeadArgs, OutputArgs, ShareUnit, UncertaintyArgs,
 };
@@ -11,7 +12,6 @@ use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::ingest::layout::{LayoutChoice, RoleFlags};
 use crate::ingest::margins::MarginSpec;
-use crate::ingest::number::NumberStyle;
 use crate::ingest::IngestOptions;
 use crate::pipeline::PipelineSettings;
 use crate::reference::{self, Basis, Kind, References};

@@ -8,16 +8,22 @@ use crate::entity::{Entity, EntityKind, Resolution, Resolver};
 use crate::error::{Error, Result, UnresolvedName};
 use crate::flags;
 use crate::ingest::Ingested;
-use std::collections::HashMap;
+use polars::prelude::PlHashMap;
 
-/// Entity columns for every row, in input order.
+/// The entity of every row, in input order: each distinct entity once, and per row its place
+/// among them (none for an unresolved name). The frame's entity columns are written from this
+/// without a string per row.
 #[derive(Debug, Clone, Default)]
 pub struct EntityColumns {
-    pub code: Vec<Option<String>>,
-    pub name: Vec<Option<String>>,
-    pub kind: Vec<Option<&'static str>>,
-    /// The ISO 4217 code the entity's reference tables are in, when known.
-    pub currency: Vec<Option<String>>,
+    pub found: Vec<Entity>,
+    pub at: Vec<Option<u32>>,
+}
+
+impl EntityColumns {
+    /// The entity of row `row`, when its name resolved.
+    pub fn of(&self, row: usize) -> Option<&Entity> {
+        self.at[row].map(|i| &self.found[i as usize])
+    }
 }
 
 /// How a figure relates to the reference tables' currencies.
@@ -53,34 +59,41 @@ pub fn resolve_rows(
     resolver: &Resolver,
     options: &ResolveOptions,
 ) -> Result<(EntityColumns, Vec<InputBasis>)> {
-    // Each distinct text is resolved once: to its entity, or to its place among the unresolved.
-    let mut cache: HashMap<String, std::result::Result<Entity, usize>> = HashMap::new();
+    // Each distinct text is resolved once: to its place among the entities found, or to its
+    // place among the unresolved.
+    let mut cache: PlHashMap<String, std::result::Result<u32, usize>> = PlHashMap::default();
     let mut unresolved: Vec<UnresolvedName> = Vec::new();
     let n = ingested.rows.len();
     let mut columns = EntityColumns {
-        code: Vec::with_capacity(n),
-        name: Vec::with_capacity(n),
-        kind: Vec::with_capacity(n),
-        currency: Vec::with_capacity(n),
+        found: Vec::new(),
+        at: Vec::with_capacity(n),
     };
     let mut bases = Vec::with_capacity(n);
     for row in ingested.rows.iter_mut() {
-        if !cache.contains_key(&row.entity_input) {
-            let outcome = match resolver.resolve(&row.entity_input) {
-                Resolution::Found(entity) => Ok(entity.clone()),
-                Resolution::Unresolved { suggestions } => {
-                    unresolved.push(UnresolvedName {
-                        text: row.entity_input.clone(),
-                        lines: Vec::new(),
-                        suggestions,
-                    });
-                    Err(unresolved.len() - 1)
-                }
-            };
-            cache.insert(row.entity_input.clone(), outcome);
-        }
-        match &cache[&row.entity_input] {
-            Ok(entity) => {
+        let outcome = match cache.get(&row.entity_input) {
+            Some(&outcome) => outcome,
+            None => {
+                let outcome = match resolver.resolve(&row.entity_input) {
+                    Resolution::Found(entity) => {
+                        columns.found.push(entity.clone());
+                        Ok(columns.found.len() as u32 - 1)
+                    }
+                    Resolution::Unresolved { suggestions } => {
+                        unresolved.push(UnresolvedName {
+                            text: row.entity_input.clone(),
+                            lines: Vec::new(),
+                            suggestions,
+                        });
+                        Err(unresolved.len() - 1)
+                    }
+                };
+                cache.insert(row.entity_input.clone(), outcome);
+                outcome
+            }
+        };
+        match outcome {
+            Ok(at) => {
+                let entity = &columns.found[at as usize];
                 if entity.kind == EntityKind::Aggregate && !options.rank_aggregates {
                     row.flags.push(flags::AGGREGATE.into());
                 }
@@ -93,22 +106,16 @@ pub fn resolve_rows(
                     row.flags.push(flags::CURRENCY_MISMATCH.into());
                 }
                 bases.push(basis);
-                columns.code.push(Some(entity.code.clone()));
-                columns.name.push(Some(entity.name.clone()));
-                columns.kind.push(Some(entity.kind.as_str()));
-                columns.currency.push(entity.currency.clone());
+                columns.at.push(Some(at));
             }
-            &Err(at) => {
+            Err(at) => {
                 let lines = &mut unresolved[at].lines;
                 if lines.last() != Some(&row.line) {
                     lines.push(row.line);
                 }
                 row.flags.push(flags::UNRESOLVED.into());
                 bases.push(InputBasis::Local);
-                columns.code.push(None);
-                columns.name.push(None);
-                columns.kind.push(None);
-                columns.currency.push(None);
+                columns.at.push(None);
             }
         }
     }

@@ -340,12 +340,12 @@ pub fn check_step_options(steps: &[&'static dyn Step], base_year: Option<i32>) -
 /// A year given as an option must be a calendar year the tables can hold.
 pub fn check_year_option(flag: &str, year: Option<i32>) -> Result<()> {
     match year {
-        Some(y) if !crate::ingest::words::YEARS.contains(&y) => Err(Error::usage(
+        Some(y) if !crate::cells::words::YEARS.contains(&y) => Err(Error::usage(
             format!("{flag} {y} is not a calendar year the tables can hold"),
             format!(
                 "pass {flag} with a four-digit year from {} to {}",
-                crate::ingest::words::YEARS.start(),
-                crate::ingest::words::YEARS.end()
+                crate::cells::words::YEARS.start(),
+                crate::cells::words::YEARS.end()
             ),
         )),
         _ => Ok(()),

@@ -6,10 +6,10 @@
 use super::claims::{half_unit, Claim, Role};
 use super::routes::{Engine, Row, Variant};
 use super::{AuditSettings, Finding, Severity};
+use crate::cells::number::{self, Cell, NumberStyle};
 use crate::entity::EntityKind;
 use crate::error::{Error, Result};
 use crate::flags;
-use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::reference::Kind;
 use std::cell::Cell as Counter;
 use std::collections::{BTreeMap, BTreeSet, HashSet};

@@ -156,8 +156,10 @@ impl Knobs {
     }
 }
 
-pub use super::words::{header_year, is_role_word, looks_like_sdmx, sdmx_code, SDMX_AREAS, YEARS};
-use super::words::{CODE_WORDS, ENTITY_NAMES, ENTITY_WORDS, VALUE_NAMES, YEAR_NAMES};
+pub use crate::cells::words::{
+    header_year, is_role_word, looks_like_sdmx, sdmx_code, SDMX_AREAS, YEARS,
+};
+use crate::cells::words::{CODE_WORDS, ENTITY_NAMES, ENTITY_WORDS, VALUE_NAMES, YEAR_NAMES};
 
 pub fn assign_roles(
     table: &TextTable,
@@ -309,7 +311,7 @@ fn find_column(
         format!(
             "{} names the column \"{}\", which is not in the header",
             knobs.name(role),
-            crate::ingest::words::shorten(name)
+            crate::cells::words::shorten(name)
         ),
         format!("one of {}", list(headers)),
         knobs.fix(role),
@@ -476,7 +478,7 @@ pub fn list(headers: &[String]) -> String {
     let quoted: Vec<String> = headers
         .iter()
         .take(SHOWN)
-        .map(|h| format!("\"{}\"", crate::ingest::words::shorten(h)))
+        .map(|h| format!("\"{}\"", crate::cells::words::shorten(h)))
         .collect();
     let more = headers.len().saturating_sub(SHOWN);
     if more > 0 {

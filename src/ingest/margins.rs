@@ -3,9 +3,9 @@
 //! standard error in the figure's own unit (after `--value-multiplier`), which the pipeline then
 //! carries through the steps.
 
+use crate::cells::number::{self, Cell, NumberStyle};
 use crate::error::{Error, Location, Result};
 use crate::flags;
-use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::uncertainty::moe::{self, Level};
 
 /// Where the uncertainty comes from.

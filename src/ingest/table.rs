@@ -19,9 +19,9 @@
 //!
 //! It knows nothing about countries; `ingest::layout` gives the columns their roles.
 
+use crate::cells::number::{self, Cell, NumberStyle};
+pub use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
-use crate::ingest::number::{self, Cell, NumberStyle};
-pub use crate::ingest::words::shorten;
 
 /// A delimited table as text cells, with the line each record starts on.
 #[derive(Debug, Clone)]
@@ -173,7 +173,7 @@ fn classify(cell: &str) -> CellClass {
     if t.is_empty() {
         return CellClass::Empty;
     }
-    if crate::ingest::words::header_year(t).is_some() {
+    if crate::cells::words::header_year(t).is_some() {
         return CellClass::Year;
     }
     match number::parse_cell(t, NumberStyle::default()) {
@@ -207,7 +207,7 @@ impl Raw {
             .iter()
             .zip(&classes)
             .filter(|(_, c)| **c == CellClass::Year)
-            .filter_map(|(cell, _)| crate::ingest::words::header_year(cell))
+            .filter_map(|(cell, _)| crate::cells::words::header_year(cell))
             .collect();
         let ordered = years.len() < 2
             || years.windows(2).all(|w| w[0] < w[1])
@@ -345,13 +345,7 @@ pub fn find_table(
             empty_lines.push(raw.line);
             continue;
         }
-        if raw
-            .record
-            .iter()
-            .map(|c| c.trim().to_lowercase())
-            .take(width)
-            .eq(header_key.iter().cloned())
-        {
+        if repeats_header(&raw.record, &header_key) {
             return Err(Error::bad_input(
                 Location::line(file, raw.line),
                 format!("this line repeats the header of line {header_line}: the file holds two tables"),
@@ -496,7 +490,7 @@ fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usiz
         let names = window[h]
             .record
             .iter()
-            .filter(|c| crate::ingest::words::is_role_word(c))
+            .filter(|c| crate::cells::words::is_role_word(c))
             .count();
         let score = (covered, exact, names);
         if best.is_none_or(|(_, b)| score > b) {
@@ -553,6 +547,25 @@ fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, 
         exact += (window[i].record.len() == width) as usize;
     }
     (covered, exact)
+}
+
+/// Whether a record's first cells are the header again (trimmed, case aside): the mark of a
+/// second table in the file. `header_key` holds the header cells lowercased. An ASCII cell is
+/// compared without lowercasing a copy (the same answer, with no allocation per cell).
+fn repeats_header(record: &csv::StringRecord, header_key: &[String]) -> bool {
+    record.len() >= header_key.len()
+        && record.iter().zip(header_key).all(|(cell, key)| {
+            let cell = cell.trim();
+            if cell.is_ascii() {
+                cell.len() == key.len()
+                    && cell
+                        .bytes()
+                        .zip(key.bytes())
+                        .all(|(c, k)| c.to_ascii_lowercase() == k)
+            } else {
+                cell.to_lowercase() == *key
+            }
+        })
 }
 
 /// Line breaks inside a record's quoted cells (the record spans that many more lines).
@@ -974,6 +987,24 @@ mod tests {
             err.contains("line 3") && err.contains("repeats the header"),
             "{err}"
         );
+    }
+
+    #[test]
+    fn a_repeated_header_is_found_whatever_its_case_spacing_or_script() {
+        let key = |h: &[&str]| h.iter().map(|c| c.to_lowercase()).collect::<Vec<_>>();
+        let record = |cells: &[&str]| csv::StringRecord::from(cells.to_vec());
+        let header = key(&["Country", "Fee"]);
+        assert!(repeats_header(&record(&[" COUNTRY ", "fee"]), &header));
+        assert!(repeats_header(
+            &record(&["country", "fee", "extra"]),
+            &header
+        ));
+        assert!(!repeats_header(&record(&["country"]), &header));
+        assert!(!repeats_header(&record(&["Chile", "fee"]), &header));
+        // Non-ASCII headers are lowercased as Unicode (Σ, É), as the header was.
+        let header = key(&["ΧΏΡΑ", "Élément"]);
+        assert!(repeats_header(&record(&["χώρα", "ÉLÉMENT"]), &header));
+        assert!(!repeats_header(&record(&["χώρα", "element"]), &header));
     }
 
     #[test]

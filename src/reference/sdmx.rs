@@ -9,9 +9,9 @@
 //! remain for one entity and year, the file is ambiguous and the error lists the series found,
 //! so the user can add the filter that picks one.
 
+use crate::cells::number::{self, Cell, NumberStyle};
 use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
-use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
 use crate::reference::factors::{check_positive, empty_table, insert_factor, RefTable};

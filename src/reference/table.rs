@@ -6,10 +6,10 @@
 //! are not errors (reference tables carry many aggregates and territories) but warnings listed
 //! once.
 
+use crate::cells::number::{self, Cell, NumberStyle};
 use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
 use crate::ingest::layout::{self, Knobs, RoleFlags, Shape, YearSource};
-use crate::ingest::number::{self, Cell, NumberStyle};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
 use crate::reference::factors::{check_positive, empty_table, insert_factor};
@@ -176,7 +176,7 @@ fn load_plain(
             .join(",");
         let power = marks
             .multiplier(record, None, file)?
-            .map_or(1.0, crate::ingest::number::to_f64);
+            .map_or(1.0, crate::cells::number::to_f64);
         for (year, column) in year_cells(text_table, &roles, record, file)? {
             let header = &text_table.headers[column];
             let cell = &record.cells[column];

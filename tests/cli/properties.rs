@@ -3,8 +3,8 @@
 //! never ranks lower, and numbers written by the writer read back unchanged.
 
 use levelfield::adjust::{IncomeAs, StepSettings};
+use levelfield::cells::number::{parse_cell, Cell, NumberStyle};
 use levelfield::entity::Resolver;
-use levelfield::ingest::number::{parse_cell, Cell, NumberStyle};
 use levelfield::ingest::IngestOptions;
 use levelfield::pipeline::{run_adjust, PipelineSettings};
 use levelfield::plan::parse_steps;

@@ -79,13 +79,13 @@ pub fn parse_cell(text: &str, style: NumberStyle) -> Result<Cell, NumberError> {
         return Err(error(
             format!(
                 "\"{}\" holds only a footnote mark",
-                crate::ingest::words::shorten(text)
+                crate::cells::words::shorten(text)
             ),
             "a number, or a missing-value mark such as .. or n/a",
         ));
     }
     let (value, float) = parse_amount(body, style).map_err(|mut e| {
-        e.reason = format!("\"{}\" {}", crate::ingest::words::shorten(text), e.reason);
+        e.reason = format!("\"{}\" {}", crate::cells::words::shorten(text), e.reason);
         e
     })?;
     Ok(Cell::Number {
