@@ -8,6 +8,7 @@
 pub mod encoding;
 pub mod layout;
 pub mod margins;
+pub mod record;
 pub mod spreadsheet;
 pub mod table;
 

@@ -22,6 +22,7 @@
 use crate::cells::number::{self, Cell, NumberStyle};
 pub use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
+pub use crate::ingest::record::Cells;
 
 /// A delimited table as text cells, with the line each record starts on.
 #[derive(Debug, Clone)]
@@ -45,8 +46,8 @@ pub struct TextTable {
 #[derive(Debug, Clone)]
 pub struct TextRecord {
     pub line: usize,
-    /// The cells, indexable as `&str` (one allocation per record, not one per cell).
-    pub cells: csv::StringRecord,
+    /// The cells, indexable as `&str` (held compactly, not one allocation per cell).
+    pub cells: Cells,
     /// The line was cut out of a runaway quote (`--lenient`): its cells are as written.
     pub unbalanced_quote: bool,
 }
@@ -189,7 +190,7 @@ struct Raw {
     /// Byte range of the record in the text (for cutting a runaway quote into lines).
     start: usize,
     end: usize,
-    record: csv::StringRecord,
+    record: Cells,
 }
 
 impl Raw {
@@ -415,10 +416,22 @@ fn parse_records(text: &str, delimiter: u8, file: &str, line_offset: usize) -> R
     let mut all: Vec<Raw> = Vec::new();
     let mut lines = LineCounter::new(text);
     lines.line += line_offset;
-    for result in reader.records() {
-        let record = result.map_err(|e| csv_error(e, file, line_offset))?;
+    // One record buffer, reused: each record is kept as compact `Cells`.
+    let mut record = csv::ByteRecord::new();
+    while reader
+        .read_byte_record(&mut record)
+        .map_err(|e| csv_error(e, file, line_offset))?
+    {
         let start = record.position().map(|p| p.byte() as usize).unwrap_or(0);
         let line = lines.line_of(start);
+        let cells = Cells::from_byte_record(&record).ok_or_else(|| {
+            Error::bad_input(
+                Location::line(file, line),
+                "the record cannot be read as text (or is longer than 4 GiB)",
+                "delimited text (CSV or TSV)",
+                "check that the right file was given",
+            )
+        })?;
         if let Some(previous) = all.last_mut() {
             previous.end = start;
         }
@@ -426,7 +439,7 @@ fn parse_records(text: &str, delimiter: u8, file: &str, line_offset: usize) -> R
             line,
             start,
             end: text.len(),
-            record,
+            record: cells,
         });
     }
     Ok(all)
@@ -552,7 +565,7 @@ fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, 
 /// Whether a record's first cells are the header again (trimmed, case aside): the mark of a
 /// second table in the file. `header_key` holds the header cells lowercased. An ASCII cell is
 /// compared without lowercasing a copy (the same answer, with no allocation per cell).
-fn repeats_header(record: &csv::StringRecord, header_key: &[String]) -> bool {
+fn repeats_header(record: &Cells, header_key: &[String]) -> bool {
     record.len() >= header_key.len()
         && record.iter().zip(header_key).all(|(cell, key)| {
             let cell = cell.trim();
@@ -681,7 +694,7 @@ fn cut_runaway(text: &str, raw: &Raw, delimiter: u8, width: usize) -> Vec<TextRe
         cells.truncate(width);
         out.push(TextRecord {
             line: raw.line + offset,
-            cells: csv::StringRecord::from(cells),
+            cells: cells.into_iter().collect(),
             unbalanced_quote: true,
         });
     }
@@ -744,14 +757,11 @@ fn split_dimensions(
                 "fix the row's first cell",
             ));
         }
-        let mut cells = csv::StringRecord::new();
-        for code in &codes {
-            cells.push_field(code);
-        }
-        for cell in record.cells.iter().skip(1) {
-            cells.push_field(cell);
-        }
-        record.cells = cells;
+        record.cells = codes
+            .iter()
+            .map(String::as_str)
+            .chain(record.cells.iter().skip(1))
+            .collect();
     }
     let mut expanded = names;
     expanded.extend(headers.drain(1..));
@@ -807,7 +817,7 @@ impl<'a> LineCounter<'a> {
     }
 }
 
-fn clean_headers(record: &csv::StringRecord, file: &str, line: usize) -> Result<Vec<String>> {
+fn clean_headers(record: &Cells, file: &str, line: usize) -> Result<Vec<String>> {
     let mut headers: Vec<String> = Vec::with_capacity(record.len());
     let mut seen: std::collections::HashMap<String, usize> = Default::default();
     for (i, raw) in record.iter().enumerate() {
@@ -992,7 +1002,7 @@ mod tests {
     #[test]
     fn a_repeated_header_is_found_whatever_its_case_spacing_or_script() {
         let key = |h: &[&str]| h.iter().map(|c| c.to_lowercase()).collect::<Vec<_>>();
-        let record = |cells: &[&str]| csv::StringRecord::from(cells.to_vec());
+        let record = |cells: &[&str]| cells.iter().collect::<Cells>();
         let header = key(&["Country", "Fee"]);
         assert!(repeats_header(&record(&[" COUNTRY ", "fee"]), &header));
         assert!(repeats_header(
