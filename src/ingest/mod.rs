@@ -9,10 +9,12 @@ pub mod encoding;
 pub mod layout;
 pub mod margins;
 pub mod record;
+mod rows;
+pub(crate) use rows::RecordMarks;
 pub mod spreadsheet;
 pub mod table;
 
-use crate::cells::number::{self, Cell, NumberStyle};
+use crate::cells::number::NumberStyle;
 use crate::entity::Resolver;
 use crate::error::{Error, Location, Result};
 use crate::flags;
@@ -87,42 +89,12 @@ pub fn ingest(
     options: &IngestOptions,
     resolver: Option<&Resolver>,
 ) -> Result<Ingested> {
-    let (decoded, delimiter, mut sheet_notes, formula_rows) = if file
-        .to_ascii_lowercase()
-        .ends_with(".parquet")
-    {
-        (
-            encoding::Decoded {
-                text: parquet_as_csv(bytes, file)?,
-                description: "Parquet".into(),
-                encoding: None,
-            },
-            b',',
-            Vec::new(),
-            Vec::new(),
-        )
-    } else if spreadsheet::is_spreadsheet(file) {
-        let (text, notes, formula_rows) =
-            spreadsheet::sheet_to_csv(bytes, file, options.sheet.as_deref(), options.header_row)?;
-        (
-            encoding::Decoded {
-                text,
-                description: "spreadsheet".into(),
-                encoding: None,
-            },
-            b',',
-            notes,
-            formula_rows,
-        )
-    } else {
-        let decoded = encoding::decode(bytes, options.encoding, file)?;
-        let delimiter = match options.delimiter {
-            Some(d) => d,
-            None if file.ends_with(".tsv") || file.ends_with(".tab") => b'\t',
-            None => table::sniff_delimiter(&decoded.text),
-        };
-        (decoded, delimiter, Vec::new(), Vec::new())
-    };
+    let DecodedInput {
+        decoded,
+        delimiter,
+        mut sheet_notes,
+        formula_rows,
+    } = decode_input(bytes, file, options)?;
     let mut role_flags = options.roles.clone();
     let margin_count = options.margins.columns().len();
     role_flags.reserved = options.margins.columns();
@@ -148,7 +120,96 @@ pub fn ingest(
         ));
     }
 
-    let mut notes = vec![if decoded.encoding.is_some() {
+    let mut notes = vec![source_note(file, &decoded, delimiter, &table)];
+    notes.append(&mut sheet_notes);
+    notes.extend(reading_notes(&table));
+    let entity_column = table.headers[roles.entity].clone();
+    notes.extend(role_notes(&table, &roles));
+    if table.records.is_empty() {
+        notes.push("the table has no data rows (only a header)".into());
+    }
+    notes.extend(option_notes(options));
+
+    let currency_code = match &options.currency_code {
+        Some(code) => Some(rows::checked_currency(code, None, file)?),
+        None => None,
+    };
+    // A statistics-office TSV: dimensions other than the entity that take several values in
+    // the file become the group (unless --group names one), so that each series ranks alone.
+    let auto_group = varying_dimensions(&table, &roles);
+    if !auto_group.is_empty() {
+        let names: Vec<&str> = auto_group
+            .iter()
+            .map(|&d| table.headers[d].as_str())
+            .collect();
+        notes.push(format!(
+            "group: the dimension(s) {} take several values, so each of their series is ranked on its own (--group DIM to choose)",
+            names.join(", ")
+        ));
+    }
+    let marks = rows::RecordMarks::find(&table, &roles);
+    if let (Some(p), Some(_)) = (marks.power, options.value_multiplier) {
+        return Err(Error::usage(
+            format!(
+                "{file} states each figure's power of ten in column \"{}\", and --value-multiplier scales them again",
+                table.headers[p]
+            ),
+            "drop --value-multiplier: the column already says the unit of every figure",
+        ));
+    }
+    notes.extend(marks.describe(&table));
+    let unused: Vec<String> = roles
+        .ignored
+        .iter()
+        .filter(|h| !auto_group.iter().any(|&d| &table.headers[d] == *h))
+        .filter(|h| !marks.uses(&table, h))
+        .cloned()
+        .collect();
+    if !unused.is_empty() {
+        notes.push(format!("columns not used: {}", layout::list(&unused)));
+    }
+    let mut rows = rows::read_rows(
+        &table,
+        &rows::RowPlan {
+            file,
+            options,
+            roles: &roles,
+            marks: &marks,
+            auto_group: &auto_group,
+            currency_code: currency_code.as_deref(),
+            margin_count,
+        },
+    )?;
+    // Formulas are never evaluated: a row whose sheet row holds one says so.
+    for row in rows.iter_mut().filter(|r| formula_rows.contains(&r.line)) {
+        row.flags.push(flags::FORMULA_CELL.into());
+    }
+    let roles_used = roles_used(&table, &roles);
+    let warnings = reading_warnings(&table, &rows, options);
+    Ok(Ingested {
+        rows,
+        file: file.to_string(),
+        notes,
+        entity_column,
+        has_group: roles.group.is_some() || !auto_group.is_empty(),
+        data_lines: table.records.len(),
+        dimensioned: !table.dimensions.is_empty(),
+        warnings,
+        headers: table.headers,
+        delimiter,
+        encoding: decoded.encoding,
+        roles_used,
+    })
+}
+
+/// The first note: what was read, as what, and how many data lines it holds.
+fn source_note(
+    file: &str,
+    decoded: &encoding::Decoded,
+    delimiter: u8,
+    table: &table::TextTable,
+) -> String {
+    if decoded.encoding.is_some() {
         format!(
             "read {file}: {}, {} delimiter, {} data line(s)",
             decoded.description,
@@ -161,10 +222,27 @@ pub fn ingest(
             decoded.description,
             table.records.len()
         )
-    }];
-    notes.append(&mut sheet_notes);
-    notes.extend(reading_notes(&table));
-    let entity_column = table.headers[roles.entity].clone();
+    }
+}
+
+/// What the options change in every figure: margins and a multiplier.
+fn option_notes(options: &IngestOptions) -> Vec<String> {
+    let mut notes = Vec::new();
+    if let Some(text) = options.margins.describe() {
+        notes.push(format!("uncertainty: {text}"));
+    }
+    if let Some(m) = options.value_multiplier {
+        notes.push(format!(
+            "every value multiplied by {m} (--value-multiplier) before any step"
+        ));
+    }
+    notes
+}
+
+/// Which columns play which role, and the table's shape, for the run summary.
+fn role_notes(table: &table::TextTable, roles: &layout::Roles) -> Vec<String> {
+    let entity_column = &table.headers[roles.entity];
+    let mut notes = Vec::new();
     if let Some(name) = roles.entity_fallback {
         notes.push(format!(
             "rows with an empty \"{entity_column}\" are read by their \"{}\"",
@@ -208,25 +286,13 @@ pub fn ingest(
             ));
         }
     }
-    if table.records.is_empty() {
-        notes.push("the table has no data rows (only a header)".into());
-    }
-    if let Some(text) = options.margins.describe() {
-        notes.push(format!("uncertainty: {text}"));
-    }
-    if let Some(m) = options.value_multiplier {
-        notes.push(format!(
-            "every value multiplied by {m} (--value-multiplier) before any step"
-        ));
-    }
+    notes
+}
 
-    let currency_code = match &options.currency_code {
-        Some(code) => Some(checked_currency(code, None, file)?),
-        None => None,
-    };
-    // A statistics-office TSV: dimensions other than the entity that take several values in
-    // the file become the group (unless --group names one), so that each series ranks alone.
-    let auto_group: Vec<usize> = if roles.group.is_none() {
+/// The dimension columns of a statistics-office TSV, other than the entity, that take several
+/// values in the file (none when the user named a group).
+fn varying_dimensions(table: &table::TextTable, roles: &layout::Roles) -> Vec<usize> {
+    if roles.group.is_none() {
         table
             .dimensions
             .iter()
@@ -242,152 +308,66 @@ pub fn ingest(
             .collect()
     } else {
         Vec::new()
-    };
-    if !auto_group.is_empty() {
-        let names: Vec<&str> = auto_group
-            .iter()
-            .map(|&d| table.headers[d].as_str())
-            .collect();
-        notes.push(format!(
-            "group: the dimension(s) {} take several values, so each of their series is ranked on its own (--group DIM to choose)",
-            names.join(", ")
-        ));
     }
-    let marks = RecordMarks::find(&table, &roles);
-    if let (Some(p), Some(_)) = (marks.power, options.value_multiplier) {
-        return Err(Error::usage(
-            format!(
-                "{file} states each figure's power of ten in column \"{}\", and --value-multiplier scales them again",
-                table.headers[p]
-            ),
-            "drop --value-multiplier: the column already says the unit of every figure",
-        ));
-    }
-    notes.extend(marks.describe(&table));
-    let unused: Vec<String> = roles
-        .ignored
-        .iter()
-        .filter(|h| !auto_group.iter().any(|&d| &table.headers[d] == *h))
-        .filter(|h| !marks.uses(&table, h))
-        .cloned()
-        .collect();
-    if !unused.is_empty() {
-        notes.push(format!("columns not used: {}", layout::list(&unused)));
-    }
-    let reader = RowReader {
-        file,
-        options,
-        currency_code: currency_code.as_deref(),
-    };
+}
 
-    let sdmx = layout::looks_like_sdmx(&table.headers);
-    // Sized once: growing a vector of a million rows copies it and touches fresh pages at
-    // every doubling, which cost a tenth of a 1M-row run.
-    let rows_per_record = match &roles.shape {
-        Shape::Long { .. } => 1,
-        Shape::Wide { year_columns } => year_columns.len(),
+/// The input as text, with the delimiter to read it by; a spreadsheet's notes and the sheet rows
+/// that hold formulas come along.
+struct DecodedInput {
+    decoded: encoding::Decoded,
+    delimiter: u8,
+    sheet_notes: Vec<String>,
+    formula_rows: Vec<usize>,
+}
+
+fn decode_input(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<DecodedInput> {
+    let (decoded, delimiter, sheet_notes, formula_rows) = if file
+        .to_ascii_lowercase()
+        .ends_with(".parquet")
+    {
+        (
+            encoding::Decoded {
+                text: parquet_as_csv(bytes, file)?,
+                description: "Parquet".into(),
+                encoding: None,
+            },
+            b',',
+            Vec::new(),
+            Vec::new(),
+        )
+    } else if spreadsheet::is_spreadsheet(file) {
+        let (text, notes, formula_rows) =
+            spreadsheet::sheet_to_csv(bytes, file, options.sheet.as_deref(), options.header_row)?;
+        (
+            encoding::Decoded {
+                text,
+                description: "spreadsheet".into(),
+                encoding: None,
+            },
+            b',',
+            notes,
+            formula_rows,
+        )
+    } else {
+        let decoded = encoding::decode(bytes, options.encoding, file)?;
+        let delimiter = match options.delimiter {
+            Some(d) => d,
+            None if file.ends_with(".tsv") || file.ends_with(".tab") => b'\t',
+            None => table::sniff_delimiter(&decoded.text),
+        };
+        (decoded, delimiter, Vec::new(), Vec::new())
     };
-    let mut rows = Vec::with_capacity(table.records.len() * rows_per_record);
-    for (index, record) in table.records.iter().enumerate() {
-        let data_row = index + 1 + options.row_offset;
-        let entity_input = match roles.entity_fallback {
-            Some(name) if record.cells[roles.entity].trim().is_empty() => {
-                record.cells[name].to_string()
-            }
-            // SDMX-CSV 2.0 may label its codes (`AUS: Australia`): the code names the entity.
-            _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]).to_string(),
-            _ => record.cells[roles.entity].to_string(),
-        };
-        let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
-        let group = if auto_group.is_empty() {
-            roles
-                .group
-                .map(|g| record.cells[g].trim().to_string())
-                .filter(|g| !g.is_empty())
-        } else {
-            Some(
-                auto_group
-                    .iter()
-                    .map(|&d| record.cells[d].trim())
-                    .collect::<Vec<_>>()
-                    .join(","),
-            )
-        };
-        let currency_cell = roles
-            .currency
-            .map(|c| (table.headers[c].as_str(), &record.cells[c]));
-        match &roles.shape {
-            Shape::Long { value, year, .. } => {
-                let mut row_flags = marks.flags(record);
-                let year = match year {
-                    YearSource::Fixed(y) => Some(*y),
-                    YearSource::Column { index, .. } => reader.year(
-                        &record.cells[*index],
-                        record.line,
-                        &table.headers[*index],
-                        &mut row_flags,
-                    )?,
-                };
-                let mut row = reader.row(
-                    data_row.to_string(),
-                    record.line,
-                    entity_input,
-                    year,
-                    group,
-                    Figure {
-                        cell: &record.cells[*value],
-                        column: &table.headers[*value],
-                        multiplier,
-                    },
-                    currency_cell,
-                    row_flags,
-                )?;
-                let cells = margins::MarginCells {
-                    cells: roles.reserved[..margin_count]
-                        .iter()
-                        .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
-                        .collect(),
-                };
-                row.se = margins::standard_error(
-                    &options.margins,
-                    row.value,
-                    &cells,
-                    multiplier.map(number::to_f64).unwrap_or(1.0),
-                    file,
-                    record.line,
-                    &mut row.flags,
-                )?;
-                row.extra = roles.reserved[margin_count..]
-                    .iter()
-                    .map(|&i| record.cells[i].to_string())
-                    .collect();
-                rows.push(row);
-            }
-            Shape::Wide { year_columns } => {
-                for &(column, year) in year_columns {
-                    rows.push(reader.row(
-                        format!("{data_row}:{year}"),
-                        record.line,
-                        entity_input.clone(),
-                        Some(year),
-                        group.clone(),
-                        Figure {
-                            cell: &record.cells[column],
-                            column: &table.headers[column],
-                            multiplier,
-                        },
-                        currency_cell,
-                        marks.flags(record),
-                    )?);
-                }
-            }
-        }
-    }
-    // Formulas are never evaluated: a row whose sheet row holds one says so.
-    for row in rows.iter_mut().filter(|r| formula_rows.contains(&r.line)) {
-        row.flags.push(flags::FORMULA_CELL.into());
-    }
-    let roles_used = RoleFlags {
+    Ok(DecodedInput {
+        decoded,
+        delimiter,
+        sheet_notes,
+        formula_rows,
+    })
+}
+
+/// The roles the columns got, as flags: what a later piece of the same file is read with.
+fn roles_used(table: &table::TextTable, roles: &layout::Roles) -> RoleFlags {
+    RoleFlags {
         entity: Some(table.headers[roles.entity].clone()),
         value: match &roles.shape {
             Shape::Long { value, .. } => Some(table.headers[*value].clone()),
@@ -415,22 +395,7 @@ pub fn ingest(
         },
         reserved: Vec::new(),
         knobs: layout::Knobs::Flags,
-    };
-    let warnings = reading_warnings(&table, &rows, options);
-    Ok(Ingested {
-        rows,
-        file: file.to_string(),
-        notes,
-        entity_column,
-        has_group: roles.group.is_some() || !auto_group.is_empty(),
-        data_lines: table.records.len(),
-        dimensioned: !table.dimensions.is_empty(),
-        warnings,
-        headers: table.headers,
-        delimiter,
-        encoding: decoded.encoding,
-        roles_used,
-    })
+    }
 }
 
 /// A Parquet file as CSV text, every number at full precision (shortest text that reads back to
@@ -449,134 +414,6 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
         })?;
     // Read as it is: no formula guard on an input.
     crate::format::render_csv(&frame, crate::format::Rounding::Full, false)
-}
-
-/// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a
-/// unit-multiplier column's power of ten).
-struct Figure<'a> {
-    cell: &'a str,
-    column: &'a str,
-    multiplier: Option<Decimal>,
-}
-
-/// What a record says about its figures beyond the value: a footnote column (a data portal's
-/// "Value Footnotes"), a unit-multiplier column (OECD's "PowerCode Code", SDMX's UNIT_MULT:
-/// a power of ten), and the line's quoting.
-pub(crate) struct RecordMarks {
-    footnotes: Vec<usize>,
-    power: Option<usize>,
-}
-
-/// Headers of unit-multiplier columns: the figure is times ten to the cell (common practice of
-/// OECD.Stat exports and SDMX).
-const POWER_HEADERS: &[&str] = &[
-    "powercode code",
-    "unit_mult",
-    "unit multiplier",
-    "unit_multiplier",
-];
-/// Headers of status columns whose filled cells mark a figure (Eurostat's OBS_FLAG, OECD's
-/// "Flag Codes"), besides any header with "footnote" in it. SDMX's OBS_STATUS is left out: its
-/// "A" means a normal value.
-const FLAG_HEADERS: &[&str] = &["obs_flag", "flag codes", "flags"];
-
-impl RecordMarks {
-    pub(crate) fn find(table: &table::TextTable, roles: &layout::Roles) -> RecordMarks {
-        let ignored: std::collections::HashSet<&str> =
-            roles.ignored.iter().map(String::as_str).collect();
-        let unused = |i: &usize| ignored.contains(table.headers[*i].as_str());
-        let columns = 0..table.headers.len();
-        RecordMarks {
-            footnotes: columns
-                .clone()
-                .filter(unused)
-                .filter(|&i| {
-                    let h = layout::sdmx_code(&table.headers[i]).to_lowercase();
-                    h.contains("footnote") || FLAG_HEADERS.contains(&h.as_str())
-                })
-                .collect(),
-            power: columns.filter(unused).find(|&i| {
-                POWER_HEADERS
-                    .contains(&layout::sdmx_code(&table.headers[i]).to_lowercase().as_str())
-            }),
-        }
-    }
-
-    /// Whether the column headed `header` is one of the marks (so it is used, not ignored).
-    fn uses(&self, table: &table::TextTable, header: &str) -> bool {
-        self.footnotes
-            .iter()
-            .chain(self.power.iter())
-            .any(|&i| table.headers[i] == header)
-    }
-
-    pub(crate) fn describe(&self, table: &table::TextTable) -> Vec<String> {
-        let mut notes = Vec::new();
-        if let Some(p) = self.power {
-            notes.push(format!(
-                "figures scaled by ten to the power in column \"{}\"",
-                table.headers[p]
-            ));
-        }
-        for &f in &self.footnotes {
-            notes.push(format!(
-                "rows with a footnote in column \"{}\" are flagged footnote",
-                table.headers[f]
-            ));
-        }
-        notes
-    }
-
-    fn flags(&self, record: &table::TextRecord) -> Vec<String> {
-        let mut out = Vec::new();
-        if record.unbalanced_quote {
-            out.push(flags::UNBALANCED_QUOTE.into());
-        }
-        if self
-            .footnotes
-            .iter()
-            .any(|&f| !record.cells[f].trim().is_empty())
-        {
-            out.push(flags::FOOTNOTE.into());
-        }
-        out
-    }
-
-    /// The row's multiplier: `--value-multiplier` times ten to the power in the unit-multiplier
-    /// column, exactly.
-    pub(crate) fn multiplier(
-        &self,
-        record: &table::TextRecord,
-        given: Option<Decimal>,
-        file: &str,
-    ) -> Result<Option<Decimal>> {
-        let Some(p) = self.power else {
-            return Ok(given);
-        };
-        // SDMX-CSV 2.0 labels its codes: `6: Millions`.
-        let text = layout::sdmx_code(&record.cells[p]);
-        if text.is_empty() {
-            return Ok(given);
-        }
-        let power = text
-            .parse::<i32>()
-            .ok()
-            .filter(|k| (-12..=12).contains(k))
-            .ok_or_else(|| {
-                Error::bad_input(
-                    Location::cell(file, record.line, format!("column {}", p + 1)),
-                    format!("\"{}\" is not a power of ten", table::shorten(text)),
-                    "an integer from -12 to 12 (3 for thousands, 6 for millions)",
-                    "fix the cell",
-                )
-            })?;
-        let scale = if power >= 0 {
-            Decimal::from(10i64.pow(power as u32))
-        } else {
-            Decimal::new(1, (-power) as u32)
-        };
-        Ok(Some(given.unwrap_or(Decimal::ONE) * scale))
-    }
 }
 
 /// Warnings about the reading: lines set aside (never read as rows), and a semicolon table
@@ -642,146 +479,6 @@ pub fn reading_notes(table: &table::TextTable) -> Vec<String> {
         ));
     }
     notes
-}
-
-struct RowReader<'a> {
-    file: &'a str,
-    options: &'a IngestOptions,
-    currency_code: Option<&'a str>,
-}
-
-impl RowReader<'_> {
-    #[allow(clippy::too_many_arguments)]
-    fn row(
-        &self,
-        row_id: String,
-        line: usize,
-        entity_input: String,
-        year: Option<i32>,
-        group: Option<String>,
-        figure: Figure,
-        currency_cell: Option<(&str, &str)>,
-        mut row_flags: Vec<String>,
-    ) -> Result<CanonicalRow> {
-        let Figure {
-            cell,
-            column,
-            multiplier,
-        } = figure;
-        let value = match number::parse_cell(cell, self.options.number_style) {
-            Ok(Cell::Number {
-                value,
-                float,
-                footnote,
-            }) => {
-                if footnote {
-                    row_flags.push(flags::FOOTNOTE.into());
-                }
-                match multiplier {
-                    Some(m) => Some(number::to_f64(value.checked_mul(m).ok_or_else(|| {
-                        Error::bad_input(
-                            Location::cell(self.file, line, column),
-                            format!("\"{cell}\" times the multiplier {m} is too large for an exact decimal"),
-                            "a value that stays below about 7.9e28 after --value-multiplier",
-                            "use a smaller --value-multiplier",
-                        )
-                    })?)),
-                    None => Some(float),
-                }
-            }
-            Ok(Cell::Missing) => {
-                row_flags.push(flags::MISSING_VALUE.into());
-                None
-            }
-            Err(e) if self.options.lenient => {
-                let _ = e;
-                row_flags.push(flags::UNPARSED.into());
-                None
-            }
-            Err(e) => {
-                let fix = if cell.contains('\n') {
-                    "the cell spans several lines: a quote is probably not closed on this line"
-                } else {
-                    "correct the cell, or pass --lenient to keep such rows flagged `unparsed`"
-                };
-                return Err(Error::bad_input(
-                    Location::cell(self.file, line, column),
-                    e.reason,
-                    e.hint,
-                    fix,
-                ));
-            }
-        };
-        let currency = match currency_cell {
-            Some((header, text)) if !text.trim().is_empty() => {
-                match checked_currency(text, Some((line, header)), self.file) {
-                    Ok(code) => Some(code),
-                    Err(_) if self.options.lenient => {
-                        row_flags.push(flags::UNKNOWN_CURRENCY.into());
-                        None
-                    }
-                    Err(e) => return Err(e),
-                }
-            }
-            _ => self.currency_code.map(str::to_string),
-        };
-        Ok(CanonicalRow {
-            row_id,
-            line,
-            entity_input,
-            year,
-            group,
-            value_input: cell.to_string(),
-            value,
-            se: None,
-            extra: Vec::new(),
-            currency,
-            flags: row_flags,
-        })
-    }
-
-    fn year(
-        &self,
-        cell: &str,
-        line: usize,
-        column: &str,
-        row_flags: &mut Vec<String>,
-    ) -> Result<Option<i32>> {
-        match layout::parse_year_cell(cell) {
-            Ok(Some(year)) => Ok(Some(year)),
-            Ok(None) => {
-                row_flags.push(flags::MISSING_YEAR.into());
-                Ok(None)
-            }
-            Err(_) if self.options.lenient => {
-                row_flags.push(flags::UNPARSED_YEAR.into());
-                Ok(None)
-            }
-            Err(text) => Err(Error::bad_input(
-                Location::cell(self.file, line, column),
-                format!("\"{text}\" is not a calendar year"),
-                "a four-digit calendar year (1000-2200) such as 2021; fiscal-year labels (2019/20, FY2021) are not matched to reference years automatically",
-                "relabel the year with the calendar year your reference tables use for it, or pass --lenient to keep the row flagged `unparsed_year`",
-            )),
-        }
-    }
-}
-
-fn checked_currency(text: &str, cell: Option<(usize, &str)>, file: &str) -> Result<String> {
-    let code = text.trim().to_uppercase();
-    if Resolver::is_valid_currency_code(&code) {
-        return Ok(code);
-    }
-    let location = match cell {
-        Some((line, column)) => Location::cell(file, line, column),
-        None => Location::file("--currency-code"),
-    };
-    Err(Error::bad_input(
-        location,
-        format!("\"{}\" is not an ISO 4217 currency code", text.trim()),
-        "a three-letter ISO 4217 code such as USD, EUR or JPY",
-        "correct the code; leave the currency out for figures in each country's own currency",
-    ))
 }
 
 #[cfg(test)]

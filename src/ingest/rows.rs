@@ -1,0 +1,421 @@
+//! Reading the records of a found table into canonical rows: the entity text, year, group and
+//! figure of each, with the marks a record carries (footnote and status columns, a power of
+//! ten, a quote cut out of a runaway) and the flags raised on the way. Long tables give a row
+//! per record, wide ones a row per year column.
+
+use super::layout::{self, Shape, YearSource};
+use super::{margins, table, CanonicalRow, IngestOptions};
+use crate::cells::number::{self, Cell};
+use crate::entity::Resolver;
+use crate::error::{Error, Location, Result};
+use crate::flags;
+use rust_decimal::Decimal;
+
+/// What `read_rows` reads each record with.
+#[derive(Clone, Copy)]
+pub(super) struct RowPlan<'a> {
+    pub file: &'a str,
+    pub options: &'a IngestOptions,
+    pub roles: &'a layout::Roles,
+    pub marks: &'a RecordMarks,
+    /// Dimension columns joined into the group (a statistics-office TSV), else empty.
+    pub auto_group: &'a [usize],
+    pub currency_code: Option<&'a str>,
+    /// The first `margin_count` reserved columns are margins; the rest are carried as text.
+    pub margin_count: usize,
+}
+
+/// The canonical rows of `table`, in its order.
+pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<CanonicalRow>> {
+    let RowPlan {
+        file,
+        options,
+        roles,
+        marks,
+        auto_group,
+        currency_code,
+        margin_count,
+    } = *plan;
+    let reader = RowReader {
+        file,
+        options,
+        currency_code,
+    };
+
+    let sdmx = layout::looks_like_sdmx(&table.headers);
+    // Sized once: growing a vector of a million rows copies it and touches fresh pages at
+    // every doubling, which cost a tenth of a 1M-row run.
+    let rows_per_record = match &roles.shape {
+        Shape::Long { .. } => 1,
+        Shape::Wide { year_columns } => year_columns.len(),
+    };
+    let mut rows = Vec::with_capacity(table.records.len() * rows_per_record);
+    for (index, record) in table.records.iter().enumerate() {
+        let data_row = index + 1 + options.row_offset;
+        let entity_input = match roles.entity_fallback {
+            Some(name) if record.cells[roles.entity].trim().is_empty() => {
+                record.cells[name].to_string()
+            }
+            // SDMX-CSV 2.0 may label its codes (`AUS: Australia`): the code names the entity.
+            _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]).to_string(),
+            _ => record.cells[roles.entity].to_string(),
+        };
+        let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
+        let group = if auto_group.is_empty() {
+            roles
+                .group
+                .map(|g| record.cells[g].trim().to_string())
+                .filter(|g| !g.is_empty())
+        } else {
+            Some(
+                auto_group
+                    .iter()
+                    .map(|&d| record.cells[d].trim())
+                    .collect::<Vec<_>>()
+                    .join(","),
+            )
+        };
+        let currency_cell = roles
+            .currency
+            .map(|c| (table.headers[c].as_str(), &record.cells[c]));
+        match &roles.shape {
+            Shape::Long { value, year, .. } => {
+                let mut row_flags = marks.flags(record);
+                let year = match year {
+                    YearSource::Fixed(y) => Some(*y),
+                    YearSource::Column { index, .. } => reader.year(
+                        &record.cells[*index],
+                        record.line,
+                        &table.headers[*index],
+                        &mut row_flags,
+                    )?,
+                };
+                let mut row = reader.row(
+                    data_row.to_string(),
+                    record.line,
+                    entity_input,
+                    year,
+                    group,
+                    Figure {
+                        cell: &record.cells[*value],
+                        column: &table.headers[*value],
+                        multiplier,
+                    },
+                    currency_cell,
+                    row_flags,
+                )?;
+                let cells = margins::MarginCells {
+                    cells: roles.reserved[..margin_count]
+                        .iter()
+                        .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
+                        .collect(),
+                };
+                row.se = margins::standard_error(
+                    &options.margins,
+                    row.value,
+                    &cells,
+                    multiplier.map(number::to_f64).unwrap_or(1.0),
+                    file,
+                    record.line,
+                    &mut row.flags,
+                )?;
+                row.extra = roles.reserved[margin_count..]
+                    .iter()
+                    .map(|&i| record.cells[i].to_string())
+                    .collect();
+                rows.push(row);
+            }
+            Shape::Wide { year_columns } => {
+                for &(column, year) in year_columns {
+                    rows.push(reader.row(
+                        format!("{data_row}:{year}"),
+                        record.line,
+                        entity_input.clone(),
+                        Some(year),
+                        group.clone(),
+                        Figure {
+                            cell: &record.cells[column],
+                            column: &table.headers[column],
+                            multiplier,
+                        },
+                        currency_cell,
+                        marks.flags(record),
+                    )?);
+                }
+            }
+        }
+    }
+    Ok(rows)
+}
+
+/// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a
+/// unit-multiplier column's power of ten).
+struct Figure<'a> {
+    cell: &'a str,
+    column: &'a str,
+    multiplier: Option<Decimal>,
+}
+
+/// What a record says about its figures beyond the value: a footnote column (a data portal's
+/// "Value Footnotes"), a unit-multiplier column (OECD's "PowerCode Code", SDMX's UNIT_MULT:
+/// a power of ten), and the line's quoting.
+pub(crate) struct RecordMarks {
+    footnotes: Vec<usize>,
+    pub(super) power: Option<usize>,
+}
+
+/// Headers of unit-multiplier columns: the figure is times ten to the cell (common practice of
+/// OECD.Stat exports and SDMX).
+const POWER_HEADERS: &[&str] = &[
+    "powercode code",
+    "unit_mult",
+    "unit multiplier",
+    "unit_multiplier",
+];
+/// Headers of status columns whose filled cells mark a figure (Eurostat's OBS_FLAG, OECD's
+/// "Flag Codes"), besides any header with "footnote" in it. SDMX's OBS_STATUS is left out: its
+/// "A" means a normal value.
+const FLAG_HEADERS: &[&str] = &["obs_flag", "flag codes", "flags"];
+
+impl RecordMarks {
+    pub(crate) fn find(table: &table::TextTable, roles: &layout::Roles) -> RecordMarks {
+        let ignored: std::collections::HashSet<&str> =
+            roles.ignored.iter().map(String::as_str).collect();
+        let unused = |i: &usize| ignored.contains(table.headers[*i].as_str());
+        let columns = 0..table.headers.len();
+        RecordMarks {
+            footnotes: columns
+                .clone()
+                .filter(unused)
+                .filter(|&i| {
+                    let h = layout::sdmx_code(&table.headers[i]).to_lowercase();
+                    h.contains("footnote") || FLAG_HEADERS.contains(&h.as_str())
+                })
+                .collect(),
+            power: columns.filter(unused).find(|&i| {
+                POWER_HEADERS
+                    .contains(&layout::sdmx_code(&table.headers[i]).to_lowercase().as_str())
+            }),
+        }
+    }
+
+    /// Whether the column headed `header` is one of the marks (so it is used, not ignored).
+    pub(super) fn uses(&self, table: &table::TextTable, header: &str) -> bool {
+        self.footnotes
+            .iter()
+            .chain(self.power.iter())
+            .any(|&i| table.headers[i] == header)
+    }
+
+    pub(crate) fn describe(&self, table: &table::TextTable) -> Vec<String> {
+        let mut notes = Vec::new();
+        if let Some(p) = self.power {
+            notes.push(format!(
+                "figures scaled by ten to the power in column \"{}\"",
+                table.headers[p]
+            ));
+        }
+        for &f in &self.footnotes {
+            notes.push(format!(
+                "rows with a footnote in column \"{}\" are flagged footnote",
+                table.headers[f]
+            ));
+        }
+        notes
+    }
+
+    fn flags(&self, record: &table::TextRecord) -> Vec<String> {
+        let mut out = Vec::new();
+        if record.unbalanced_quote {
+            out.push(flags::UNBALANCED_QUOTE.into());
+        }
+        if self
+            .footnotes
+            .iter()
+            .any(|&f| !record.cells[f].trim().is_empty())
+        {
+            out.push(flags::FOOTNOTE.into());
+        }
+        out
+    }
+
+    /// The row's multiplier: `--value-multiplier` times ten to the power in the unit-multiplier
+    /// column, exactly.
+    pub(crate) fn multiplier(
+        &self,
+        record: &table::TextRecord,
+        given: Option<Decimal>,
+        file: &str,
+    ) -> Result<Option<Decimal>> {
+        let Some(p) = self.power else {
+            return Ok(given);
+        };
+        // SDMX-CSV 2.0 labels its codes: `6: Millions`.
+        let text = layout::sdmx_code(&record.cells[p]);
+        if text.is_empty() {
+            return Ok(given);
+        }
+        let power = text
+            .parse::<i32>()
+            .ok()
+            .filter(|k| (-12..=12).contains(k))
+            .ok_or_else(|| {
+                Error::bad_input(
+                    Location::cell(file, record.line, format!("column {}", p + 1)),
+                    format!("\"{}\" is not a power of ten", table::shorten(text)),
+                    "an integer from -12 to 12 (3 for thousands, 6 for millions)",
+                    "fix the cell",
+                )
+            })?;
+        let scale = if power >= 0 {
+            Decimal::from(10i64.pow(power as u32))
+        } else {
+            Decimal::new(1, (-power) as u32)
+        };
+        Ok(Some(given.unwrap_or(Decimal::ONE) * scale))
+    }
+}
+
+struct RowReader<'a> {
+    file: &'a str,
+    options: &'a IngestOptions,
+    currency_code: Option<&'a str>,
+}
+
+impl RowReader<'_> {
+    #[allow(clippy::too_many_arguments)]
+    fn row(
+        &self,
+        row_id: String,
+        line: usize,
+        entity_input: String,
+        year: Option<i32>,
+        group: Option<String>,
+        figure: Figure,
+        currency_cell: Option<(&str, &str)>,
+        mut row_flags: Vec<String>,
+    ) -> Result<CanonicalRow> {
+        let Figure {
+            cell,
+            column,
+            multiplier,
+        } = figure;
+        let value = match number::parse_cell(cell, self.options.number_style) {
+            Ok(Cell::Number {
+                value,
+                float,
+                footnote,
+            }) => {
+                if footnote {
+                    row_flags.push(flags::FOOTNOTE.into());
+                }
+                match multiplier {
+                    Some(m) => Some(number::to_f64(value.checked_mul(m).ok_or_else(|| {
+                        Error::bad_input(
+                            Location::cell(self.file, line, column),
+                            format!("\"{cell}\" times the multiplier {m} is too large for an exact decimal"),
+                            "a value that stays below about 7.9e28 after --value-multiplier",
+                            "use a smaller --value-multiplier",
+                        )
+                    })?)),
+                    None => Some(float),
+                }
+            }
+            Ok(Cell::Missing) => {
+                row_flags.push(flags::MISSING_VALUE.into());
+                None
+            }
+            Err(e) if self.options.lenient => {
+                let _ = e;
+                row_flags.push(flags::UNPARSED.into());
+                None
+            }
+            Err(e) => {
+                let fix = if cell.contains('\n') {
+                    "the cell spans several lines: a quote is probably not closed on this line"
+                } else {
+                    "correct the cell, or pass --lenient to keep such rows flagged `unparsed`"
+                };
+                return Err(Error::bad_input(
+                    Location::cell(self.file, line, column),
+                    e.reason,
+                    e.hint,
+                    fix,
+                ));
+            }
+        };
+        let currency = match currency_cell {
+            Some((header, text)) if !text.trim().is_empty() => {
+                match checked_currency(text, Some((line, header)), self.file) {
+                    Ok(code) => Some(code),
+                    Err(_) if self.options.lenient => {
+                        row_flags.push(flags::UNKNOWN_CURRENCY.into());
+                        None
+                    }
+                    Err(e) => return Err(e),
+                }
+            }
+            _ => self.currency_code.map(str::to_string),
+        };
+        Ok(CanonicalRow {
+            row_id,
+            line,
+            entity_input,
+            year,
+            group,
+            value_input: cell.to_string(),
+            value,
+            se: None,
+            extra: Vec::new(),
+            currency,
+            flags: row_flags,
+        })
+    }
+
+    fn year(
+        &self,
+        cell: &str,
+        line: usize,
+        column: &str,
+        row_flags: &mut Vec<String>,
+    ) -> Result<Option<i32>> {
+        match layout::parse_year_cell(cell) {
+            Ok(Some(year)) => Ok(Some(year)),
+            Ok(None) => {
+                row_flags.push(flags::MISSING_YEAR.into());
+                Ok(None)
+            }
+            Err(_) if self.options.lenient => {
+                row_flags.push(flags::UNPARSED_YEAR.into());
+                Ok(None)
+            }
+            Err(text) => Err(Error::bad_input(
+                Location::cell(self.file, line, column),
+                format!("\"{text}\" is not a calendar year"),
+                "a four-digit calendar year (1000-2200) such as 2021; fiscal-year labels (2019/20, FY2021) are not matched to reference years automatically",
+                "relabel the year with the calendar year your reference tables use for it, or pass --lenient to keep the row flagged `unparsed_year`",
+            )),
+        }
+    }
+}
+
+pub(super) fn checked_currency(
+    text: &str,
+    cell: Option<(usize, &str)>,
+    file: &str,
+) -> Result<String> {
+    let code = text.trim().to_uppercase();
+    if Resolver::is_valid_currency_code(&code) {
+        return Ok(code);
+    }
+    let location = match cell {
+        Some((line, column)) => Location::cell(file, line, column),
+        None => Location::file("--currency-code"),
+    };
+    Err(Error::bad_input(
+        location,
+        format!("\"{}\" is not an ISO 4217 currency code", text.trim()),
+        "a three-letter ISO 4217 code such as USD, EUR or JPY",
+        "correct the code; leave the currency out for figures in each country's own currency",
+    ))
+}
