@@ -5,60 +5,24 @@
 //! Pipeline inside: bytes → `encoding` → `table` (delimited text) → `layout` (roles, melting)
 //! → `crate::cells::number` (exact parsing). The result goes to `crate::resolve`, which adds entities.
 
+mod body;
+mod canonical;
+pub mod delimiter;
 pub mod encoding;
+mod header;
 pub mod layout;
 pub mod margins;
 pub mod record;
 mod rows;
+pub use canonical::{CanonicalRow, IngestOptions};
 pub(crate) use rows::RecordMarks;
 pub mod spreadsheet;
 pub mod table;
 
-use crate::cells::number::NumberStyle;
 use crate::entity::Resolver;
 use crate::error::{Error, Location, Result};
 use crate::flags;
 use layout::{LayoutChoice, RoleFlags, Shape, YearSource};
-use rust_decimal::Decimal;
-
-/// How to read the input.
-#[derive(Debug, Clone, Default)]
-pub struct IngestOptions {
-    pub delimiter: Option<u8>,
-    pub encoding: Option<encoding::EncodingChoice>,
-    pub roles: RoleFlags,
-    pub currency_code: Option<String>,
-    pub value_multiplier: Option<Decimal>,
-    pub number_style: NumberStyle,
-    pub lenient: bool,
-    pub margins: margins::MarginSpec,
-    /// Columns carried as text (the claimed figures of `audit`); they need a long table.
-    pub extra_columns: Vec<String>,
-    /// Spreadsheets: the sheet (name or position from 1) and a forced header row.
-    pub sheet: Option<String>,
-    pub header_row: Option<usize>,
-    /// A piece of a larger file (`--streaming`): lines and data rows before this piece.
-    pub line_offset: usize,
-    pub row_offset: usize,
-}
-
-/// One figure of the input.
-#[derive(Debug, Clone, PartialEq)]
-pub struct CanonicalRow {
-    pub row_id: String,
-    pub line: usize,
-    pub entity_input: String,
-    pub year: Option<i32>,
-    pub group: Option<String>,
-    pub value_input: String,
-    pub value: Option<f64>,
-    /// Standard error of `value`, in its unit, when margins were given.
-    pub se: Option<f64>,
-    pub currency: Option<String>,
-    pub flags: Vec<String>,
-    /// The text of `IngestOptions::extra_columns`, in their order (long tables only).
-    pub extra: Vec<String>,
-}
 
 /// The rows and what was decided while reading them (for the run summary).
 #[derive(Debug, Clone)]
@@ -526,7 +490,7 @@ mod tests {
     #[test]
     fn multiplier_is_exact() {
         let options = IngestOptions {
-            value_multiplier: Some(Decimal::from(1_000_000)),
+            value_multiplier: Some(rust_decimal::Decimal::from(1_000_000)),
             ..Default::default()
         };
         let out = run("country,year,value\nFrance,2020,0.1\n", options).unwrap();

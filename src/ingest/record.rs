@@ -5,6 +5,16 @@
 
 use std::ops::Index;
 
+/// A record of the table with the line it starts on.
+#[derive(Debug, Clone)]
+pub struct TextRecord {
+    pub line: usize,
+    /// The cells, indexable as `&str` (held compactly, not one allocation per cell).
+    pub cells: Cells,
+    /// The line was cut out of a runaway quote (`--lenient`): its cells are as written.
+    pub unbalanced_quote: bool,
+}
+
 /// The cells of one record, indexable as `&str`.
 #[derive(Clone, PartialEq, Eq, Default)]
 pub struct Cells {

@@ -3,8 +3,9 @@
 //! ten, a quote cut out of a runaway) and the flags raised on the way. Long tables give a row
 //! per record, wide ones a row per year column.
 
+use super::canonical::{CanonicalRow, IngestOptions};
 use super::layout::{self, Shape, YearSource};
-use super::{margins, table, CanonicalRow, IngestOptions};
+use super::{margins, table};
 use crate::cells::number::{self, Cell};
 use crate::entity::Resolver;
 use crate::error::{Error, Location, Result};

@@ -17,12 +17,17 @@
 //! - A statistics-office TSV whose first header cell joins dimension names
 //!   (`freq,unit,geo\TIME_PERIOD`) has that column split into one column per dimension.
 //!
-//! It knows nothing about countries; `ingest::layout` gives the columns their roles.
+//! It knows nothing about countries; `ingest::layout` gives the columns their roles. The rules
+//! live beside it: the delimiter in `delimiter`, the header in `header`, the table's end and
+//! the checks of each record in `body`, the compact records in `record`.
 
-use crate::cells::number::{self, Cell, NumberStyle};
 pub use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
-pub use crate::ingest::record::Cells;
+use crate::ingest::body::{breaks_in, open_at_end, table_end, Body};
+pub use crate::ingest::delimiter::{delimiter_name, sniff_delimiter};
+pub use crate::ingest::header::FindOptions;
+use crate::ingest::header::{choose_header, Raw};
+pub use crate::ingest::record::{Cells, TextRecord};
 
 /// A delimited table as text cells, with the line each record starts on.
 #[derive(Debug, Clone)]
@@ -41,89 +46,6 @@ pub struct TextTable {
     pub dimensions: Vec<usize>,
     /// The cells of the filled lines above the header (titles, "Data Source", "Last Updated").
     pub above: Vec<Vec<String>>,
-}
-
-#[derive(Debug, Clone)]
-pub struct TextRecord {
-    pub line: usize,
-    /// The cells, indexable as `&str` (held compactly, not one allocation per cell).
-    pub cells: Cells,
-    /// The line was cut out of a runaway quote (`--lenient`): its cells are as written.
-    pub unbalanced_quote: bool,
-}
-
-/// What the caller knows about the table.
-#[derive(Debug, Clone, Default)]
-pub struct FindOptions {
-    /// Column names the user gave (flags or catalog fields): the header is the line naming them.
-    pub hints: Vec<String>,
-    /// The header's physical line, when the user forced it (`--header-row`).
-    pub header_line: Option<usize>,
-    /// Runaway quotes become flagged rows instead of an error.
-    pub lenient: bool,
-    /// A piece of a larger file (`--streaming`): lines before this piece.
-    pub line_offset: usize,
-}
-
-const CANDIDATES: &[u8] = b",\t;|";
-/// Records searched for the header, and records looked at below each candidate.
-const HEADER_SEARCH: usize = 1000;
-const BLOCK_WINDOW: usize = 200;
-
-/// Picks the delimiter that splits the most lines into the same number of fields, preferring
-/// the one that splits them most. Quoted text is skipped. Title lines above the header do not
-/// decide: every line of the first twenty votes.
-pub fn sniff_delimiter(text: &str) -> u8 {
-    let lines: Vec<&str> = text
-        .lines()
-        .filter(|l| !l.trim().is_empty())
-        .take(40)
-        .collect();
-    if lines.is_empty() {
-        return b',';
-    }
-    let mut best = (b',', 0usize, 0usize);
-    for &candidate in CANDIDATES {
-        let counts: Vec<usize> = lines
-            .iter()
-            .map(|l| count_outside_quotes(l, candidate))
-            .collect();
-        // The most common non-zero count is this delimiter's table width.
-        let mut tally: std::collections::BTreeMap<usize, usize> = Default::default();
-        for &c in counts.iter().filter(|&&c| c > 0) {
-            *tally.entry(c).or_default() += 1;
-        }
-        let Some((&width, &agreeing)) = tally.iter().max_by_key(|(w, n)| (**n, **w)) else {
-            continue;
-        };
-        if (agreeing, width) > (best.1, best.2) {
-            best = (candidate, agreeing, width);
-        }
-    }
-    best.0
-}
-
-fn count_outside_quotes(line: &str, delimiter: u8) -> usize {
-    let mut quoted = false;
-    let mut count = 0;
-    for b in line.bytes() {
-        if b == b'"' {
-            quoted = !quoted;
-        } else if b == delimiter && !quoted {
-            count += 1;
-        }
-    }
-    count
-}
-
-pub fn delimiter_name(delimiter: u8) -> &'static str {
-    match delimiter {
-        b',' => "comma",
-        b'\t' => "tab",
-        b';' => "semicolon",
-        b'|' => "pipe",
-        _ => "custom",
-    }
 }
 
 /// The finder with no hints (tests, and tables whose columns nobody named).
@@ -158,78 +80,6 @@ pub fn read_bytes(bytes: &[u8], file: &str, hints: &[String]) -> Result<TextTabl
             ..Default::default()
         },
     )
-}
-
-/// What a cell holds, as far as finding the table is concerned.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum CellClass {
-    Empty,
-    Year,
-    Number,
-    Text,
-}
-
-fn classify(cell: &str) -> CellClass {
-    let t = cell.trim();
-    if t.is_empty() {
-        return CellClass::Empty;
-    }
-    if crate::cells::words::header_year(t).is_some() {
-        return CellClass::Year;
-    }
-    match number::parse_cell(t, NumberStyle::default()) {
-        Ok(Cell::Number { .. }) => CellClass::Number,
-        Ok(Cell::Missing) => CellClass::Empty,
-        Err(_) => CellClass::Text,
-    }
-}
-
-/// One parsed record before the table is known.
-struct Raw {
-    line: usize,
-    /// Byte range of the record in the text (for cutting a runaway quote into lines).
-    start: usize,
-    end: usize,
-    record: Cells,
-}
-
-impl Raw {
-    fn filled(&self) -> usize {
-        self.record.iter().filter(|c| !c.trim().is_empty()).count()
-    }
-
-    /// The classes of the cells. Several four-digit numbers count as years only where they look
-    /// like the year columns of a header, in increasing or decreasing order: an unordered
-    /// 1180,1144,1292 is figures (prices, rates and counts often fall in the range of years).
-    fn classes(&self) -> Vec<CellClass> {
-        let mut classes: Vec<CellClass> = self.record.iter().map(classify).collect();
-        let years: Vec<i32> = self
-            .record
-            .iter()
-            .zip(&classes)
-            .filter(|(_, c)| **c == CellClass::Year)
-            .filter_map(|(cell, _)| crate::cells::words::header_year(cell))
-            .collect();
-        let ordered = years.len() < 2
-            || years.windows(2).all(|w| w[0] < w[1])
-            || years.windows(2).all(|w| w[0] > w[1]);
-        if !ordered {
-            for class in classes.iter_mut().filter(|c| **c == CellClass::Year) {
-                *class = CellClass::Number;
-            }
-        }
-        classes
-    }
-
-    /// The line as written (cells joined by the delimiter), shortened for a message.
-    fn text(&self, delimiter: u8) -> String {
-        let joined = self
-            .record
-            .iter()
-            .collect::<Vec<_>>()
-            .join(&(delimiter as char).to_string());
-        shorten(joined.trim_end_matches(delimiter as char).trim())
-    }
 }
 
 /// Finds the table in `text`; see the module documentation for the rules.
@@ -272,118 +122,31 @@ pub fn find_table(
         ));
     }
     let header_line = all[header_index].line;
-    let mut skipped: Vec<String> = all[..header_index]
-        .iter()
-        .filter(|r| r.filled() > 0)
-        .map(|r| {
-            format!(
-                "line {} above the header: \"{}\"",
-                r.line,
-                r.text(delimiter)
-            )
-        })
-        .collect();
-    let above: Vec<Vec<String>> = all[..header_index]
-        .iter()
-        .filter(|r| r.filled() > 0)
-        .map(|r| r.record.iter().map(|c| c.trim().to_string()).collect())
-        .collect();
-    let blank_above = header_line
-        .saturating_sub(1 + options.line_offset)
-        .saturating_sub(header_index);
-    if blank_above > 0 {
-        skipped.push(format!("{blank_above} blank line(s) above the header"));
-    }
-    // The table ends at the last line that holds data; only notes may follow it. A footnote
-    // block (a data portal's "footnoteSeqID","Footnote" table below the data) is notes too.
-    let notes_from = all[header_index + 1..]
-        .iter()
-        .position(starts_footnotes)
-        .map_or(all.len(), |p| p + header_index + 1);
-    let last_data = all[..notes_from]
-        .iter()
-        .rposition(|r| !is_note(r, delimiter))
-        .unwrap_or(header_index)
-        .max(header_index);
-    let tail = last_data + 1;
+    let (mut skipped, above) =
+        set_aside_above(&all[..header_index], header_line, delimiter, options);
+    let tail = table_end(&all, header_index, delimiter);
     skipped.extend(
         all[tail..]
             .iter()
             .filter(|r| r.filled() > 0)
             .map(|r| format!("line {} below the table: \"{}\"", r.line, r.text(delimiter))),
     );
-    // Empty header cells at the end whose column holds nothing: a trailing delimiter (on every
-    // line, or on some), dropped rather than counted.
-    let mut header_record = all[header_index].record.clone();
-    let mut dropped = 0;
-    while header_record.len() > 1 {
-        let last = header_record.len() - 1;
-        let empty = header_record[last].trim().is_empty()
-            && all[header_index + 1..tail]
-                .iter()
-                .all(|r| r.record.get(last).is_none_or(|c| c.trim().is_empty()));
-        if !empty {
-            break;
-        }
-        header_record.truncate(last);
-        dropped += 1;
-    }
-    let trailing_delimiter = dropped > 0;
+    let (header_record, trailing_delimiter) = header_without_empty_tail(&all, header_index, tail);
     let mut headers = clean_headers(&header_record, file, header_line)?;
-    let width = headers.len();
-    let header_key: Vec<String> = headers.iter().map(|h| h.to_lowercase()).collect();
-    let mut empty_lines: Vec<usize> = Vec::new();
     if let Some(last) = all.last() {
         open_at_end(text, last, file, options.lenient)?;
     }
-    let mut records = Vec::with_capacity(tail.saturating_sub(header_index + 1));
     // The line the next record starts on when no blank line comes between.
-    let mut expected = header_line + 1 + breaks_in(&all[header_index]);
-    for raw in all.drain(header_index + 1..tail) {
-        empty_lines.extend(expected..raw.line);
-        expected = raw.line + 1 + breaks_in(&raw);
-        if raw.filled() == 0 {
-            empty_lines.push(raw.line);
-            continue;
-        }
-        if repeats_header(&raw.record, &header_key) {
-            return Err(Error::bad_input(
-                Location::line(file, raw.line),
-                format!("this line repeats the header of line {header_line}: the file holds two tables"),
-                "one table per file (one header, then its rows)",
-                "split the file into one file per table, or delete the second header and check that the rows below it are in the same columns",
-            ));
-        }
-        if let Some(opened) = runaway_quote(&raw, width, delimiter) {
-            if !options.lenient {
-                return Err(Error::bad_input(
-                    Location::line(file, raw.line),
-                    format!(
-                        "a quote opened on this line is not closed until line {opened} (or the end of the file): it swallows the lines between"
-                    ),
-                    "balanced double quotes: a cell that starts with \" must end with \"",
-                    "remove or close the stray quote on this line, or pass --lenient to keep those lines as rows flagged `unbalanced_quote`",
-                ));
-            }
-            records.extend(cut_runaway(text, &raw, delimiter, width));
-            continue;
-        }
-        let mut record = raw.record;
-        // Spreadsheet exports pad lines with empty cells; only filled extra cells are an error.
-        let mut len = record.len();
-        while len > width && record[len - 1].trim().is_empty() {
-            len -= 1;
-        }
-        record.truncate(len);
-        if record.len() != width {
-            return Err(ragged(file, raw.line, record.len(), width, delimiter));
-        }
-        records.push(TextRecord {
-            line: raw.line,
-            cells: record,
-            unbalanced_quote: false,
-        });
-    }
+    let expected = header_line + 1 + breaks_in(&all[header_index]);
+    let body = Body {
+        text,
+        file,
+        delimiter,
+        headers: &headers,
+        header_line,
+        lenient: options.lenient,
+    };
+    let (mut records, empty_lines) = body.records(all.drain(header_index + 1..tail), expected)?;
     if !empty_lines.is_empty() {
         let shown: Vec<String> = empty_lines.iter().take(10).map(|l| l.to_string()).collect();
         skipped.push(format!(
@@ -405,6 +168,60 @@ pub fn find_table(
         dimensions,
         above,
     })
+}
+
+/// The filled lines above the header, described for the summary and kept as trimmed cells,
+/// and the count of blank lines there.
+fn set_aside_above(
+    above: &[Raw],
+    header_line: usize,
+    delimiter: u8,
+    options: &FindOptions,
+) -> (Vec<String>, Vec<Vec<String>>) {
+    let header_index = above.len();
+    let mut skipped: Vec<String> = above
+        .iter()
+        .filter(|r| r.filled() > 0)
+        .map(|r| {
+            format!(
+                "line {} above the header: \"{}\"",
+                r.line,
+                r.text(delimiter)
+            )
+        })
+        .collect();
+    let above: Vec<Vec<String>> = above
+        .iter()
+        .filter(|r| r.filled() > 0)
+        .map(|r| r.record.iter().map(|c| c.trim().to_string()).collect())
+        .collect();
+    let blank_above = header_line
+        .saturating_sub(1 + options.line_offset)
+        .saturating_sub(header_index);
+    if blank_above > 0 {
+        skipped.push(format!("{blank_above} blank line(s) above the header"));
+    }
+    (skipped, above)
+}
+
+/// The header's cells without the empty cells at its end whose column holds nothing (a
+/// trailing delimiter, on every line or on some), and whether any was dropped.
+fn header_without_empty_tail(all: &[Raw], header_index: usize, tail: usize) -> (Cells, bool) {
+    let mut header_record = all[header_index].record.clone();
+    let mut dropped = 0;
+    while header_record.len() > 1 {
+        let last = header_record.len() - 1;
+        let empty = header_record[last].trim().is_empty()
+            && all[header_index + 1..tail]
+                .iter()
+                .all(|r| r.record.get(last).is_none_or(|c| c.trim().is_empty()));
+        if !empty {
+            break;
+        }
+        header_record.truncate(last);
+        dropped += 1;
+    }
+    (header_record, dropped > 0)
 }
 
 fn parse_records(text: &str, delimiter: u8, file: &str, line_offset: usize) -> Result<Vec<Raw>> {
@@ -443,279 +260,6 @@ fn parse_records(text: &str, delimiter: u8, file: &str, line_offset: usize) -> R
         });
     }
     Ok(all)
-}
-
-/// The header: the line the user forced, the line naming the given columns, or the line that
-/// heads the longest block of figures (the nearest such line above the block).
-fn choose_header(all: &[Raw], options: &FindOptions, file: &str) -> Result<(usize, String)> {
-    if let Some(wanted) = options.header_line {
-        let wanted = wanted + options.line_offset;
-        return all
-            .iter()
-            .position(|r| r.line == wanted && r.filled() > 0)
-            .map(|i| (i, format!("line {wanted}, as --header-row says")))
-            .ok_or_else(|| {
-                Error::bad_input(
-                    Location::line(file, wanted),
-                    "--header-row names a line that is empty or past the end of the file",
-                    "the line of the table's header",
-                    "pass --header-row with the line that names the columns, or leave it out to let the header be found",
-                )
-            });
-    }
-    let window = &all[..all.len().min(HEADER_SEARCH)];
-    let hints: Vec<String> = options
-        .hints
-        .iter()
-        .map(|h| h.trim().to_lowercase())
-        .filter(|h| !h.is_empty())
-        .collect();
-    if !hints.is_empty() {
-        let named = window.iter().position(|r| {
-            let cells: Vec<String> = r.record.iter().map(|c| c.trim().to_lowercase()).collect();
-            hints.iter().all(|h| cells.contains(h))
-        });
-        if let Some(i) = named {
-            return Ok((
-                i,
-                format!(
-                    "line {}: it names the columns given ({})",
-                    window[i].line,
-                    options.hints.join(", ")
-                ),
-            ));
-        }
-    }
-    let classes: Vec<Vec<CellClass>> = window.iter().map(Raw::classes).collect();
-    let header_like = |i: usize| {
-        let c = &classes[i];
-        c.iter().filter(|k| **k != CellClass::Empty).count() >= 2 && !c.contains(&CellClass::Number)
-    };
-    // The most lines of figures headed; among equals the line that names more columns the way
-    // headers do (country, code, year, value ...), for a title covers the same block as the
-    // header below it; then the earliest.
-    let mut best: Option<(usize, (usize, usize, usize))> = None;
-    for h in (0..window.len()).filter(|&i| header_like(i)) {
-        let (covered, exact) = block_score(window, &classes, h);
-        if covered + exact == 0 {
-            continue;
-        }
-        let names = window[h]
-            .record
-            .iter()
-            .filter(|c| crate::cells::words::is_role_word(c))
-            .count();
-        let score = (covered, exact, names);
-        if best.is_none_or(|(_, b)| score > b) {
-            best = Some((h, score));
-        }
-    }
-    if let Some((h, _)) = best {
-        return Ok((
-            h,
-            format!(
-                "line {}: it heads the longest block of lines holding figures",
-                window[h].line
-            ),
-        ));
-    }
-    let first = (0..window.len())
-        .find(|&i| header_like(i))
-        .or_else(|| window.iter().position(|r| r.filled() >= 2))
-        .unwrap_or(0);
-    Ok((
-        first,
-        format!(
-            "line {}: the first line naming two or more columns (no line heads a block of figures)",
-            window[first].line
-        ),
-    ))
-}
-
-/// How well header candidate `h` heads the lines below it: (lines holding figures whose filled
-/// cells all sit under filled cells of `h`, lines holding figures with as many fields as `h`).
-/// The count stops at the first line with a filled cell beyond `h`'s width.
-fn block_score(window: &[Raw], classes: &[Vec<CellClass>], h: usize) -> (usize, usize) {
-    let header = &classes[h];
-    let width = window[h].record.len();
-    let (mut exact, mut covered) = (0, 0);
-    for i in (h + 1..window.len()).take(BLOCK_WINDOW) {
-        let row = &classes[i];
-        let span = row
-            .iter()
-            .rposition(|c| *c != CellClass::Empty)
-            .map_or(0, |p| p + 1);
-        if span > width {
-            break;
-        }
-        // Years alone do not make a line of figures: a header of years is not data.
-        if !row.contains(&CellClass::Number) {
-            continue;
-        }
-        let under_header = row
-            .iter()
-            .enumerate()
-            .all(|(j, c)| *c == CellClass::Empty || header[j] != CellClass::Empty);
-        covered += under_header as usize;
-        exact += (window[i].record.len() == width) as usize;
-    }
-    (covered, exact)
-}
-
-/// Whether a record's first cells are the header again (trimmed, case aside): the mark of a
-/// second table in the file. `header_key` holds the header cells lowercased. An ASCII cell is
-/// compared without lowercasing a copy (the same answer, with no allocation per cell).
-fn repeats_header(record: &Cells, header_key: &[String]) -> bool {
-    record.len() >= header_key.len()
-        && record.iter().zip(header_key).all(|(cell, key)| {
-            let cell = cell.trim();
-            if cell.is_ascii() {
-                cell.len() == key.len()
-                    && cell
-                        .bytes()
-                        .zip(key.bytes())
-                        .all(|(c, k)| c.to_ascii_lowercase() == k)
-            } else {
-                cell.to_lowercase() == *key
-            }
-        })
-}
-
-/// Line breaks inside a record's quoted cells (the record spans that many more lines).
-fn breaks_in(raw: &Raw) -> usize {
-    raw.record.iter().map(|c| c.matches('\n').count()).sum()
-}
-
-/// A quote still open at the end of the file: the last record starts a quoted cell that never
-/// closes (an odd number of quotes from where it opened). An error at that line, or with
-/// `lenient` nothing (its lines are read as they are by the runaway-quote rule).
-fn open_at_end(text: &str, last: &Raw, file: &str, lenient: bool) -> Result<()> {
-    let raw = &text[last.start.min(text.len())..];
-    let opens_quote = raw.trim_start().starts_with('"')
-        || raw.contains(",\"")
-        || raw.contains("\t\"")
-        || raw.contains(";\"");
-    if !lenient && opens_quote && raw.matches('"').count() % 2 == 1 {
-        return Err(Error::bad_input(
-            Location::line(file, last.line),
-            "a quote opened on this line is never closed: the file ends inside it",
-            "balanced double quotes: a cell that starts with \" must end with \"",
-            "close or remove the stray quote on this line, or pass --lenient to read the line as it is",
-        ));
-    }
-    Ok(())
-}
-
-/// The first line of a footnote block below the table (a data portal's `"footnoteSeqID",
-/// "Footnote"` header).
-fn starts_footnotes(raw: &Raw) -> bool {
-    raw.record
-        .iter()
-        .map(str::trim)
-        .find(|c| !c.is_empty())
-        .is_some_and(|c| c.to_lowercase().starts_with("footnote"))
-}
-
-/// A line below the table that is a note: one filled cell of words, or words that open with a
-/// note marker (`Source:`, `Note`, `*`), holding no figure but years.
-fn is_note(raw: &Raw, delimiter: u8) -> bool {
-    // A cell that runs over several lines with delimiters in it is a stray quote, not a note.
-    if raw
-        .record
-        .iter()
-        .any(|c| c.contains('\n') && c.as_bytes().contains(&delimiter))
-    {
-        return false;
-    }
-    let filled: Vec<&str> = raw
-        .record
-        .iter()
-        .map(str::trim)
-        .filter(|c| !c.is_empty())
-        .collect();
-    let Some(first) = filled.first() else {
-        return true;
-    };
-    let words = |c: &&str| {
-        c.chars()
-            .any(|ch| ch.is_alphabetic() || "*†‡§#¹²³(".contains(ch))
-    };
-    if filled.len() == 1 {
-        return words(first);
-    }
-    let lower = first.to_lowercase();
-    let marker = [
-        "source",
-        "note",
-        "notes",
-        "*",
-        "†",
-        "‡",
-        "§",
-        "(a)",
-        "(1)",
-        "1)",
-        "footnote",
-        "data from",
-        "last updated",
-        "©",
-        "copyright",
-    ]
-    .iter()
-    .any(|m| lower.starts_with(m));
-    marker && raw.record.iter().all(|c| classify(c) != CellClass::Number)
-}
-
-/// The last line swallowed by an open quote in `raw`, when a field holds a line break and at
-/// least a line's worth of delimiters (a quoted cell with a line break in it is fine).
-fn runaway_quote(raw: &Raw, width: usize, delimiter: u8) -> Option<usize> {
-    let needed = width.saturating_sub(1).max(1);
-    raw.record.iter().find_map(|field| {
-        let breaks = field.trim_end().matches('\n').count();
-        let delimiters = field.bytes().filter(|&b| b == delimiter).count();
-        (breaks >= 1 && delimiters >= needed).then_some(raw.line + breaks)
-    })
-}
-
-/// The lines of a runaway quote, each read as written (quotes as characters), flagged.
-fn cut_runaway(text: &str, raw: &Raw, delimiter: u8, width: usize) -> Vec<TextRecord> {
-    let body = &text[raw.start.min(text.len())..raw.end.min(text.len())];
-    let mut out = Vec::new();
-    for (offset, line) in body.split('\n').enumerate() {
-        let line = line.trim_end_matches('\r');
-        if line.trim().is_empty() {
-            continue;
-        }
-        let mut cells: Vec<&str> = line.split(delimiter as char).collect();
-        while cells.len() > width && cells.last().is_some_and(|c| c.trim().is_empty()) {
-            cells.pop();
-        }
-        cells.resize(width.max(cells.len()), "");
-        cells.truncate(width);
-        out.push(TextRecord {
-            line: raw.line + offset,
-            cells: cells.into_iter().collect(),
-            unbalanced_quote: true,
-        });
-    }
-    out
-}
-
-fn ragged(file: &str, line: usize, found: usize, width: usize, delimiter: u8) -> Error {
-    let what = if found <= 1 {
-        " (a title or note between rows, or a second table below, reads like this)"
-    } else {
-        ""
-    };
-    Error::bad_input(
-        Location::line(file, line),
-        format!("{found} field(s) on this line, but the header has {width}{what}"),
-        format!(
-            "{width} fields separated by the {} delimiter",
-            delimiter_name(delimiter)
-        ),
-        "fix the line (a stray delimiter or a missing quote is the usual cause), or pass --delimiter if the wrong one was detected",
-    )
 }
 
 /// A statistics-office TSV: the first header cell joins the dimension names with commas and a
@@ -864,19 +408,6 @@ mod tests {
     use super::*;
 
     #[test]
-    fn sniffs_common_delimiters() {
-        assert_eq!(sniff_delimiter("a,b,c\n1,2,3\n"), b',');
-        assert_eq!(sniff_delimiter("a\tb\tc\n1,5\t2\t3\n"), b'\t');
-        assert_eq!(sniff_delimiter("country;2019;2020\nFrance;1,5;2,5\n"), b';');
-        assert_eq!(sniff_delimiter("\"a,x\"|b\n1|2\n"), b'|');
-        // A title with commas above a semicolon table does not decide.
-        assert_eq!(
-            sniff_delimiter("Fees, invented, 2020\ncountry;fee\nA;1\nB;2\n"),
-            b';'
-        );
-    }
-
-    #[test]
     fn records_keep_their_physical_line() {
         let table = read_table("a,b\n1,2\n\"multi\nline\",3\n4,5\n", b',', "t.csv").unwrap();
         let lines: Vec<usize> = table.records.iter().map(|r| r.line).collect();
@@ -997,24 +528,6 @@ mod tests {
             err.contains("line 3") && err.contains("repeats the header"),
             "{err}"
         );
-    }
-
-    #[test]
-    fn a_repeated_header_is_found_whatever_its_case_spacing_or_script() {
-        let key = |h: &[&str]| h.iter().map(|c| c.to_lowercase()).collect::<Vec<_>>();
-        let record = |cells: &[&str]| cells.iter().collect::<Cells>();
-        let header = key(&["Country", "Fee"]);
-        assert!(repeats_header(&record(&[" COUNTRY ", "fee"]), &header));
-        assert!(repeats_header(
-            &record(&["country", "fee", "extra"]),
-            &header
-        ));
-        assert!(!repeats_header(&record(&["country"]), &header));
-        assert!(!repeats_header(&record(&["Chile", "fee"]), &header));
-        // Non-ASCII headers are lowercased as Unicode (Σ, É), as the header was.
-        let header = key(&["ΧΏΡΑ", "Élément"]);
-        assert!(repeats_header(&record(&["χώρα", "ÉLÉMENT"]), &header));
-        assert!(!repeats_header(&record(&["χώρα", "element"]), &header));
     }
 
     #[test]
