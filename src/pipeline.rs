@@ -144,7 +144,137 @@ pub(crate) fn prepare(
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
     let rows_in = ingested.rows.len();
-    // The canonical frame.
+    let CanonicalFrame {
+        frame,
+        carried_names,
+        keys,
+        any_base,
+    } = canonical_frame(
+        &mut ingested,
+        &entities,
+        &bases,
+        settings,
+        &FrameStart {
+            ord_offset,
+            check_currency,
+            whole_table_in_base,
+        },
+    )?;
+
+    // Both tracks, built as expressions; the factors they name are collected in `needs`.
+    let start_unit = if whole_table_in_base {
+        Unit::Base
+    } else {
+        Unit::Local
+    };
+    let TrackPlan {
+        batches,
+        stage_columns,
+        extra_columns,
+        needs,
+        optional,
+        deflator_used,
+        baseline_steps,
+    } = tracks::plan_tracks(
+        settings,
+        &TrackStart {
+            unit: start_unit,
+            to_local: check_currency,
+            any_base,
+            with_se: settings.intervals.is_some(),
+        },
+    )?;
+
+    // Factors, joined once per distinct entity and year.
+    let missing_tables: std::collections::BTreeSet<crate::reference::Kind> = optional
+        .iter()
+        .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
+        .map(|need| need.kind)
+        .collect();
+    let lookup = attach::lookup_frame(
+        &keys,
+        &needs,
+        &optional,
+        references,
+        &AttachSettings {
+            base_year: settings.step_settings.base_year,
+            nearest_year: settings.nearest_year,
+            base_currency: base_currency.clone(),
+            year_offset: settings.factor_year_offset,
+        },
+    )?;
+    let mut lf = frame.lazy().join(
+        lookup.lazy(),
+        [col("entity_code"), col("year")],
+        [col("entity_code"), col("year")],
+        // Rows stay in input order (no sort of every column afterwards).
+        JoinArgs {
+            maintain_order: MaintainOrderJoin::Left,
+            ..JoinArgs::new(JoinType::Left)
+        },
+    );
+    for batch in batches {
+        lf = lf.with_columns(batch);
+    }
+    let head = head_columns(
+        &stage_columns,
+        &needs,
+        &extra_columns,
+        settings,
+        carried_names,
+    );
+    ingested.rows = Vec::new();
+    Ok(Prepared {
+        lf,
+        ingested,
+        rows_in,
+        head_columns: head,
+        baseline_steps,
+        deflator_used,
+        any_base,
+        missing_tables: missing_tables.into_iter().collect(),
+    })
+}
+
+/// The canonical frame, one row per figure: what ingest read, the entity, the currency basis,
+/// the unit for the mixed-currency rule, the flags so far, and the carried text columns.
+struct CanonicalFrame {
+    frame: DataFrame,
+    carried_names: Vec<String>,
+    /// The entity-years the rows need factors for.
+    keys: HashSet<(String, i32)>,
+    /// Whether any row is a figure in the base currency.
+    any_base: bool,
+}
+
+/// Where the frame's rows start (`_ord`) and how their currencies are read.
+#[derive(Clone, Copy)]
+struct FrameStart {
+    ord_offset: u64,
+    check_currency: bool,
+    whole_table_in_base: bool,
+}
+
+/// What the frame takes from each row besides its text: the flags so far, the currency basis,
+/// whether it may be ranked, its unit for the mixed-currency rule; and the entity-years needed.
+struct RowFacts {
+    flags_pre: Vec<Option<String>>,
+    basis_text: Vec<&'static str>,
+    eligible: Vec<bool>,
+    units: Vec<Option<String>>,
+    keys: HashSet<(String, i32)>,
+    any_base: bool,
+}
+
+fn row_facts(
+    ingested: &mut ingest::Ingested,
+    entities: &resolve::EntityColumns,
+    bases: &[InputBasis],
+    settings: &PipelineSettings,
+    start: &FrameStart,
+) -> RowFacts {
+    let rows_in = ingested.rows.len();
+    let (check_currency, whole_table_in_base) = (start.check_currency, start.whole_table_in_base);
     let mut flags_pre: Vec<Option<String>> = Vec::with_capacity(rows_in);
     let mut basis_text: Vec<&'static str> = Vec::with_capacity(rows_in);
     let mut eligible: Vec<bool> = Vec::with_capacity(rows_in);
@@ -195,6 +325,33 @@ pub(crate) fn prepare(
         .into_iter()
         .map(|(at, year)| (entities.found[at as usize].code.clone(), year))
         .collect();
+    RowFacts {
+        flags_pre,
+        basis_text,
+        eligible,
+        units,
+        keys,
+        any_base,
+    }
+}
+
+fn canonical_frame(
+    ingested: &mut ingest::Ingested,
+    entities: &resolve::EntityColumns,
+    bases: &[InputBasis],
+    settings: &PipelineSettings,
+    start: &FrameStart,
+) -> Result<CanonicalFrame> {
+    let ord_offset = start.ord_offset;
+    let rows_in = ingested.rows.len();
+    let RowFacts {
+        flags_pre,
+        basis_text,
+        eligible,
+        units,
+        keys,
+        any_base,
+    } = row_facts(ingested, entities, bases, settings, start);
     let rows = &ingested.rows;
     let frame = DataFrame::new(
         rows_in,
@@ -277,62 +434,23 @@ pub(crate) fn prepare(
             .with_column(column)
             .map_err(Error::engine("building the input frame"))?;
     }
+    Ok(CanonicalFrame {
+        frame,
+        carried_names,
+        keys,
+        any_base,
+    })
+}
 
-    // Both tracks, built as expressions; the factors they name are collected in `needs`.
-    let start_unit = if whole_table_in_base {
-        Unit::Base
-    } else {
-        Unit::Local
-    };
-    let TrackPlan {
-        batches,
-        stage_columns,
-        extra_columns,
-        needs,
-        optional,
-        deflator_used,
-        baseline_steps,
-    } = tracks::plan_tracks(
-        settings,
-        &TrackStart {
-            unit: start_unit,
-            to_local: check_currency,
-            any_base,
-            with_se: settings.intervals.is_some(),
-        },
-    )?;
-
-    // Factors, joined once per distinct entity and year.
-    let missing_tables: std::collections::BTreeSet<crate::reference::Kind> = optional
-        .iter()
-        .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
-        .map(|need| need.kind)
-        .collect();
-    let lookup = attach::lookup_frame(
-        &keys,
-        &needs,
-        &optional,
-        references,
-        &AttachSettings {
-            base_year: settings.step_settings.base_year,
-            nearest_year: settings.nearest_year,
-            base_currency: base_currency.clone(),
-            year_offset: settings.factor_year_offset,
-        },
-    )?;
-    let mut lf = frame.lazy().join(
-        lookup.lazy(),
-        [col("entity_code"), col("year")],
-        [col("entity_code"), col("year")],
-        // Rows stay in input order (no sort of every column afterwards).
-        JoinArgs {
-            maintain_order: MaintainOrderJoin::Left,
-            ..JoinArgs::new(JoinType::Left)
-        },
-    );
-    for batch in batches {
-        lf = lf.with_columns(batch);
-    }
+/// The output columns up to `value_adjusted` (and the margin columns), then the carried ones,
+/// in order.
+fn head_columns(
+    stage_columns: &[String],
+    needs: &std::collections::BTreeSet<adjust::FactorNeed>,
+    extra_columns: &[String],
+    settings: &PipelineSettings,
+    carried_names: Vec<String>,
+) -> Vec<String> {
     let mut head: Vec<String> = [
         "row_id",
         "entity_input",
@@ -350,7 +468,7 @@ pub(crate) fn prepare(
     .collect();
     head.extend(stage_columns.iter().cloned());
     let uncertain = &settings.step_settings.uncertain_factors;
-    for need in &needs {
+    for need in needs {
         head.push(need.used_column());
         if uncertain.contains(&need.kind) && need.whose == adjust::Whose::Entity {
             head.push(need.se_column());
@@ -363,17 +481,7 @@ pub(crate) fn prepare(
         head.extend(["moe_baseline", "moe_adjusted", "ci_low", "ci_high"].map(String::from));
     }
     head.extend(carried_names);
-    ingested.rows = Vec::new();
-    Ok(Prepared {
-        lf,
-        ingested,
-        rows_in,
-        head_columns: head,
-        baseline_steps,
-        deflator_used,
-        any_base,
-        missing_tables: missing_tables.into_iter().collect(),
-    })
+    head
 }
 
 /// `_line` and `_extra_0`, `_extra_1`, ...: the rows' lines and the text of
