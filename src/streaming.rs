@@ -199,41 +199,8 @@ fn run(
     let output = plan
         .output_path
         .ok_or_else(|| Error::usage("--streaming writes csv to a file", "pass -o FILE.csv"))?;
-    let file = std::fs::File::open(&stream.path).map_err(|e| Error::io(label, "open", e))?;
-    let mut reader = BufReader::with_capacity(1 << 20, file);
-    let delimiter = {
-        let peek = reader.fill_buf().map_err(|e| Error::io(label, "read", e))?;
-        let forced_utf16 = matches!(
-            settings.ingest.encoding,
-            Some(EncodingChoice::Utf16Le | EncodingChoice::Utf16Be)
-        );
-        if forced_utf16 || peek.starts_with(&[0xFF, 0xFE]) || peek.starts_with(&[0xFE, 0xFF]) {
-            return Err(Error::usage(
-                format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
-                "re-save the table as UTF-8, or run without --streaming",
-            ));
-        }
-        match settings.ingest.delimiter {
-            Some(d) => d,
-            None if label.ends_with(".tsv") || label.ends_with(".tab") => b'\t',
-            None => table::sniff_delimiter(&String::from_utf8_lossy(peek)),
-        }
-    };
-    let mut pieces = Pieces {
-        reader,
-        delimiter,
-        target: stream.chunk_bytes.max(1),
-        finished: false,
-    };
-    let folder = match output.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    let spill_dir = tempfile::Builder::new()
-        .prefix(".levelfield-pieces-")
-        .tempdir_in(&folder)
-        .map_err(|e| Error::io(folder.display(), "create a temporary folder in", e))?;
-    crate::cleanup::register(spill_dir.path());
+    let mut pieces = open_pieces(label, stream, settings)?;
+    let spill_dir = spill_folder(output)?;
 
     let mut first: Option<FirstPiece> = None;
     let mut spilled: Vec<Spilled> = Vec::new();
@@ -253,69 +220,23 @@ fn run(
             None => {
                 pipeline::prepare(&bytes, label, settings, plan.resolver, plan.references, ord)?
             }
-            Some(f) => {
-                let text = match f.encoding {
-                    Some(EncodingChoice::Windows1252) => encoding_rs::WINDOWS_1252.decode(&bytes).0.into_owned(),
-                    _ => String::from_utf8(bytes).map_err(|e| {
-                        Error::bad_input(
-                            crate::error::Location::line(label, lines_before + 1 + table::count_line_breaks(&e.as_bytes()[..e.utf8_error().valid_up_to()])),
-                            "bytes that are not valid UTF-8 (the first piece of the file was UTF-8)",
-                            "text in one encoding",
-                            "re-save the file as UTF-8, or pass --encoding windows-1252 if it is a legacy file",
-                        )
-                    })?,
-                };
-                let mut piece_settings = f.settings.clone();
-                piece_settings.ingest.line_offset = lines_before.saturating_sub(1);
-                piece_settings.ingest.row_offset = rows_before;
-                let piece = format!("{}\n{text}", f.header_line);
-                pipeline::prepare(
-                    piece.as_bytes(),
-                    label,
-                    &piece_settings,
-                    plan.resolver,
-                    plan.references,
+            Some(f) => prepare_later_piece(
+                plan,
+                f,
+                bytes,
+                &PieceStart {
+                    lines_before,
+                    rows_before,
                     ord,
-                )?
-            }
+                },
+            )?,
         };
         if prepared.any_base && !settings.assume_base_rows {
             return Ok(Err(Restart));
         }
         let ingested = &prepared.ingested;
         match &first {
-            None => {
-                let mut piece_settings = settings.clone();
-                piece_settings.ingest.delimiter = Some(ingested.delimiter);
-                piece_settings.ingest.encoding = Some(EncodingChoice::Utf8);
-                piece_settings.ingest.roles = crate::ingest::layout::RoleFlags {
-                    reserved: settings.ingest.roles.reserved.clone(),
-                    ..ingested.roles_used.clone()
-                };
-                if ingested.dimensioned {
-                    return Err(Error::usage(
-                        format!("{label} is a statistics-office TSV (dimension codes joined in its first column), which --streaming does not cut into pieces"),
-                        "run without --streaming",
-                    ));
-                }
-                if ingested
-                    .encoding
-                    .is_some_and(|e| matches!(e, EncodingChoice::Utf16Le | EncodingChoice::Utf16Be))
-                {
-                    return Err(Error::usage(
-                        format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
-                        "re-save the table as UTF-8, or run without --streaming",
-                    ));
-                }
-                first = Some(FirstPiece {
-                    header_line: header_line(&ingested.headers, ingested.delimiter)?,
-                    settings: piece_settings,
-                    encoding: ingested.encoding,
-                    notes: ingested.notes.clone(),
-                    warnings: ingested.warnings.clone(),
-                    data_lines: ingested.data_lines,
-                });
-            }
+            None => first = Some(first_piece(ingested, settings, label)?),
             Some(_) => later_notes.extend(
                 ingested
                     .notes
@@ -330,39 +251,17 @@ fn run(
             deflator_used: prepared.deflator_used,
             missing_tables: prepared.missing_tables.clone(),
         });
-        let mut keep: Vec<Expr> = columns.head.iter().map(|c| col(c.as_str())).collect();
-        keep.extend(
-            [
-                "_ord",
-                "_flags_pre",
-                "_factor_flags",
-                "_rank_eligible",
-                "_unit",
-            ]
-            .map(col),
-        );
-        let frame = prepared
-            .lf
-            .select(keep)
-            .collect()
-            .map_err(Error::engine("adjusting a piece of the table"))?;
-        if frame.height() != prepared.rows_in {
-            return Err(Error::engine("checking that no row was lost")(polars_err!(
-                ComputeError: "{} rows in, {} rows out", prepared.rows_in, frame.height()
-            )));
-        }
+        let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
+        let frame = piece_frame(prepared.lf, rows, &columns.head)?;
         narrow.push(rank_inputs(&frame, &mut groups, &mut entities, &mut units)?);
         let path = spill_dir
             .path()
             .join(format!("piece-{:05}.parquet", spilled.len()));
         write_spill(&path, frame)?;
-        spilled.push(Spilled {
-            path,
-            rows: prepared.rows_in,
-        });
+        spilled.push(Spilled { path, rows });
         lines_before += breaks;
-        rows_before += prepared.ingested.data_lines;
-        ord += prepared.rows_in as u64;
+        rows_before += data_lines;
+        ord += rows as u64;
     }
     let (
         Some(first),
@@ -383,23 +282,7 @@ fn run(
     };
 
     // Ranks, once, over the narrow columns of every piece.
-    let narrow = concat_frames(narrow)?;
-    let several = crate::rank::several_series(&[col("_e"), col("_g"), col("year")])
-        .map_err(Error::engine("ranking"))?;
-    let mixed = crate::rank::mixed_units(
-        col("_u").cast(DataType::String),
-        col("_rank_eligible"),
-        &[col("_g"), col("year")],
-    )
-    .map_err(Error::engine("ranking"))?;
-    let mut rank_columns = rank_exprs(settings, !missing_tables.is_empty())?;
-    rank_columns.extend([col("_several"), col("_mixed")]);
-    let ranks = narrow
-        .lazy()
-        .with_columns([several, mixed])
-        .select(rank_columns)
-        .collect()
-        .map_err(Error::engine("ranking"))?;
+    let ranks = ranks_once(narrow, settings, !missing_tables.is_empty())?;
     let rows_in = ord as usize;
 
     // The pieces again, in order, with their ranks, into the output.
@@ -409,6 +292,139 @@ fn run(
         column_note = Some(note);
     }
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
+    let (counts, rows_out) = write_pieces(
+        plan,
+        output,
+        &spilled,
+        &ranks,
+        &selection,
+        !missing_tables.is_empty(),
+        staging,
+    )?;
+    if rows_out != rows_in {
+        return Err(Error::engine("checking that no row was lost")(polars_err!(
+            ComputeError: "{} rows in, {} rows out", rows_in, rows_out
+        )));
+    }
+
+    let summary = streamed_summary(
+        plan,
+        stream,
+        settings,
+        &first,
+        Tally {
+            pieces: spilled.len(),
+            data_lines: rows_before,
+            rows_in,
+            rows_out,
+            counts,
+        },
+        &Columns {
+            head: Vec::new(),
+            baseline_steps,
+            deflator_used,
+            missing_tables,
+        },
+        later_notes.into_iter().chain(column_note).collect(),
+    );
+    Ok(Ok(pipeline::AdjustOutput {
+        frame: DataFrame::empty(),
+        summary,
+    }))
+}
+
+/// A piece's output columns and the private ones the ranks and flags need, computed; an error
+/// if a row went missing.
+fn piece_frame(lf: LazyFrame, rows_in: usize, head: &[String]) -> Result<DataFrame> {
+    let mut keep: Vec<Expr> = head.iter().map(|c| col(c.as_str())).collect();
+    keep.extend(
+        [
+            "_ord",
+            "_flags_pre",
+            "_factor_flags",
+            "_rank_eligible",
+            "_unit",
+        ]
+        .map(col),
+    );
+    let frame = lf
+        .select(keep)
+        .collect()
+        .map_err(Error::engine("adjusting a piece of the table"))?;
+    if frame.height() != rows_in {
+        return Err(Error::engine("checking that no row was lost")(polars_err!(
+            ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
+        )));
+    }
+    Ok(frame)
+}
+
+/// What the pieces added up to.
+struct Tally {
+    pieces: usize,
+    data_lines: usize,
+    rows_in: usize,
+    rows_out: usize,
+    counts: FlagCounts,
+}
+
+/// The run summary of a streamed run: the first piece's notes with the whole file's count of
+/// data lines, the notes of later pieces, and how the file was cut.
+fn streamed_summary(
+    plan: &StreamRun<'_>,
+    stream: &StreamingPlan,
+    settings: &PipelineSettings,
+    first: &FirstPiece,
+    tally: Tally,
+    columns: &Columns,
+    more_notes: Vec<String>,
+) -> crate::model::RunSummary {
+    let mut notes = first.notes.clone();
+    let total_lines = tally.data_lines;
+    if let Some(read) = notes.first_mut() {
+        *read = read.replace(
+            &format!(", {} data line(s)", first.data_lines),
+            &format!(", {total_lines} data line(s)"),
+        );
+    }
+    notes.extend(more_notes);
+    notes.push(format!(
+        "streaming: read in {} piece(s) of about {:.2} MB; ranks computed once over the whole table",
+        tally.pieces,
+        stream.chunk_bytes as f64 / (1 << 20) as f64
+    ));
+    let mut summary = pipeline::summarize(
+        tally.counts,
+        plan.input_label,
+        notes,
+        tally.rows_in,
+        tally.rows_out,
+        settings,
+        &columns.baseline_steps,
+        columns.deflator_used,
+        plan.references,
+    );
+    summary
+        .warnings
+        .extend(pipeline::missing_tables_warning(&columns.missing_tables));
+    summary
+        .warnings
+        .splice(0..0, first.warnings.iter().cloned());
+    summary
+}
+
+/// The spilled pieces again, in order, each with its slice of the ranks and its flags, into
+/// one csv staged at `output`; the flag counts and the rows written.
+#[allow(clippy::too_many_arguments)]
+fn write_pieces(
+    plan: &StreamRun<'_>,
+    output: &Path,
+    spilled: &[Spilled],
+    ranks: &DataFrame,
+    selection: &[Expr],
+    baseline_missing: bool,
+    staging: &mut report::Staging,
+) -> Result<(FlagCounts, usize)> {
     let temp = report::temp_beside(output)?;
     let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
     let mut counts = FlagCounts::default();
@@ -421,8 +437,8 @@ fn run(
         frame
             .hstack_mut(piece_ranks.columns())
             .map_err(Error::engine("joining ranks to a piece"))?;
-        let frame = pipeline::with_flags(frame.lazy(), !missing_tables.is_empty())
-            .select(selection.clone())
+        let frame = pipeline::with_flags(frame.lazy(), baseline_missing)
+            .select(selection)
             .collect()
             .map_err(Error::engine("flagging a piece"))?;
         rows_out += frame.height();
@@ -436,11 +452,6 @@ fn run(
         )?;
         let _ = std::fs::remove_file(&piece.path);
     }
-    if rows_out != rows_in {
-        return Err(Error::engine("checking that no row was lost")(polars_err!(
-            ComputeError: "{} rows in, {} rows out", rows_in, rows_out
-        )));
-    }
     buffered
         .flush()
         .map_err(|e| Error::io(output.display(), "write the output", e))?;
@@ -448,43 +459,166 @@ fn run(
         .into_inner()
         .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
     staging.file(temp, output);
+    Ok((counts, rows_out))
+}
 
-    let mut notes = first.notes.clone();
-    let total_lines = rows_before;
-    if let Some(read) = notes.first_mut() {
-        *read = read.replace(
-            &format!(", {} data line(s)", first.data_lines),
-            &format!(", {total_lines} data line(s)"),
+/// The input opened for cutting into pieces, with its delimiter (UTF-16 is refused: its
+/// pieces cannot be cut at byte boundaries found by line breaks).
+fn open_pieces(
+    label: &str,
+    stream: &StreamingPlan,
+    settings: &PipelineSettings,
+) -> Result<Pieces<std::fs::File>> {
+    let file = std::fs::File::open(&stream.path).map_err(|e| Error::io(label, "open", e))?;
+    let mut reader = BufReader::with_capacity(1 << 20, file);
+    let delimiter = {
+        let peek = reader.fill_buf().map_err(|e| Error::io(label, "read", e))?;
+        let forced_utf16 = matches!(
+            settings.ingest.encoding,
+            Some(EncodingChoice::Utf16Le | EncodingChoice::Utf16Be)
         );
-    }
-    notes.extend(later_notes);
-    notes.extend(column_note);
-    notes.push(format!(
-        "streaming: read in {} piece(s) of about {:.2} MB; ranks computed once over the whole table",
-        spilled.len(),
-        stream.chunk_bytes as f64 / (1 << 20) as f64
-    ));
-    let mut summary = pipeline::summarize(
-        counts,
-        label,
-        notes,
-        rows_in,
-        rows_out,
-        settings,
-        &baseline_steps,
-        deflator_used,
+        if forced_utf16 || peek.starts_with(&[0xFF, 0xFE]) || peek.starts_with(&[0xFE, 0xFF]) {
+            return Err(Error::usage(
+                format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
+                "re-save the table as UTF-8, or run without --streaming",
+            ));
+        }
+        match settings.ingest.delimiter {
+            Some(d) => d,
+            None if label.ends_with(".tsv") || label.ends_with(".tab") => b'\t',
+            None => table::sniff_delimiter(&String::from_utf8_lossy(peek)),
+        }
+    };
+    Ok(Pieces {
+        reader,
+        delimiter,
+        target: stream.chunk_bytes.max(1),
+        finished: false,
+    })
+}
+
+/// A temporary folder for the spilled pieces beside the output, removed on exit or signal.
+fn spill_folder(output: &Path) -> Result<tempfile::TempDir> {
+    let folder = match output.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let spill_dir = tempfile::Builder::new()
+        .prefix(".levelfield-pieces-")
+        .tempdir_in(&folder)
+        .map_err(|e| Error::io(folder.display(), "create a temporary folder in", e))?;
+    crate::cleanup::register(spill_dir.path());
+    Ok(spill_dir)
+}
+
+/// Where a piece starts in the whole file.
+struct PieceStart {
+    lines_before: usize,
+    rows_before: usize,
+    ord: u64,
+}
+
+/// A piece after the first, read with the first piece's header, delimiter, encoding and roles,
+/// its lines and row ids those of the whole file.
+fn prepare_later_piece(
+    plan: &StreamRun<'_>,
+    first: &FirstPiece,
+    bytes: Vec<u8>,
+    start: &PieceStart,
+) -> Result<pipeline::Prepared> {
+    let text = match first.encoding {
+        Some(EncodingChoice::Windows1252) => {
+            encoding_rs::WINDOWS_1252.decode(&bytes).0.into_owned()
+        }
+        _ => String::from_utf8(bytes).map_err(|e| {
+            Error::bad_input(
+                crate::error::Location::line(
+                    plan.input_label,
+                    start.lines_before
+                        + 1
+                        + table::count_line_breaks(&e.as_bytes()[..e.utf8_error().valid_up_to()]),
+                ),
+                "bytes that are not valid UTF-8 (the first piece of the file was UTF-8)",
+                "text in one encoding",
+                "re-save the file as UTF-8, or pass --encoding windows-1252 if it is a legacy file",
+            )
+        })?,
+    };
+    let mut piece_settings = first.settings.clone();
+    piece_settings.ingest.line_offset = start.lines_before.saturating_sub(1);
+    piece_settings.ingest.row_offset = start.rows_before;
+    let piece = format!("{}\n{text}", first.header_line);
+    pipeline::prepare(
+        piece.as_bytes(),
+        plan.input_label,
+        &piece_settings,
+        plan.resolver,
         plan.references,
-    );
-    summary
-        .warnings
-        .extend(pipeline::missing_tables_warning(&missing_tables));
-    summary
-        .warnings
-        .splice(0..0, first.warnings.iter().cloned());
-    Ok(Ok(pipeline::AdjustOutput {
-        frame: DataFrame::empty(),
-        summary,
-    }))
+        start.ord,
+    )
+}
+
+/// What the first piece decided, for reading the others as it was read.
+fn first_piece(
+    ingested: &crate::ingest::Ingested,
+    settings: &PipelineSettings,
+    label: &str,
+) -> Result<FirstPiece> {
+    let mut piece_settings = settings.clone();
+    piece_settings.ingest.delimiter = Some(ingested.delimiter);
+    piece_settings.ingest.encoding = Some(EncodingChoice::Utf8);
+    piece_settings.ingest.roles = crate::ingest::layout::RoleFlags {
+        reserved: settings.ingest.roles.reserved.clone(),
+        ..ingested.roles_used.clone()
+    };
+    if ingested.dimensioned {
+        return Err(Error::usage(
+            format!("{label} is a statistics-office TSV (dimension codes joined in its first column), which --streaming does not cut into pieces"),
+            "run without --streaming",
+        ));
+    }
+    if ingested
+        .encoding
+        .is_some_and(|e| matches!(e, EncodingChoice::Utf16Le | EncodingChoice::Utf16Be))
+    {
+        return Err(Error::usage(
+            format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
+            "re-save the table as UTF-8, or run without --streaming",
+        ));
+    }
+    Ok(FirstPiece {
+        header_line: header_line(&ingested.headers, ingested.delimiter)?,
+        settings: piece_settings,
+        encoding: ingested.encoding,
+        notes: ingested.notes.clone(),
+        warnings: ingested.warnings.clone(),
+        data_lines: ingested.data_lines,
+    })
+}
+
+/// Ranks, once, over the narrow columns of every piece.
+fn ranks_once(
+    narrow: Vec<DataFrame>,
+    settings: &PipelineSettings,
+    baseline_missing: bool,
+) -> Result<DataFrame> {
+    let narrow = concat_frames(narrow)?;
+    let several = crate::rank::several_series(&[col("_e"), col("_g"), col("year")])
+        .map_err(Error::engine("ranking"))?;
+    let mixed = crate::rank::mixed_units(
+        col("_u").cast(DataType::String),
+        col("_rank_eligible"),
+        &[col("_g"), col("year")],
+    )
+    .map_err(Error::engine("ranking"))?;
+    let mut rank_columns = rank_exprs(settings, baseline_missing)?;
+    rank_columns.extend([col("_several"), col("_mixed")]);
+    narrow
+        .lazy()
+        .with_columns([several, mixed])
+        .select(rank_columns)
+        .collect()
+        .map_err(Error::engine("ranking"))
 }
 
 /// The header as a CSV line in `delimiter`, quoted where needed.
