@@ -2,13 +2,10 @@
 //! so that `cargo test` replays every committed fuzz corpus file through the same checks
 //! (tests/cli/fuzz_replay.rs). Each panics when its property fails.
 
-use crate::adjust::{IncomeAs, StepSettings};
 use crate::cells::number::{parse_cell, Cell, NumberStyle};
 use crate::entity::{Resolution, Resolver};
-use crate::ingest::IngestOptions;
 use crate::pipeline::{run_adjust, PipelineSettings};
-use crate::rank::Order;
-use crate::reference::{self, Basis, References};
+use crate::reference::{self, References};
 use crate::report::format::{format_number, Rounding};
 use std::sync::OnceLock;
 
@@ -65,30 +62,20 @@ pub fn ingest_adjust(data: &[u8]) {
         let mut resolver = Resolver::builtin();
         let references = reference::load(&crate::cmd::demo::DEMO_REFERENCES, &mut resolver)
             .expect("demo references");
-        let settings = PipelineSettings {
-            ingest: IngestOptions {
-                lenient: true,
-                ..IngestOptions::default()
-            },
-            steps: crate::plan::parse_steps(&["deflate".into(), "ppp".into()]).expect("steps"),
-            step_settings: StepSettings {
-                base_year: Some(2023),
-                deflator: None,
-                per: 1,
-                income_as: IncomeAs::Share,
-                income_basis: Basis::Lcu,
-                base_currency: "USD".into(),
-                proportion: false,
-                uncertain_factors: Default::default(),
-            },
-            nearest_year: 1,
-            allow_unresolved: true,
-            rank_aggregates: false,
-            order: Order::Desc,
-            intervals: None,
-            assume_base_rows: false,
-            factor_year_offset: None,
-        };
+        let settings = crate::plan::settings_from_words(
+            &[
+                "--steps",
+                "deflate,ppp",
+                "--base-year",
+                "2023",
+                "--nearest-year",
+                "1",
+                "--allow-unresolved",
+                "--lenient",
+            ],
+            Some(&references),
+        )
+        .expect("settings");
         (resolver, references, settings)
     });
     let Ok(ingested) = crate::ingest::ingest(data, "fuzz.csv", &settings.ingest, None) else {

@@ -114,9 +114,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         Some(dir) => Some(load_refs(dir, &mut resolver)?),
         None => None,
     };
-    let mut ingest = ingest_options(&args.columns)?;
-    ingest.margins = margin_spec(&args.uncertainty)?;
-    let settings = pipeline_settings(args, steps, ingest, references.as_ref());
+    let settings = settings_of(args, steps, references.as_ref())?;
     if streaming.is_some() {
         crate::streaming::check(
             input,
@@ -137,6 +135,40 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         recipe_file: None,
         streaming,
     })
+}
+
+/// The pipeline settings of an `adjust` run: how to read the input (with its margins), the
+/// steps, and what the references say.
+fn settings_of(
+    args: &AdjustArgs,
+    steps: Vec<&'static dyn Step>,
+    references: Option<&References>,
+) -> Result<PipelineSettings> {
+    let mut ingest = ingest_options(&args.columns)?;
+    ingest.margins = margin_spec(&args.uncertainty)?;
+    Ok(pipeline_settings(args, steps, ingest, references))
+}
+
+/// The pipeline settings `levelfield adjust INPUT WORDS...` would run with, parsed by the same
+/// clap definition and checked by the same rules, without reading a file: for the fuzz targets
+/// and property tests, which run the pipeline on generated tables.
+pub fn settings_from_words(
+    words: &[&str],
+    references: Option<&References>,
+) -> Result<PipelineSettings> {
+    let argv = ["levelfield", "adjust", "-"].into_iter().chain(words.iter().copied());
+    let cli = crate::cli::parse_from(argv).map_err(|e| {
+        Error::usage(
+            e.to_string(),
+            "pass adjust's flags as the command line takes them",
+        )
+    })?;
+    let crate::cli::Command::Adjust(args) = cli.command else {
+        return Err(Error::usage("not an adjust command", "pass adjust's flags"));
+    };
+    let steps = parse_steps(&args.steps)?;
+    check_step_options(&steps, args.base_year)?;
+    settings_of(&args, steps, references)
 }
 
 /// The pipeline settings, with the base currency and income basis taken from the references.
@@ -582,4 +614,37 @@ fn refuse_overwrite(
         }
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn settings_from_words_are_those_the_command_line_gives() {
+        let settings = settings_from_words(
+            &[
+                "--steps",
+                "deflate,ppp",
+                "--base-year",
+                "2023",
+                "--nearest-year",
+                "1",
+                "--lenient",
+                "--allow-unresolved",
+            ],
+            None,
+        )
+        .unwrap();
+        let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
+        assert_eq!(names, ["deflate", "ppp"]);
+        assert_eq!(settings.step_settings.base_year, Some(2023));
+        assert_eq!(settings.step_settings.base_currency, "USD");
+        assert_eq!(settings.nearest_year, 1);
+        assert!(settings.ingest.lenient && settings.allow_unresolved);
+        assert!(settings.intervals.is_none());
+        // The same refusals as the command line: an unknown step, a flag adjust does not take.
+        assert!(settings_from_words(&["--steps", "deflat"], None).is_err());
+        assert!(settings_from_words(&["--no-such-flag"], None).is_err());
+    }
 }

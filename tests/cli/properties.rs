@@ -2,14 +2,10 @@
 //! out, ranks are a standard competition ranking, exact factors divide back out, a growing value
 //! never ranks lower, and numbers written by the writer read back unchanged.
 
-use levelfield::adjust::{IncomeAs, StepSettings};
 use levelfield::cells::number::{parse_cell, Cell, NumberStyle};
 use levelfield::entity::Resolver;
-use levelfield::ingest::IngestOptions;
 use levelfield::pipeline::{run_adjust, PipelineSettings};
-use levelfield::plan::parse_steps;
-use levelfield::rank::Order;
-use levelfield::reference::{self, Basis, References};
+use levelfield::reference::{self, References};
 use levelfield::report::format::{format_number, Rounding};
 use polars::prelude::*;
 use proptest::prelude::*;
@@ -24,29 +20,12 @@ fn demo_references() -> (Resolver, References) {
     (resolver, references)
 }
 
+/// The settings of `adjust --steps STEPS --base-year 2023 --allow-unresolved`, parsed by the
+/// command line's own definition.
 fn settings(steps: &[&str]) -> PipelineSettings {
-    let names: Vec<String> = steps.iter().map(|s| s.to_string()).collect();
-    PipelineSettings {
-        ingest: IngestOptions::default(),
-        steps: parse_steps(&names).unwrap(),
-        step_settings: StepSettings {
-            base_year: Some(2023),
-            deflator: None,
-            per: 1,
-            income_as: IncomeAs::Share,
-            income_basis: Basis::Lcu,
-            base_currency: "USD".into(),
-            proportion: false,
-            uncertain_factors: Default::default(),
-        },
-        nearest_year: 0,
-        allow_unresolved: true,
-        rank_aggregates: false,
-        order: Order::Desc,
-        intervals: None,
-        assume_base_rows: false,
-        factor_year_offset: None,
-    }
+    let steps = steps.join(",");
+    let words = ["--steps", &steps, "--base-year", "2023", "--allow-unresolved"];
+    levelfield::plan::settings_from_words(&words, None).unwrap()
 }
 
 fn table(rows: &[(usize, i32, Option<f64>)]) -> String {
