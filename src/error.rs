@@ -150,12 +150,15 @@ impl Error {
     }
 }
 
+/// Unresolved names listed one by one (with suggestions); the others are counted.
+pub const UNRESOLVED_SHOWN: usize = 50;
+
 fn format_unresolved(file: &str, names: &[UnresolvedName]) -> String {
     let mut out = format!(
         "{file}: {} entity name(s) match no ISO 3166-1 country, alias or aggregate:",
         names.len()
     );
-    for name in names {
+    for name in names.iter().take(UNRESOLVED_SHOWN) {
         let lines: Vec<String> = name.lines.iter().take(5).map(|l| l.to_string()).collect();
         let more = if name.lines.len() > 5 { ", ..." } else { "" };
         out.push_str(&format!(
@@ -168,6 +171,14 @@ fn format_unresolved(file: &str, names: &[UnresolvedName]) -> String {
         } else {
             out.push_str(&format!(": did you mean {}?", name.suggestions.join(", ")));
         }
+    }
+    if let Some(first) = names.get(UNRESOLVED_SHOWN) {
+        out.push_str(&format!(
+            "\n  and {} more, the first \"{}\" (line {}); a column of names that nearly all match nothing is often not the entity column (--entity names it)",
+            names.len() - UNRESOLVED_SHOWN,
+            first.text,
+            first.lines.first().copied().unwrap_or(0)
+        ));
     }
     out.push_str(
         "\n  what to do: add the names to an alias file (CSV: name,code) and pass --aliases FILE, \
@@ -216,5 +227,34 @@ mod tests {
         assert!(text.contains("\"Frnace\" (line 3): did you mean France (FRA)?"));
         assert!(text.contains("\"Atlantis\" (line 4, 9): no close match"));
         assert!(text.contains("--aliases FILE"));
+    }
+
+    #[test]
+    fn a_long_list_of_unresolved_names_is_shown_in_part_and_counted() {
+        let names = (0..UNRESOLVED_SHOWN + 7)
+            .map(|i| UnresolvedName {
+                text: format!("Place {i}"),
+                lines: vec![i + 2],
+                suggestions: vec![],
+            })
+            .collect();
+        let text = Error::Unresolved {
+            file: "in.csv".into(),
+            names,
+        }
+        .to_string();
+        let last_shown = format!(
+            "\"Place {}\" (line {})",
+            UNRESOLVED_SHOWN - 1,
+            UNRESOLVED_SHOWN + 1
+        );
+        assert!(text.contains(&last_shown), "{text}");
+        assert!(!text.contains(&format!("\n  \"Place {}\" (line", UNRESOLVED_SHOWN)));
+        let counted = format!(
+            "and 7 more, the first \"Place {UNRESOLVED_SHOWN}\" (line {})",
+            UNRESOLVED_SHOWN + 2
+        );
+        assert!(text.contains(&counted), "{text}");
+        assert!(text.contains("--entity"));
     }
 }

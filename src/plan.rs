@@ -156,7 +156,9 @@ pub fn settings_from_words(
     words: &[&str],
     references: Option<&References>,
 ) -> Result<PipelineSettings> {
-    let argv = ["levelfield", "adjust", "-"].into_iter().chain(words.iter().copied());
+    let argv = ["levelfield", "adjust", "-"]
+        .into_iter()
+        .chain(words.iter().copied());
     let cli = crate::cli::parse_from(argv).map_err(|e| {
         Error::usage(
             e.to_string(),

@@ -73,7 +73,7 @@ pub fn resolve_rows(
         let outcome = match cache.get(&row.entity_input) {
             Some(&outcome) => outcome,
             None => {
-                let outcome = match resolver.resolve(&row.entity_input) {
+                let outcome = match resolver.resolve_with(&row.entity_input, false) {
                     Resolution::Found(entity) => {
                         columns.found.push(entity.clone());
                         Ok(columns.found.len() as u32 - 1)
@@ -120,6 +120,12 @@ pub fn resolve_rows(
         }
     }
     if !unresolved.is_empty() && !options.allow_unresolved {
+        // Suggestions for the names the error shows, searched only now.
+        for name in unresolved.iter_mut().take(crate::error::UNRESOLVED_SHOWN) {
+            if let Resolution::Unresolved { suggestions } = resolver.resolve(&name.text) {
+                name.suggestions = suggestions;
+            }
+        }
         return Err(Error::Unresolved {
             file: ingested.file.clone(),
             names: unresolved,
@@ -131,9 +137,14 @@ pub fn resolve_rows(
             unresolved.len(),
             unresolved
                 .iter()
+                .take(crate::error::UNRESOLVED_SHOWN)
                 .map(|u| format!("\"{}\"", u.text))
                 .collect::<Vec<_>>()
                 .join(", ")
+                + &match unresolved.len().checked_sub(crate::error::UNRESOLVED_SHOWN) {
+                    Some(more) if more > 0 => format!(" and {more} more"),
+                    _ => String::new(),
+                }
         ));
     }
     Ok((columns, bases))

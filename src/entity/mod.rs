@@ -147,6 +147,12 @@ impl Resolver {
     }
 
     pub fn resolve(&self, text: &str) -> Resolution<'_> {
+        self.resolve_with(text, true)
+    }
+
+    /// As `resolve`; with `suggest` false a name that matches nothing gets no suggestions (the
+    /// search for them is most of the cost of a table full of unknown names).
+    pub fn resolve_with(&self, text: &str, suggest: bool) -> Resolution<'_> {
         let text = text.trim();
         if let Some(idx) = self.code_index(text) {
             return Resolution::Found(&self.entities[idx]);
@@ -169,7 +175,11 @@ impl Resolver {
                     .collect(),
             },
             None => Resolution::Unresolved {
-                suggestions: self.suggest(&key),
+                suggestions: if suggest {
+                    self.suggest(&key)
+                } else {
+                    Vec::new()
+                },
             },
         }
     }

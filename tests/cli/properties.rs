@@ -24,7 +24,13 @@ fn demo_references() -> (Resolver, References) {
 /// command line's own definition.
 fn settings(steps: &[&str]) -> PipelineSettings {
     let steps = steps.join(",");
-    let words = ["--steps", &steps, "--base-year", "2023", "--allow-unresolved"];
+    let words = [
+        "--steps",
+        &steps,
+        "--base-year",
+        "2023",
+        "--allow-unresolved",
+    ];
     levelfield::plan::settings_from_words(&words, None).unwrap()
 }
 
