@@ -273,34 +273,68 @@ impl<'a> CellSource<'a> {
         }
     }
 
-    /// Replaces `buf` with the next cell's text (`guard`: see `report::write_csv`).
+    /// Replaces `buf` with the next cell's text (`guard`: see `write_csv`).
     pub fn next_into(&mut self, rounding: Rounding, guard: bool, buf: &mut String) {
-        use std::fmt::Write;
         buf.clear();
+        self.push_next(rounding, guard, buf);
+    }
+
+    /// Appends the next cell's text to `out`.
+    fn push_next(&mut self, rounding: Rounding, guard: bool, out: &mut String) {
+        use std::fmt::Write;
         match self {
             CellSource::Float(cells) => match cells.next().flatten() {
                 Some(x) if rounding == Rounding::Full && x.is_finite() => {
                     let x = if x == 0.0 { 0.0 } else { x };
-                    let _ = write!(buf, "{x}");
+                    let _ = write!(out, "{x}");
                 }
-                Some(x) => buf.push_str(&format_number(x, rounding, false)),
+                Some(x) => out.push_str(&format_number(x, rounding, false)),
                 None => {}
             },
             CellSource::Int(cells) => {
                 if let Some(x) = cells.next().flatten() {
-                    let _ = write!(buf, "{x}");
+                    let _ = write!(out, "{x}");
                 }
             }
             CellSource::Text(cells) => {
                 let text = cells.next().flatten().unwrap_or("");
                 if guard && runs_as_formula(text) {
-                    buf.push('\'');
+                    out.push('\'');
                 }
-                buf.push_str(text);
+                out.push_str(text);
             }
-            CellSource::Other(cells) => buf.push_str(&cells.next().unwrap_or_default()),
+            CellSource::Other(cells) => out.push_str(&cells.next().unwrap_or_default()),
         }
     }
+
+    /// Appends the next cell to `out` as a csv field. Numbers never need quotes; other text
+    /// is quoted as the csv crate quotes it (see `needs_quotes`).
+    fn push_csv_field(&mut self, rounding: Rounding, guard: bool, out: &mut String) {
+        if matches!(self, CellSource::Float(_) | CellSource::Int(_)) {
+            return self.push_next(rounding, guard, out);
+        }
+        let start = out.len();
+        self.push_next(rounding, guard, out);
+        if needs_quotes(&out[start..]) {
+            let field = out.split_off(start);
+            push_quoted(out, &field);
+        }
+    }
+}
+
+/// Whether a csv field must be quoted: it holds the delimiter, a quote or a line break (the csv
+/// crate's rule for its default writer with a `\n` terminator).
+fn needs_quotes(field: &str) -> bool {
+    field
+        .bytes()
+        .any(|b| matches!(b, b',' | b'"' | b'\n' | b'\r'))
+}
+
+/// `field` in quotes, its quotes doubled (RFC 4180).
+fn push_quoted(out: &mut String, field: &str) {
+    out.push('"');
+    out.push_str(&field.replace('"', "\"\""));
+    out.push('"');
 }
 
 /// A column as JSON values (numbers stay numbers).
@@ -337,7 +371,7 @@ pub fn render_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> Result<
 }
 
 /// Rows formatted at a time by one thread: the text of a few slices is held, not the frame's.
-const CSV_SLICE_ROWS: usize = 65_536;
+const CSV_SLICE_ROWS: usize = 8_192;
 
 /// The csv writer's settings, the same for the header and for every slice.
 fn csv_writer<W: std::io::Write>(out: W) -> csv::Writer<W> {
@@ -355,27 +389,36 @@ fn csv_error(e: impl std::fmt::Display) -> Error {
     write_error(std::io::Error::other(e.to_string()))
 }
 
-/// The csv text of the rows of `slice` (no header line).
+/// The csv text of the rows of `slice` (no header line), byte for byte what the csv crate's
+/// writer gives for the same cells (the unit tests hold the two to each other), written
+/// straight into one buffer: the crate's per-field state machine cost more than the
+/// formatting.
 fn slice_csv(
     slice: &DataFrame,
     names: &[String],
     rounding: Rounding,
     guard: bool,
 ) -> Result<Vec<u8>> {
-    let mut writer = csv_writer(Vec::with_capacity(slice.height() * 64));
+    let mut out = String::with_capacity(slice.height() * (names.len() * 12 + 1));
     let mut columns: Vec<CellSource> = names
         .iter()
         .map(|n| CellSource::new(slice, n, rounding))
         .collect();
-    let mut cell = String::new();
     for _ in 0..slice.height() {
-        for column in columns.iter_mut() {
-            column.next_into(rounding, guard, &mut cell);
-            writer.write_field(cell.as_bytes()).map_err(csv_error)?;
+        let row_start = out.len();
+        for (i, column) in columns.iter_mut().enumerate() {
+            if i > 0 {
+                out.push(',');
+            }
+            column.push_csv_field(rounding, guard, &mut out);
         }
-        writer.write_record(None::<&[u8]>).map_err(csv_error)?;
+        // A row of one empty cell is written `""`, so that it is not a blank line.
+        if out.len() == row_start {
+            out.push_str("\"\"");
+        }
+        out.push('\n');
     }
-    writer.into_inner().map_err(csv_error)
+    Ok(out.into_bytes())
 }
 
 /// Writes the frame as csv (with or without the header line) to `out`. Slices of
@@ -482,6 +525,44 @@ mod tests {
                 .unwrap();
         }
         assert_eq!(bytes, expected.into_inner().unwrap());
+    }
+
+    #[test]
+    fn fields_are_quoted_as_the_csv_crate_quotes_them() {
+        let tricky = [
+            "",
+            "plain",
+            "a,b",
+            "say \"hi\"",
+            "\"",
+            "line\nbreak",
+            "cr\rhere",
+            "'=1+1",
+            " x ",
+            "é,ü",
+            ";",
+            "\t",
+            "#",
+            "\"\"",
+        ];
+        for (a, b) in tricky
+            .iter()
+            .flat_map(|a| tricky.iter().map(move |b| (a, b)))
+        {
+            let frame = df!("a" => [*a], "b" => [*b]).unwrap();
+            let ours = slice_csv(&frame, &["a".into(), "b".into()], Rounding::Full, false).unwrap();
+            let mut theirs = csv_writer(Vec::new());
+            theirs.write_record([a, b]).unwrap();
+            assert_eq!(ours, theirs.into_inner().unwrap(), "{a:?} {b:?}");
+        }
+        // One column: an empty cell is `""`, as the crate writes it.
+        for cell in tricky {
+            let frame = df!("a" => [cell]).unwrap();
+            let ours = slice_csv(&frame, &["a".into()], Rounding::Full, false).unwrap();
+            let mut theirs = csv_writer(Vec::new());
+            theirs.write_record([cell]).unwrap();
+            assert_eq!(ours, theirs.into_inner().unwrap(), "{cell:?}");
+        }
     }
 
     #[test]
