@@ -152,6 +152,120 @@ struct RawResource {
     decimal_comma: bool,
 }
 
+/// One resource of the catalog, its fields checked: a name, a path, a known kind, a positive
+/// multiplier, a known layout and basis, and margins only where they may be.
+fn resource_of(r: RawResource, index: usize, file: &str) -> Result<Resource> {
+    let label = r.name.clone().unwrap_or_else(|| format!("#{}", index + 1));
+    let fail = |found: String, expected: &str, fix: &str| {
+        Error::bad_input(
+            Location::file(format!("{file} (resource {label})")),
+            found,
+            expected.to_string(),
+            fix.to_string(),
+        )
+    };
+    let name = r.name.clone().ok_or_else(|| {
+        fail(
+            "a resource without a name".into(),
+            "a \"name\"",
+            "name every resource",
+        )
+    })?;
+    let path = r.path.clone().ok_or_else(|| {
+        fail(
+            "a resource without a path".into(),
+            "a \"path\" to a CSV file",
+            "add the path",
+        )
+    })?;
+    let kind_text = r.kind.clone().unwrap_or_default();
+    let kind = Kind::parse(&kind_text).ok_or_else(|| {
+        fail(
+            format!("unknown kind \"{kind_text}\""),
+            "one of fx, ppp, cpi, population, income",
+            "set \"kind\" to one of the known kinds",
+        )
+    })?;
+    let multiplier = r.multiplier.unwrap_or(1.0);
+    if !(multiplier.is_finite() && multiplier > 0.0) {
+        return Err(fail(
+            format!("multiplier {multiplier}"),
+            "a positive multiplier such as 1000",
+            "fix \"multiplier\"",
+        ));
+    }
+    let layout = match r.layout.as_deref() {
+        None => LayoutChoice::Auto,
+        Some("long") => LayoutChoice::Long,
+        Some("wide") => LayoutChoice::Wide,
+        Some(other) => {
+            return Err(fail(
+                format!("layout \"{other}\""),
+                "long or wide",
+                "fix \"layout\" or leave it out",
+            ))
+        }
+    };
+    let basis = match r.basis.as_deref() {
+        None | Some("lcu") => Basis::Lcu,
+        Some("usd") | Some("base") => Basis::Base,
+        Some("intl") | Some("ppp") => Basis::Intl,
+        Some(other) => {
+            return Err(fail(
+                format!("basis \"{other}\""),
+                "lcu, usd or intl",
+                "fix \"basis\"",
+            ))
+        }
+    };
+    if r.margin_field.is_some() && !matches!(r.margin_confidence, Some(90 | 95 | 99)) {
+        return Err(fail(
+            "margin_field without a margin_confidence of 90, 95 or 99".into(),
+            "the confidence level the margins are stated at",
+            "add \"margin_confidence\": 90 (or 95, 99)",
+        ));
+    }
+    if (r.margin_field.is_some() || r.se_field.is_some())
+        && !matches!(kind, Kind::Population | Kind::Income)
+    {
+        return Err(fail(
+            format!("margins on a {} table", kind.as_str()),
+            "margins only on population and income tables (fx, ppp and cpi are treated as exact)",
+            "remove se_field / margin_field from this resource",
+        ));
+    }
+    let base_currency = r
+        .base_currency
+        .clone()
+        .unwrap_or_else(|| "USD".into())
+        .to_uppercase();
+    let vintage = r.vintage.as_ref().map(|v| match v {
+        serde_json::Value::String(s) => s.clone(),
+        other => other.to_string(),
+    });
+    Ok(Resource {
+        name,
+        path,
+        kind,
+        unit: r.unit,
+        multiplier,
+        base_currency,
+        vintage,
+        sources: r.sources,
+        layout,
+        entity_field: r.entity_field,
+        year_field: r.year_field,
+        value_field: r.value_field,
+        basis,
+        se_field: r.se_field,
+        margin_field: r.margin_field,
+        margin_confidence: r.margin_confidence,
+        format: r.format,
+        filter: r.filter,
+        decimal_comma: r.decimal_comma,
+    })
+}
+
 /// Parses and checks a catalog; `file` names it in messages.
 pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
     let text = String::from_utf8_lossy(bytes);
@@ -166,115 +280,7 @@ pub fn parse_catalog(bytes: &[u8], file: &str) -> Result<Catalog> {
     })?;
     let mut resources = Vec::with_capacity(raw.resources.len());
     for (index, r) in raw.resources.into_iter().enumerate() {
-        let label = r.name.clone().unwrap_or_else(|| format!("#{}", index + 1));
-        let fail = |found: String, expected: &str, fix: &str| {
-            Error::bad_input(
-                Location::file(format!("{file} (resource {label})")),
-                found,
-                expected.to_string(),
-                fix.to_string(),
-            )
-        };
-        let name = r.name.clone().ok_or_else(|| {
-            fail(
-                "a resource without a name".into(),
-                "a \"name\"",
-                "name every resource",
-            )
-        })?;
-        let path = r.path.clone().ok_or_else(|| {
-            fail(
-                "a resource without a path".into(),
-                "a \"path\" to a CSV file",
-                "add the path",
-            )
-        })?;
-        let kind_text = r.kind.clone().unwrap_or_default();
-        let kind = Kind::parse(&kind_text).ok_or_else(|| {
-            fail(
-                format!("unknown kind \"{kind_text}\""),
-                "one of fx, ppp, cpi, population, income",
-                "set \"kind\" to one of the known kinds",
-            )
-        })?;
-        let multiplier = r.multiplier.unwrap_or(1.0);
-        if !(multiplier.is_finite() && multiplier > 0.0) {
-            return Err(fail(
-                format!("multiplier {multiplier}"),
-                "a positive multiplier such as 1000",
-                "fix \"multiplier\"",
-            ));
-        }
-        let layout = match r.layout.as_deref() {
-            None => LayoutChoice::Auto,
-            Some("long") => LayoutChoice::Long,
-            Some("wide") => LayoutChoice::Wide,
-            Some(other) => {
-                return Err(fail(
-                    format!("layout \"{other}\""),
-                    "long or wide",
-                    "fix \"layout\" or leave it out",
-                ))
-            }
-        };
-        let basis = match r.basis.as_deref() {
-            None | Some("lcu") => Basis::Lcu,
-            Some("usd") | Some("base") => Basis::Base,
-            Some("intl") | Some("ppp") => Basis::Intl,
-            Some(other) => {
-                return Err(fail(
-                    format!("basis \"{other}\""),
-                    "lcu, usd or intl",
-                    "fix \"basis\"",
-                ))
-            }
-        };
-        if r.margin_field.is_some() && !matches!(r.margin_confidence, Some(90 | 95 | 99)) {
-            return Err(fail(
-                "margin_field without a margin_confidence of 90, 95 or 99".into(),
-                "the confidence level the margins are stated at",
-                "add \"margin_confidence\": 90 (or 95, 99)",
-            ));
-        }
-        if (r.margin_field.is_some() || r.se_field.is_some())
-            && !matches!(kind, Kind::Population | Kind::Income)
-        {
-            return Err(fail(
-                format!("margins on a {} table", kind.as_str()),
-                "margins only on population and income tables (fx, ppp and cpi are treated as exact)",
-                "remove se_field / margin_field from this resource",
-            ));
-        }
-        let base_currency = r
-            .base_currency
-            .clone()
-            .unwrap_or_else(|| "USD".into())
-            .to_uppercase();
-        let vintage = r.vintage.as_ref().map(|v| match v {
-            serde_json::Value::String(s) => s.clone(),
-            other => other.to_string(),
-        });
-        resources.push(Resource {
-            name,
-            path,
-            kind,
-            unit: r.unit,
-            multiplier,
-            base_currency,
-            vintage,
-            sources: r.sources,
-            layout,
-            entity_field: r.entity_field,
-            year_field: r.year_field,
-            value_field: r.value_field,
-            basis,
-            se_field: r.se_field,
-            margin_field: r.margin_field,
-            margin_confidence: r.margin_confidence,
-            format: r.format,
-            filter: r.filter,
-            decimal_comma: r.decimal_comma,
-        });
+        resources.push(resource_of(r, index, file)?);
     }
     for (i, a) in resources.iter().enumerate() {
         if let Some(b) = resources[..i].iter().find(|b| b.kind == a.kind) {

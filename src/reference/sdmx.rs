@@ -55,6 +55,78 @@ fn area_column(headers: &[String]) -> Option<usize> {
 
 pub use crate::ingest::layout::looks_like_sdmx;
 
+/// The columns of an observation.
+#[derive(Clone, Copy)]
+struct Observed {
+    time: usize,
+    value: usize,
+    unit_mult: Option<usize>,
+}
+
+/// A record's year and factor (times ten to its UNIT_MULT and the catalog's multiplier), or
+/// none when the value is missing; a period that is not a year, a value that is not a number
+/// and a factor that is not positive are errors at the record's line.
+fn observation(
+    record: &crate::ingest::table::TextRecord,
+    columns: &Observed,
+    text_table: &table::TextTable,
+    file: &str,
+    resource: &Resource,
+) -> Result<Option<(i32, f64)>> {
+    let Observed {
+        time,
+        value,
+        unit_mult,
+    } = *columns;
+    let period = code(&record.cells[time]);
+    let year: i32 = match period.parse() {
+        Ok(y) if period.len() == 4 => y,
+        _ => return Err(Error::bad_input(
+            Location::cell(file, record.line, &text_table.headers[time]),
+            format!("TIME_PERIOD \"{period}\" is not a year"),
+            "annual observations (TIME_PERIOD such as 2021)",
+            "filter the file to its annual frequency (for example \"filter\": {\"FREQ\": \"A\"})",
+        )),
+    };
+    let cell = &record.cells[value];
+    let factor = match number::parse_cell(cell, NumberStyle::default()) {
+        Ok(Cell::Missing) => return Ok(None),
+        Ok(Cell::Number { float, .. }) => float,
+        Err(e) => {
+            return Err(Error::bad_input(
+                Location::cell(file, record.line, &text_table.headers[value]),
+                e.reason,
+                format!("a {} factor ({})", resource.kind.as_str(), e.hint),
+                "fix the file",
+            ))
+        }
+    };
+    let power = match unit_mult.map(|i| code(&record.cells[i]).to_string()) {
+        None => 0,
+        Some(text) if text.is_empty() => 0,
+        Some(text) => text.parse::<i32>().map_err(|_| {
+            Error::bad_input(
+                Location::cell(file, record.line, "UNIT_MULT"),
+                format!("UNIT_MULT \"{text}\" is not a power of ten"),
+                "an integer such as 0, 3 or 6",
+                "fix the file",
+            )
+        })?,
+    };
+    let factor = factor * 10f64.powi(power) * resource.multiplier;
+    check_positive(
+        factor,
+        cell,
+        resource,
+        file,
+        record.line,
+        &text_table.headers[value],
+    )?;
+    Ok(Some((year, factor)))
+}
+
+/// A reference table from an SDMX-CSV file (version 1 or 2): the rows the catalog's `filter`
+/// keeps, one factor per entity and year; several series for one entity-year are an error.
 pub fn load_sdmx(
     text_table: &table::TextTable,
     bytes: &[u8],
@@ -119,52 +191,20 @@ pub fn load_sdmx(
                 continue;
             }
         };
-        let period = code(&record.cells[time]);
-        let year: i32 = match period.parse() {
-            Ok(y) if period.len() == 4 => y,
-            _ => {
-                return Err(Error::bad_input(
-                    Location::cell(file, record.line, &text_table.headers[time]),
-                    format!("TIME_PERIOD \"{period}\" is not a year"),
-                    "annual observations (TIME_PERIOD such as 2021)",
-                    "filter the file to its annual frequency (for example \"filter\": {\"FREQ\": \"A\"})",
-                ))
-            }
-        };
-        let cell = &record.cells[value];
-        let factor = match number::parse_cell(cell, NumberStyle::default()) {
-            Ok(Cell::Missing) => continue,
-            Ok(Cell::Number { float, .. }) => float,
-            Err(e) => {
-                return Err(Error::bad_input(
-                    Location::cell(file, record.line, &text_table.headers[value]),
-                    e.reason,
-                    format!("a {} factor ({})", resource.kind.as_str(), e.hint),
-                    "fix the file",
-                ))
-            }
-        };
-        let power = match unit_mult.map(|i| code(&record.cells[i]).to_string()) {
-            None => 0,
-            Some(text) if text.is_empty() => 0,
-            Some(text) => text.parse::<i32>().map_err(|_| {
-                Error::bad_input(
-                    Location::cell(file, record.line, "UNIT_MULT"),
-                    format!("UNIT_MULT \"{text}\" is not a power of ten"),
-                    "an integer such as 0, 3 or 6",
-                    "fix the file",
-                )
-            })?,
-        };
-        let factor = factor * 10f64.powi(power) * resource.multiplier;
-        check_positive(
-            factor,
-            cell,
-            resource,
+        let Some((year, factor)) = observation(
+            record,
+            &Observed {
+                time,
+                value,
+                unit_mult,
+            },
+            text_table,
             file,
-            record.line,
-            &text_table.headers[value],
-        )?;
+            resource,
+        )?
+        else {
+            continue;
+        };
         let series: String = dimensions
             .iter()
             .map(|&i| format!("{}={}", headers[i], code(&record.cells[i])))
