@@ -134,10 +134,13 @@ mod tests {
 
     #[test]
     fn truncation_and_collection_keep_the_first_cells() {
-        let mut cells: Cells = ["x", "", "yz", ""].into_iter().collect();
-        assert_eq!(cells.len(), 4);
+        let mut cells: Cells = ["x", "", "yz", "w"].into_iter().collect();
+        assert_eq!((cells.len(), cells.is_empty()), (4, false));
         cells.truncate(3);
         assert_eq!(cells.iter().collect::<Vec<_>>(), vec!["x", "", "yz"]);
+        // The dropped cells' text goes too: equal to the three cells collected afresh.
+        assert_eq!(cells, ["x", "", "yz"].into_iter().collect::<Cells>());
+        assert_eq!(format!("{cells:?}"), r#"["x", "", "yz"]"#);
         cells.truncate(0);
         assert!(cells.is_empty());
         let empty: Cells = Vec::<String>::new().into_iter().collect();
