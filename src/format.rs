@@ -237,7 +237,7 @@ pub fn column_texts(
     }
 }
 
-/// A column's cells, written one at a time into a reused buffer: the csv writer's path, which
+/// A column's cells, appended one at a time to a slice's buffer: the csv writer's path, which
 /// allocates nothing per cell for numbers and text. Gives the same text as `column_texts`.
 pub enum CellSource<'a> {
     Float(Box<dyn Iterator<Item = Option<f64>> + 'a>),
@@ -273,13 +273,7 @@ impl<'a> CellSource<'a> {
         }
     }
 
-    /// Replaces `buf` with the next cell's text (`guard`: see `write_csv`).
-    pub fn next_into(&mut self, rounding: Rounding, guard: bool, buf: &mut String) {
-        buf.clear();
-        self.push_next(rounding, guard, buf);
-    }
-
-    /// Appends the next cell's text to `out`.
+    /// Appends the next cell's text to `out` (`guard`: see `write_csv`).
     fn push_next(&mut self, rounding: Rounding, guard: bool, out: &mut String) {
         use std::fmt::Write;
         match self {
@@ -393,12 +387,7 @@ fn csv_error(e: impl std::fmt::Display) -> Error {
 /// writer gives for the same cells (the unit tests hold the two to each other), written
 /// straight into one buffer: the crate's per-field state machine cost more than the
 /// formatting.
-fn slice_csv(
-    slice: &DataFrame,
-    names: &[String],
-    rounding: Rounding,
-    guard: bool,
-) -> Result<Vec<u8>> {
+fn slice_csv(slice: &DataFrame, names: &[String], rounding: Rounding, guard: bool) -> Vec<u8> {
     let mut out = String::with_capacity(slice.height() * (names.len() * 12 + 1));
     let mut columns: Vec<CellSource> = names
         .iter()
@@ -418,7 +407,7 @@ fn slice_csv(
         }
         out.push('\n');
     }
-    Ok(out.into_bytes())
+    out.into_bytes()
 }
 
 /// Writes the frame as csv (with or without the header line) to `out`. Slices of
@@ -452,7 +441,7 @@ pub fn write_csv(
         let starts: Vec<usize> = (start..frame.height().min(start + batch))
             .step_by(CSV_SLICE_ROWS)
             .collect();
-        let texts: Vec<Result<Vec<u8>>> = pool.install(|| {
+        let texts: Vec<Vec<u8>> = pool.install(|| {
             starts
                 .par_iter()
                 .map(|&s| {
@@ -466,7 +455,7 @@ pub fn write_csv(
                 .collect()
         });
         for text in texts {
-            out.write_all(&text?).map_err(write_error)?;
+            out.write_all(&text).map_err(write_error)?;
         }
         start += batch;
     }
@@ -550,7 +539,7 @@ mod tests {
             .flat_map(|a| tricky.iter().map(move |b| (a, b)))
         {
             let frame = df!("a" => [*a], "b" => [*b]).unwrap();
-            let ours = slice_csv(&frame, &["a".into(), "b".into()], Rounding::Full, false).unwrap();
+            let ours = slice_csv(&frame, &["a".into(), "b".into()], Rounding::Full, false);
             let mut theirs = csv_writer(Vec::new());
             theirs.write_record([a, b]).unwrap();
             assert_eq!(ours, theirs.into_inner().unwrap(), "{a:?} {b:?}");
@@ -558,7 +547,7 @@ mod tests {
         // One column: an empty cell is `""`, as the crate writes it.
         for cell in tricky {
             let frame = df!("a" => [cell]).unwrap();
-            let ours = slice_csv(&frame, &["a".into()], Rounding::Full, false).unwrap();
+            let ours = slice_csv(&frame, &["a".into()], Rounding::Full, false);
             let mut theirs = csv_writer(Vec::new());
             theirs.write_record([cell]).unwrap();
             assert_eq!(ours, theirs.into_inner().unwrap(), "{cell:?}");

@@ -7,7 +7,7 @@
 
 use crate::adjust::{self, Step, Unit};
 use crate::attach::{self, AttachSettings};
-use crate::entity::Resolver;
+use crate::entity::{Entity, Resolver};
 use crate::error::{Error, Result};
 use crate::flags;
 use crate::ingest;
@@ -305,21 +305,19 @@ fn row_facts(
         // The unit the adjusted value ends in, for the mixed-currency rule: one common unit
         // when a step converts currencies (or makes a ratio); else the figure's currency, or,
         // for an entity whose currency is unknown, a unit of its own.
-        if !converts {
-            units.push(Some(
-                row.currency
-                    .clone()
-                    .or_else(|| entity.and_then(|e| e.currency.clone()))
+        units.push(if converts {
+            None
+        } else {
+            Some(
+                row_currency(row, entity)
+                    .map(str::to_string)
                     .or_else(|| entity.map(|e| format!("units of {}", e.code)))
                     .unwrap_or_default(),
-            ));
-        }
+            )
+        });
         if let (Some(at), Some(year)) = (entities.at[i], row.year) {
             entity_years.insert((at, year));
         }
-    }
-    if converts {
-        units = vec![None; rows_in];
     }
     let keys: HashSet<(String, i32)> = entity_years
         .into_iter()
@@ -333,6 +331,13 @@ fn row_facts(
         keys,
         any_base,
     }
+}
+
+/// The currency a row's figure is in: the one it states, else its entity's.
+fn row_currency<'a>(row: &'a ingest::CanonicalRow, entity: Option<&'a Entity>) -> Option<&'a str> {
+    row.currency
+        .as_deref()
+        .or_else(|| entity.and_then(|e| e.currency.as_deref()))
 }
 
 fn canonical_frame(
@@ -353,6 +358,15 @@ fn canonical_frame(
         any_base,
     } = row_facts(ingested, entities, bases, settings, start);
     let rows = &ingested.rows;
+    // A text column of each row's entity (null where the name did not resolve).
+    let entity_column = |name: &str, field: fn(&Entity) -> &str| {
+        Column::new(
+            name.into(),
+            (0..rows_in)
+                .map(|i| entities.of(i).map(field))
+                .collect::<Vec<_>>(),
+        )
+    };
     let frame = DataFrame::new(
         rows_in,
         vec![
@@ -370,24 +384,9 @@ fn canonical_frame(
                     .map(|r| r.entity_input.as_str())
                     .collect::<Vec<_>>(),
             ),
-            Column::new(
-                "entity_code".into(),
-                (0..rows_in)
-                    .map(|i| entities.of(i).map(|e| e.code.as_str()))
-                    .collect::<Vec<_>>(),
-            ),
-            Column::new(
-                "entity_name".into(),
-                (0..rows_in)
-                    .map(|i| entities.of(i).map(|e| e.name.as_str()))
-                    .collect::<Vec<_>>(),
-            ),
-            Column::new(
-                "entity_kind".into(),
-                (0..rows_in)
-                    .map(|i| entities.of(i).map(|e| e.kind.as_str()))
-                    .collect::<Vec<_>>(),
-            ),
+            entity_column("entity_code", |e| &e.code),
+            entity_column("entity_name", |e| &e.name),
+            entity_column("entity_kind", |e| e.kind.as_str()),
             Column::new(
                 "year".into(),
                 rows.iter().map(|r| r.year).collect::<Vec<_>>(),
@@ -410,11 +409,7 @@ fn canonical_frame(
                 "currency".into(),
                 rows.iter()
                     .enumerate()
-                    .map(|(i, r)| {
-                        r.currency
-                            .as_deref()
-                            .or_else(|| entities.of(i).and_then(|e| e.currency.as_deref()))
-                    })
+                    .map(|(i, r)| row_currency(r, entities.of(i)))
                     .collect::<Vec<_>>(),
             ),
             Column::new("_unit".into(), units),

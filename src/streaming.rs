@@ -212,7 +212,6 @@ fn run(
     let mut rows_before = 0usize;
     let mut ord = 0u64;
     let mut later_notes: Vec<String> = Vec::new();
-    let mut column_note: Option<String> = None;
     let mut shape: Option<Columns> = None;
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
@@ -263,16 +262,7 @@ fn run(
         rows_before += data_lines;
         ord += rows as u64;
     }
-    let (
-        Some(first),
-        Some(Columns {
-            head,
-            baseline_steps,
-            deflator_used,
-            missing_tables,
-        }),
-    ) = (first, shape)
-    else {
+    let (Some(first), Some(columns)) = (first, shape) else {
         return Err(Error::bad_input(
             crate::error::Location::file(label),
             "the file is empty",
@@ -282,15 +272,14 @@ fn run(
     };
 
     // Ranks, once, over the narrow columns of every piece.
-    let ranks = ranks_once(narrow, settings, !missing_tables.is_empty())?;
+    let baseline_missing = !columns.missing_tables.is_empty();
+    let ranks = ranks_once(narrow, settings, baseline_missing)?;
     let rows_in = ord as usize;
 
     // The pieces again, in order, with their ranks, into the output.
-    let all = pipeline::output_columns(&head, settings);
+    let all = pipeline::output_columns(&columns.head, settings);
     let order = plan.columns.pick(&all)?;
-    if let Some(note) = plan.columns.describe(order.len(), all.len()) {
-        column_note = Some(note);
-    }
+    let column_note = plan.columns.describe(order.len(), all.len());
     let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
     let (counts, rows_out) = write_pieces(
         plan,
@@ -298,7 +287,7 @@ fn run(
         &spilled,
         &ranks,
         &selection,
-        !missing_tables.is_empty(),
+        baseline_missing,
         staging,
     )?;
     if rows_out != rows_in {
@@ -319,12 +308,7 @@ fn run(
             rows_out,
             counts,
         },
-        &Columns {
-            head: Vec::new(),
-            baseline_steps,
-            deflator_used,
-            missing_tables,
-        },
+        &columns,
         later_notes.into_iter().chain(column_note).collect(),
     );
     Ok(Ok(pipeline::AdjustOutput {
