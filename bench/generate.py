@@ -2,7 +2,9 @@
 
 200 invented entities (user-assigned codes XAA..XHR, names "Synthland 001".."Synthland 200")
 x 50 years (1975..2024) x K items, with K chosen so the table has the requested number of rows
-(1M -> K = 100, 10M -> K = 1000, 50M -> K = 5000). Every figure is random and means nothing.
+(1M -> K = 100, 10M -> K = 1000, 50M -> K = 5000). Below 10,000 rows (one item) the input is cut
+after the requested number of rows, so `200` writes 200 rows (four entities). Every figure is
+random and means nothing.
 
     python bench/generate.py ROWS OUTDIR
 
@@ -97,7 +99,10 @@ def main():
     with open(path, "wb") as f:
         f.write(b"entity,year,item,value\n")
         item_names = np.array([f"item-{i + 1:05d}" for i in range(items)])
+        left = rows if rows < ENTITIES * len(YEARS) else ENTITIES * len(YEARS) * items
         for e in range(ENTITIES):
+            if left <= 0:
+                break
             n = len(YEARS) * items
             values = np.round(rng.lognormal(mean=4.0, sigma=1.0, size=n) * fx[e].repeat(items), 2)
             frame = pl.DataFrame(
@@ -108,8 +113,10 @@ def main():
                     "value": values,
                 }
             )
-            frame.write_csv(f, include_header=False)
-    print(f"{path}: {ENTITIES * len(YEARS) * items} rows ({ENTITIES} entities x {len(YEARS)} years x {items} items)")
+            frame.head(left).write_csv(f, include_header=False)
+            left -= n
+    written = rows if rows < ENTITIES * len(YEARS) else ENTITIES * len(YEARS) * items
+    print(f"{path}: {written} rows (up to {ENTITIES} entities x {len(YEARS)} years x {items} items)")
 
 
 if __name__ == "__main__":

@@ -115,7 +115,7 @@ def main():
             same = open(f"{data}/out-levelfield.csv", "rb").read() == open(f"{data}/out-streaming.csv", "rb").read()
             print(f"- --streaming output byte-identical to the in-memory output: {same}")
         print()
-    small = f"{DATA}/small"
+    small = f"{DATA}/200"
     if not os.path.exists(f"{small}/input.csv"):
         subprocess.run([PY, f"{HERE}/generate.py", "200", small], check=True, capture_output=True)
     walls = sorted(measure(levelfield(small, f"{small}/out.csv"))[0] for _ in range(7))

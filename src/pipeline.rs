@@ -531,18 +531,18 @@ pub(crate) fn with_ranks_and_flags(
 pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
     let not_ranked = when(col("rank_adjusted").is_null())
         .then(lit(flags::NOT_RANKED))
-        .otherwise(lit(NULL).cast(DataType::String));
+        .otherwise(rank::null_of(DataType::String));
     let no_baseline = if baseline_missing {
         lit(flags::NO_BASELINE)
     } else {
-        lit(NULL).cast(DataType::String)
+        rank::null_of(DataType::String)
     };
     let several = when(col("_several"))
         .then(lit(flags::SEVERAL_SERIES))
-        .otherwise(lit(NULL).cast(DataType::String));
+        .otherwise(rank::null_of(DataType::String));
     let mixed = when(col("_mixed"))
         .then(lit(flags::MIXED_CURRENCY))
-        .otherwise(lit(NULL).cast(DataType::String));
+        .otherwise(rank::null_of(DataType::String));
     lf.with_column(rank::shift_column()).with_column(
         concat_str(
             [

@@ -7,6 +7,13 @@
 
 use polars::prelude::*;
 
+/// A missing value of type `dtype`. Written as a typed scalar rather than `lit(NULL).cast(..)`:
+/// polars turns an untyped null into a null array before casting it, and its first null array
+/// zeroes an 8 MiB buffer, a tenth of a 200-row run (measured with a profiler).
+pub fn null_of(dtype: DataType) -> Expr {
+    lit(Scalar::null(dtype))
+}
+
 /// Which end of the scale is rank 1.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, clap::ValueEnum, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
@@ -36,7 +43,7 @@ pub fn rank_columns(
     let rank_of = |column: &str| -> PolarsResult<Expr> {
         let masked = when(rankable.clone())
             .then(col(column))
-            .otherwise(lit(NULL).cast(DataType::Float64));
+            .otherwise(null_of(DataType::Float64));
         rank_within(masked, order, partition)
     };
     Ok(vec![
@@ -92,7 +99,7 @@ pub fn several_series(key: &[Expr]) -> PolarsResult<Expr> {
 pub fn mixed_units(unit: Expr, eligible: Expr, partition: &[Expr]) -> PolarsResult<Expr> {
     let counted = when(eligible)
         .then(unit)
-        .otherwise(lit(NULL).cast(DataType::String));
+        .otherwise(null_of(DataType::String));
     Ok(counted
         .drop_nulls()
         .n_unique()

@@ -7,7 +7,7 @@ use std::io::Read;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
 
-pub trait FileSource {
+pub trait FileSource: Sync {
     /// The bytes of a file named relative to this source.
     fn read(&self, relative: &str) -> Result<Vec<u8>>;
     /// How to name the file in messages.

@@ -663,7 +663,7 @@ fn rank_inputs(
     let masked = |name: &str| {
         when(eligible.clone())
             .then(col(name))
-            .otherwise(lit(NULL).cast(DataType::Float64))
+            .otherwise(crate::rank::null_of(DataType::Float64))
             .alias(name)
     };
     frame

@@ -124,7 +124,7 @@ fn localize(x: Expr, fx: Option<Expr>) -> Expr {
         None => x,
     };
     when(col("_basis").eq(lit("mismatch")))
-        .then(lit(NULL).cast(DataType::Float64))
+        .then(crate::rank::null_of(DataType::Float64))
         .otherwise(local)
 }
 

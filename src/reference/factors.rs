@@ -4,6 +4,7 @@
 
 use crate::error::{Error, Location, Result};
 use crate::reference::catalog::Resource;
+use polars::prelude::PlHashMap;
 use std::collections::{BTreeMap, HashMap};
 
 /// A loaded reference table: entity code → year → factor (multiplier applied).
@@ -74,31 +75,89 @@ impl RefTable {
     }
 }
 
-/// Adds one factor, refusing a second for the same entity and year.
+/// Where each factor of a table being loaded came from: its first line and its series key (the
+/// dimension codes of its row), per entity code and year. A loader keeps one while it reads, so
+/// that a second factor for the same entity and year is refused with both lines or both series.
+/// The code is stored once per entity and the series key once per distinct key, not per cell.
+#[derive(Debug, Default)]
+pub(crate) struct Origins {
+    by_code: PlHashMap<String, PlHashMap<i32, Origin>>,
+    series_keys: Vec<String>,
+    series_ids: PlHashMap<String, u32>,
+}
+
+/// The first line and series key of one factor.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Origin {
+    pub line: usize,
+    series: u32,
+}
+
+impl Origins {
+    /// The id of `series`, stored on its first sight.
+    pub fn series_id(&mut self, series: &str) -> u32 {
+        if let Some(&id) = self.series_ids.get(series) {
+            return id;
+        }
+        let id = self.series_keys.len() as u32;
+        self.series_keys.push(series.to_string());
+        self.series_ids.insert(series.to_string(), id);
+        id
+    }
+
+    /// The series key behind `id`.
+    pub fn series_key(&self, id: u32) -> &str {
+        &self.series_keys[id as usize]
+    }
+
+    /// The origin already recorded for `code` in `year`, if any.
+    pub fn get(&self, code: &str, year: i32) -> Option<(usize, &str)> {
+        let origin = self.by_code.get(code)?.get(&year)?;
+        Some((origin.line, self.series_key(origin.series)))
+    }
+
+    /// Records `line` and `series` for `code` in `year`, returning the first origin when one
+    /// was already there (which is then kept).
+    fn record(&mut self, code: &str, year: i32, line: usize, series: u32) -> Option<Origin> {
+        let years = match self.by_code.get_mut(code) {
+            Some(years) => years,
+            None => self.by_code.entry(code.to_string()).or_default(),
+        };
+        if let Some(first) = years.get(&year) {
+            return Some(*first);
+        }
+        years.insert(year, Origin { line, series });
+        None
+    }
+}
+
+/// Adds one factor of series `series` (an id from `origins`), refusing a second for the same
+/// entity and year.
 pub(crate) fn insert_factor(
     table: &mut RefTable,
-    first_line: &mut HashMap<(String, i32), usize>,
+    origins: &mut Origins,
     code: &str,
     year: i32,
     value: f64,
-    line: usize,
+    (line, series): (usize, u32),
 ) -> Result<()> {
-    if let Some(previous) = first_line.insert((code.to_string(), year), line) {
+    if let Some(previous) = origins.record(code, year, line, series) {
         return Err(Error::bad_input(
             Location::line(&table.file, line),
             format!(
-                "a second {} factor for {code} in {year} (the first is on line {previous})",
-                table.resource.kind.as_str()
+                "a second {} factor for {code} in {year} (the first is on line {})",
+                table.resource.kind.as_str(),
+                previous.line
             ),
             "one factor per entity and year",
             "remove the duplicate, or check whether two names in the table mean the same country; if the file holds several series (two indicators or measures), keep one series per file, or use the source's SDMX-CSV download with a \"filter\"",
         ));
     }
-    table
-        .series
-        .entry(code.to_string())
-        .or_default()
-        .insert(year, value);
+    let years = match table.series.get_mut(code) {
+        Some(years) => years,
+        None => table.series.entry(code.to_string()).or_default(),
+    };
+    years.insert(year, value);
     table.rows_read += 1;
     Ok(())
 }

@@ -115,12 +115,22 @@ pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<Referenc
     let catalog_sha256 = crate::source::sha256_hex(&catalog_bytes);
     let catalog = catalog::parse_catalog(&catalog_bytes, &catalog_file)?;
     let alias_files = add_catalog_aliases(&catalog, source, resolver)?;
-    let mut tables = Vec::with_capacity(catalog.resources.len());
-    for resource in &catalog.resources {
-        let file = source.label(&resource.path);
-        let bytes = source.read(&resource.path)?;
-        tables.push(table::load_table(&bytes, &file, resource, resolver)?);
-    }
+    let resolver: &Resolver = resolver;
+    // The tables are read side by side on polars' thread pool; the first error in catalog
+    // order is the one reported, as when they were read one after another.
+    let loaded: Vec<Result<RefTable>> = polars_core::runtime::THREAD_POOL.install(|| {
+        use rayon::prelude::*;
+        catalog
+            .resources
+            .par_iter()
+            .map(|resource| {
+                let file = source.label(&resource.path);
+                let bytes = source.read(&resource.path)?;
+                table::load_table(&bytes, &file, resource, resolver)
+            })
+            .collect()
+    });
+    let tables = loaded.into_iter().collect::<Result<Vec<_>>>()?;
     Ok(References {
         catalog,
         catalog_file,

@@ -14,8 +14,8 @@ use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
-use crate::reference::factors::{check_positive, empty_table, insert_factor, RefTable};
-use std::collections::{BTreeMap, BTreeSet, HashMap};
+use crate::reference::factors::{check_positive, empty_table, insert_factor, Origins, RefTable};
+use std::collections::BTreeSet;
 
 /// Columns that are not dimensions of a series.
 const NOT_DIMENSIONS: &[&str] = &[
@@ -171,9 +171,8 @@ pub fn load_sdmx(
         .collect();
 
     let mut loaded = empty_table(bytes, file, resource);
-    let mut first_line: HashMap<(String, i32), usize> = HashMap::new();
-    // Series key (the dimension codes) per entity-year, to explain an ambiguity.
-    let mut series_seen: BTreeMap<(String, i32), Vec<String>> = BTreeMap::new();
+    // First line and series key (the dimension codes) per entity-year, to explain an ambiguity.
+    let mut origins = Origins::default();
     for record in &text_table.records {
         let kept = resource.filter.iter().all(|(dimension, wanted)| {
             column(&dimension.to_uppercase()).is_some_and(|i| code(&record.cells[i]) == wanted)
@@ -210,29 +209,26 @@ pub fn load_sdmx(
             .map(|&i| format!("{}={}", headers[i], code(&record.cells[i])))
             .collect::<Vec<_>>()
             .join(",");
-        series_seen
-            .entry((entity.clone(), year))
-            .or_default()
-            .push(series);
-        if first_line.contains_key(&(entity.clone(), year)) {
-            let found: BTreeSet<&String> = series_seen[&(entity.clone(), year)].iter().collect();
+        if let Some((_, first)) = origins.get(&entity, year) {
+            let found: BTreeSet<&str> = [first, series.as_str()].into_iter().collect();
             return Err(Error::bad_input(
                 Location::line(file, record.line),
                 format!(
                     "several series for {entity} in {year}: {}",
-                    found.into_iter().map(String::as_str).collect::<Vec<_>>().join(" | ")
+                    found.into_iter().collect::<Vec<_>>().join(" | ")
                 ),
                 "one series per entity and year",
                 format!("add a \"filter\" to the catalog resource \"{}\" that picks one series (for example a measure or unit code)", resource.name),
             ));
         }
+        let series_id = origins.series_id(&series);
         insert_factor(
             &mut loaded,
-            &mut first_line,
+            &mut origins,
             &entity,
             year,
             factor,
-            record.line,
+            (record.line, series_id),
         )?;
     }
     Ok(loaded)

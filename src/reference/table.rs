@@ -12,7 +12,7 @@ use crate::error::{Error, Location, Result};
 use crate::ingest::layout::{self, Knobs, RoleFlags, Shape, YearSource};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
-use crate::reference::factors::{check_positive, empty_table, insert_factor};
+use crate::reference::factors::{check_positive, empty_table, insert_factor, Origins};
 pub use crate::reference::factors::{Factor, RefTable};
 use std::collections::HashMap;
 
@@ -140,8 +140,7 @@ fn load_plain(
         .collect();
     let filter = dimension_filter(text_table, resource, file)?;
     let mut loaded = empty_table(bytes, file, resource);
-    let mut first_line: HashMap<(String, i32), usize> = HashMap::new();
-    let mut series_of: HashMap<(String, i32), String> = HashMap::new();
+    let mut origins = Origins::default();
     let mut codes: HashMap<String, Option<String>> = HashMap::new();
     for record in &text_table.records {
         if !filter
@@ -154,13 +153,17 @@ fn load_plain(
             Some(name) if record.cells[roles.entity].trim().is_empty() => record.cells[name].trim(),
             _ => record.cells[roles.entity].trim(),
         };
-        let code = codes
-            .entry(entity_text.to_string())
-            .or_insert_with(|| match resolver.resolve(entity_text) {
-                Resolution::Found(entity) => Some(entity.code.clone()),
-                Resolution::Unresolved { .. } => None,
-            })
-            .clone();
+        let code = match codes.get(entity_text) {
+            Some(code) => code.clone(),
+            None => {
+                let code = match resolver.resolve(entity_text) {
+                    Resolution::Found(entity) => Some(entity.code.clone()),
+                    Resolution::Unresolved { .. } => None,
+                };
+                codes.insert(entity_text.to_string(), code.clone());
+                code
+            }
+        };
         let Some(code) = code else {
             if !loaded.unresolved.iter().any(|(n, _)| n == entity_text) {
                 loaded
@@ -174,6 +177,7 @@ fn load_plain(
             .map(|&i| format!("{}={}", text_table.headers[i], record.cells[i].trim()))
             .collect::<Vec<_>>()
             .join(",");
+        let series_id = origins.series_id(&series);
         let power = marks
             .multiplier(record, None, file)?
             .map_or(1.0, crate::cells::number::to_f64);
@@ -183,25 +187,25 @@ fn load_plain(
             let Some(value) = factor_cell(cell, resource, file, record.line, header)? else {
                 continue;
             };
-            if let Some(previous) = series_of.insert((code.clone(), year), series.clone()) {
+            if let Some((_, previous)) = origins.get(&code, year) {
                 if previous != series {
                     return Err(several_series(
                         file,
                         record.line,
                         &code,
                         year,
-                        &previous,
+                        previous,
                         &series,
                     ));
                 }
             }
             insert_factor(
                 &mut loaded,
-                &mut first_line,
+                &mut origins,
                 &code,
                 year,
                 value * power * resource.multiplier,
-                record.line,
+                (record.line, series_id),
             )?;
             if let Some(&margin_column) = roles.reserved.first() {
                 if let Some(se) = margin_se(&record.cells[margin_column], resource) {
@@ -408,4 +412,65 @@ fn describe_roles(text_table: &table::TextTable, roles: &layout::Roles) -> Strin
         ));
     }
     text
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::reference::catalog::parse_catalog;
+
+    fn ppp_resource(extra: &str) -> Resource {
+        let json =
+            format!(r#"{{"resources":[{{"name":"p","path":"p.csv","kind":"ppp"{extra}}}]}}"#);
+        parse_catalog(json.as_bytes(), "dp.json")
+            .unwrap()
+            .resources
+            .remove(0)
+    }
+
+    fn load_file(text: &str, file: &str, resource: &Resource) -> Result<RefTable> {
+        load_table(text.as_bytes(), file, resource, &Resolver::builtin())
+    }
+
+    fn load(text: &str, resource: &Resource) -> Result<RefTable> {
+        load_file(text, "p.csv", resource)
+    }
+
+    // The tables below are invented (made-up factors for real ISO 3166 codes).
+
+    #[test]
+    fn a_second_factor_for_one_entity_and_year_names_both_lines() {
+        let text = "country,year,ppp\nFRA,2021,0.72\nDEU,2021,0.75\nFrance,2021,0.73\n";
+        let err = load(text, &ppp_resource("")).unwrap_err().to_string();
+        assert!(
+            err.contains("p.csv, line 4") && err.contains("a second ppp factor for FRA in 2021"),
+            "{err}"
+        );
+        assert!(err.contains("the first is on line 2"), "{err}");
+    }
+
+    #[test]
+    fn two_series_for_one_entity_and_year_are_named_both() {
+        // The statistics-office TSV layout, whose dimension columns tell series apart.
+        let text = "freq,unit,geo\\TIME_PERIOD\t2020 \t2021 \nA,PPS,FR\t0.71 \t0.72 \nA,EUR,FR\t0.9 \t0.91 \n";
+        let err = load_file(text, "p.tsv", &ppp_resource(""))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains(
+                "line 3: several series for FRA in 2020: freq=A,unit=PPS | freq=A,unit=EUR"
+            ),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn every_factor_of_a_wide_table_is_kept_once_per_entity() {
+        let text = "country,2020,2021\nFRA,0.71,0.72\nDEU,0.74,0.75\n";
+        let table = load(text, &ppp_resource("")).unwrap();
+        assert_eq!(table.rows_read, 4);
+        assert_eq!(table.series.len(), 2);
+        assert_eq!(table.lookup("DEU", 2020, 0).unwrap().value, 0.74);
+        assert_eq!(table.lookup("FRA", 2021, 0).unwrap().value, 0.72);
+    }
 }
