@@ -95,10 +95,40 @@ pub fn parse_cell(text: &str, style: NumberStyle) -> Result<Cell, NumberError> {
     })
 }
 
+/// Reads one cell as a float only, for tables whose exact decimal value is never used (the
+/// factors of reference tables): the plain-number fast path without its `Decimal`, otherwise
+/// [`parse_cell`]. `None` is a missing-value mark.
+pub fn parse_float_cell(text: &str, style: NumberStyle) -> Result<Option<f64>, NumberError> {
+    if let Some(float) = plain_float(text, style) {
+        return Ok(Some(float));
+    }
+    match parse_cell(text, style)? {
+        Cell::Missing => Ok(None),
+        Cell::Number { float, .. } => Ok(Some(float)),
+    }
+}
+
 /// The fast path for the cells most tables are made of: an optional minus, digits and at most
 /// one decimal point (`-1234.5`), at most 28 digits, no spaces, marks or separators. It gives
 /// exactly what the general path gives (a unit test compares the two), without its allocations.
 fn plain_number(text: &str, style: NumberStyle) -> Option<Cell> {
+    let float = plain_float(text, style)?;
+    // At most 28 digits always fit a Decimal (its bound is about 7.9e28).
+    let value = Decimal::from_str(text).ok()?;
+    let value = if value.is_zero() {
+        Decimal::ZERO
+    } else {
+        value.normalize()
+    };
+    Some(Cell::Number {
+        value,
+        float,
+        footnote: false,
+    })
+}
+
+/// The float of a plain number (see [`plain_number`]), with -0 read as 0.
+fn plain_float(text: &str, style: NumberStyle) -> Option<f64> {
     let bytes = text.as_bytes();
     let digits_from = usize::from(bytes.first() == Some(&b'-'));
     let body = &bytes[digits_from..];
@@ -117,18 +147,8 @@ fn plain_number(text: &str, style: NumberStyle) -> Option<Cell> {
     if !point_ok || !ends_ok || digits > 28 {
         return None;
     }
-    let value = Decimal::from_str(text).ok()?;
-    let value = if value.is_zero() {
-        Decimal::ZERO
-    } else {
-        value.normalize()
-    };
     let float = text.parse::<f64>().ok()?;
-    Some(Cell::Number {
-        value,
-        float: if float == 0.0 { 0.0 } else { float },
-        footnote: false,
-    })
+    Some(if float == 0.0 { 0.0 } else { float })
 }
 
 /// Reads a cell and converts it to `f64` for the frame. Values beyond `f64` cannot occur because
@@ -523,6 +543,51 @@ mod tests {
         )
         .is_none());
         assert!(plain_number("1234", NumberStyle::default()).is_some());
+    }
+
+    #[test]
+    fn the_float_reader_gives_the_float_of_the_cell_reader() {
+        let cases = [
+            "0",
+            "-0",
+            "-0.0",
+            "12.50",
+            "0.30000000000000004",
+            "9999999999999999999999999999",
+            "-79228162514264337593543950335",
+            "9007199254740993",
+            "1,234.5",
+            "1.234,5",
+            "..",
+            "n/a",
+            "",
+            " 12 ",
+            "12 p",
+            "3.5*",
+            "1e5",
+            "abc",
+            "-",
+            "(12)",
+        ];
+        for style in [
+            NumberStyle::default(),
+            NumberStyle {
+                decimal_comma: true,
+            },
+        ] {
+            for case in cases {
+                let float = parse_float_cell(case, style).map_err(|e| e.reason);
+                let cell = parse_cell(case, style).map_err(|e| e.reason);
+                match (float, cell) {
+                    (Ok(Some(f)), Ok(Cell::Number { float, .. })) => {
+                        assert_eq!(f.to_bits(), float.to_bits(), "{case}")
+                    }
+                    (Ok(None), Ok(Cell::Missing)) => {}
+                    (Err(a), Err(b)) => assert_eq!(a, b, "{case}"),
+                    (a, b) => panic!("{case}: {a:?} against {b:?}"),
+                }
+            }
+        }
     }
 
     use super::*;

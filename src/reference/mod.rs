@@ -116,21 +116,38 @@ pub fn load(source: &dyn FileSource, resolver: &mut Resolver) -> Result<Referenc
     let catalog = catalog::parse_catalog(&catalog_bytes, &catalog_file)?;
     let alias_files = add_catalog_aliases(&catalog, source, resolver)?;
     let resolver: &Resolver = resolver;
-    // The tables are read side by side on polars' thread pool; the first error in catalog
-    // order is the one reported, as when they were read one after another.
-    let loaded: Vec<Result<RefTable>> = polars_core::runtime::THREAD_POOL.install(|| {
+    let files: Vec<Result<(String, Vec<u8>)>> = catalog
+        .resources
+        .iter()
+        .map(|resource| Ok((source.label(&resource.path), source.read(&resource.path)?)))
+        .collect();
+    // The tables are read side by side on polars' thread pool, the largest first so that it
+    // does not start last; the first error in catalog order is the one reported, as when they
+    // were read one after another.
+    let mut order: Vec<usize> = (0..files.len()).collect();
+    order.sort_by_key(|&i| std::cmp::Reverse(files[i].as_ref().map_or(0, |(_, b)| b.len())));
+    let loaded: Vec<(usize, Result<RefTable>)> = polars_core::runtime::THREAD_POOL.install(|| {
         use rayon::prelude::*;
-        catalog
-            .resources
+        order
             .par_iter()
-            .map(|resource| {
-                let file = source.label(&resource.path);
-                let bytes = source.read(&resource.path)?;
-                table::load_table(&bytes, &file, resource, resolver)
+            .filter_map(|&i| {
+                let (file, bytes) = files[i].as_ref().ok()?;
+                Some((
+                    i,
+                    table::load_table(bytes, file, &catalog.resources[i], resolver),
+                ))
             })
             .collect()
     });
-    let tables = loaded.into_iter().collect::<Result<Vec<_>>>()?;
+    let mut by_index: Vec<Option<Result<RefTable>>> = (0..files.len()).map(|_| None).collect();
+    for (i, table) in loaded {
+        by_index[i] = Some(table);
+    }
+    let mut tables = Vec::with_capacity(files.len());
+    for (file, table) in files.into_iter().zip(by_index) {
+        file?;
+        tables.push(table.expect("every file read is loaded")?);
+    }
     Ok(References {
         catalog,
         catalog_file,

@@ -14,7 +14,7 @@ use crate::ingest::table;
 use crate::reference::catalog::Resource;
 use crate::reference::factors::{check_positive, empty_table, insert_factor, Origins};
 pub use crate::reference::factors::{Factor, RefTable};
-use std::collections::HashMap;
+use polars::prelude::PlHashMap;
 
 /// Loads one reference table through the same table finder as inputs. SDMX-CSV is recognised by
 /// its header (a DATAFLOW or STRUCTURE column, a reference-area dimension, TIME_PERIOD and
@@ -141,7 +141,7 @@ fn load_plain(
     let filter = dimension_filter(text_table, resource, file)?;
     let mut loaded = empty_table(bytes, file, resource);
     let mut origins = Origins::default();
-    let mut codes: HashMap<String, Option<String>> = HashMap::new();
+    let mut codes: PlHashMap<String, Option<String>> = PlHashMap::default();
     for record in &text_table.records {
         if !filter
             .iter()
@@ -263,9 +263,9 @@ fn factor_cell(
     let style = NumberStyle {
         decimal_comma: resource.decimal_comma,
     };
-    let value = match number::parse_cell(cell, style) {
-        Ok(Cell::Missing) => return Ok(None),
-        Ok(Cell::Number { float, .. }) => float,
+    let value = match number::parse_float_cell(cell, style) {
+        Ok(None) => return Ok(None),
+        Ok(Some(float)) => float,
         Err(e) => {
             // The number parser speaks of flags; a reference table is set by catalog keys.
             let hint = e.hint.replace(
