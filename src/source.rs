@@ -86,6 +86,27 @@ pub fn read_limit() -> u64 {
     READ_LIMIT.load(Ordering::Relaxed)
 }
 
+/// Files of at least this many bytes turn transparent huge pages off (see [`fit_pages_to_input`]).
+const SMALL_PAGES_FROM: u64 = 8 << 20;
+
+/// Turns transparent huge pages off for the rest of the process once a file of `len` bytes, at
+/// least [`SMALL_PAGES_FROM`], is read. Where the system grants huge pages on request the
+/// allocator asks for them, and each first touch then zeroes 2 MiB whether it is used or not.
+/// Measured in paired runs (README, performance): at 1M rows (26 MB) the run took 0.86x the
+/// wall time without them and less memory; a 200-row table took 1.15x the time without them
+/// (its fixed costs touch a few large buffers once). The threshold between the two measured
+/// sizes is a choice. Best effort: an error is ignored.
+fn fit_pages_to_input(len: u64) {
+    if len < SMALL_PAGES_FROM {
+        return;
+    }
+    #[cfg(target_os = "linux")]
+    // SAFETY: PR_SET_THP_DISABLE takes plain integers and touches no memory of ours.
+    unsafe {
+        libc::prctl(libc::PR_SET_THP_DISABLE, 1, 0, 0, 0);
+    }
+}
+
 /// Reads a file: the one reader of every file levelfield opens. Only a regular file is read
 /// (a folder, a device such as /dev/zero, a pipe or a socket is refused before anything is
 /// read), and never more than the read limit, even when the file grows while it is read.
@@ -112,6 +133,7 @@ pub fn read_file(path: &Path) -> Result<Vec<u8>> {
     if metadata.len() > limit {
         return Err(too_large(&label, limit));
     }
+    fit_pages_to_input(metadata.len());
     let file = std::fs::File::open(path).map_err(|e| Error::io(&label, "open", e))?;
     let mut bytes = Vec::with_capacity(metadata.len() as usize);
     file.take(limit + 1)
