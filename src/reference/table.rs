@@ -275,10 +275,12 @@ fn factor_cell(
                     resource.name
                 ),
             );
-            let hint = hint.replace(
-                "; drop --decimal-comma if the table uses a decimal point",
-                "",
-            );
+            let hint = hint
+                .replace(
+                    "; drop --decimal-comma if the table uses a decimal point",
+                    "",
+                )
+                .replace(", or pass --lenient to keep the row flagged `unparsed`", "");
             return Err(Error::bad_input(
                 Location::cell(file, line, header),
                 e.reason,
@@ -462,6 +464,18 @@ mod tests {
             ),
             "{err}"
         );
+    }
+
+    #[test]
+    fn a_word_in_a_factor_cell_is_refused_without_naming_an_input_flag() {
+        let text = "country,year,ppp\nFRA,2021,abc\n";
+        let err = load(text, &ppp_resource("")).unwrap_err().to_string();
+        assert!(err.contains("p.csv, line 2, column \"ppp\""), "{err}");
+        assert!(
+            err.contains("a ppp factor (a number such as 1,234.5"),
+            "{err}"
+        );
+        assert!(!err.contains("--lenient"), "{err}");
     }
 
     #[test]
