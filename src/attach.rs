@@ -34,8 +34,7 @@ pub fn base_currency_home(currency: &str) -> Option<&'static str> {
 }
 
 /// Builds the lookup frame: `entity_code`, `year`, then `<prefix>_used`, `<prefix>_year` for
-/// each need, then `_factor_flags` (null when nothing to say).
-/// Builds the lookup frame. A need in `optional` (the baseline's, or a derived column's) whose
+/// each need, then `_factor_flags` (null when nothing to say). A need in `optional` (the baseline's, or a derived column's) whose
 /// table the catalog lacks gets empty columns instead of stopping the run; `missing_tables`
 /// says which.
 pub fn lookup_frame(
@@ -88,47 +87,7 @@ pub fn lookup_frame(
                 )
             })?),
         };
-        let with_se = table.has_margins() && need.whose == Whose::Entity;
-        let mut ses: Vec<Option<f64>> = Vec::with_capacity(if with_se { n } else { 0 });
-        let mut used: Vec<Option<f64>> = Vec::with_capacity(n);
-        let mut years: Vec<Option<i32>> = Vec::with_capacity(n);
-        for (i, (code, row_year)) in keys.iter().enumerate() {
-            let offset = match settings.year_offset {
-                Some((kind, d)) if kind == need.kind => d,
-                _ => 0,
-            };
-            let year = match need.at {
-                At::RowYear => *row_year + offset,
-                At::BaseYear => settings.base_year.unwrap_or(*row_year),
-            };
-            let entity = home.unwrap_or(code.as_str());
-            match table.lookup(entity, year, settings.nearest_year) {
-                Some(factor) => {
-                    if factor.year != year {
-                        flags[i].push(need.year_differs_flag(factor.year));
-                    }
-                    if with_se {
-                        // A factor without a stated margin is taken as exact.
-                        ses.push(Some(table.se_of(entity, factor.year).unwrap_or(0.0)));
-                    }
-                    used.push(Some(factor.value));
-                    years.push(Some(factor.year));
-                }
-                None => {
-                    flags[i].push(need.missing_flag());
-                    if with_se {
-                        ses.push(None);
-                    }
-                    used.push(None);
-                    years.push(None);
-                }
-            }
-        }
-        columns.push(Column::new(need.used_column().into(), used));
-        columns.push(Column::new(need.year_column().into(), years));
-        if with_se {
-            columns.push(Column::new(need.se_column().into(), ses));
-        }
+        columns.extend(need_columns(need, table, home, &keys, settings, &mut flags));
     }
     let joined: Vec<Option<String>> = flags
         .into_iter()
@@ -142,6 +101,65 @@ pub fn lookup_frame(
         .collect();
     columns.push(Column::new("_factor_flags".into(), joined));
     DataFrame::new(n, columns).map_err(Error::engine("building the factor lookup"))
+}
+
+/// One need's columns over the sorted `keys`: the factor used, its year and (where the table
+/// states margins) its standard error; a flag in `flags` for each key whose factor is missing
+/// or from another year. `home` is the entity whose factors every key takes (the base
+/// currency's home), or None for each key's own.
+fn need_columns(
+    need: &FactorNeed,
+    table: &crate::reference::RefTable,
+    home: Option<&str>,
+    keys: &[&(String, i32)],
+    settings: &AttachSettings,
+    flags: &mut [Vec<String>],
+) -> Vec<Column> {
+    let n = keys.len();
+    let with_se = table.has_margins() && need.whose == Whose::Entity;
+    let mut ses: Vec<Option<f64>> = Vec::with_capacity(if with_se { n } else { 0 });
+    let mut used: Vec<Option<f64>> = Vec::with_capacity(n);
+    let mut years: Vec<Option<i32>> = Vec::with_capacity(n);
+    let offset = match settings.year_offset {
+        Some((kind, d)) if kind == need.kind => d,
+        _ => 0,
+    };
+    for (i, (code, row_year)) in keys.iter().enumerate() {
+        let year = match need.at {
+            At::RowYear => *row_year + offset,
+            At::BaseYear => settings.base_year.unwrap_or(*row_year),
+        };
+        let entity = home.unwrap_or(code.as_str());
+        match table.lookup(entity, year, settings.nearest_year) {
+            Some(factor) => {
+                if factor.year != year {
+                    flags[i].push(need.year_differs_flag(factor.year));
+                }
+                if with_se {
+                    // A factor without a stated margin is taken as exact.
+                    ses.push(Some(table.se_of(entity, factor.year).unwrap_or(0.0)));
+                }
+                used.push(Some(factor.value));
+                years.push(Some(factor.year));
+            }
+            None => {
+                flags[i].push(need.missing_flag());
+                if with_se {
+                    ses.push(None);
+                }
+                used.push(None);
+                years.push(None);
+            }
+        }
+    }
+    let mut columns = vec![
+        Column::new(need.used_column().into(), used),
+        Column::new(need.year_column().into(), years),
+    ];
+    if with_se {
+        columns.push(Column::new(need.se_column().into(), ses));
+    }
+    columns
 }
 
 #[cfg(test)]

@@ -185,34 +185,8 @@ pub(crate) fn prepare(
         },
     )?;
 
-    // Factors, joined once per distinct entity and year.
-    let missing_tables: std::collections::BTreeSet<crate::reference::Kind> = optional
-        .iter()
-        .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
-        .map(|need| need.kind)
-        .collect();
-    let lookup = attach::lookup_frame(
-        &keys,
-        &needs,
-        &optional,
-        references,
-        &AttachSettings {
-            base_year: settings.step_settings.base_year,
-            nearest_year: settings.nearest_year,
-            base_currency: base_currency.clone(),
-            year_offset: settings.factor_year_offset,
-        },
-    )?;
-    let mut lf = frame.lazy().join(
-        lookup.lazy(),
-        [col("entity_code"), col("year")],
-        [col("entity_code"), col("year")],
-        // Rows stay in input order (no sort of every column afterwards).
-        JoinArgs {
-            maintain_order: MaintainOrderJoin::Left,
-            ..JoinArgs::new(JoinType::Left)
-        },
-    );
+    let (mut lf, missing_tables) =
+        join_factors(frame, &keys, &needs, &optional, references, settings)?;
     for batch in batches {
         lf = lf.with_columns(batch);
     }
@@ -232,8 +206,48 @@ pub(crate) fn prepare(
         baseline_steps,
         deflator_used,
         any_base,
-        missing_tables: missing_tables.into_iter().collect(),
+        missing_tables,
     })
+}
+
+/// The canonical frame with its factors, joined once per distinct entity and year, in input
+/// order; and the kinds of table that optional needs lack (see `Prepared::missing_tables`).
+fn join_factors(
+    frame: DataFrame,
+    keys: &HashSet<(String, i32)>,
+    needs: &std::collections::BTreeSet<adjust::FactorNeed>,
+    optional: &std::collections::BTreeSet<adjust::FactorNeed>,
+    references: Option<&References>,
+    settings: &PipelineSettings,
+) -> Result<(LazyFrame, Vec<crate::reference::Kind>)> {
+    let missing_tables: std::collections::BTreeSet<crate::reference::Kind> = optional
+        .iter()
+        .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
+        .map(|need| need.kind)
+        .collect();
+    let lookup = attach::lookup_frame(
+        keys,
+        needs,
+        optional,
+        references,
+        &AttachSettings {
+            base_year: settings.step_settings.base_year,
+            nearest_year: settings.nearest_year,
+            base_currency: settings.step_settings.base_currency.clone(),
+            year_offset: settings.factor_year_offset,
+        },
+    )?;
+    let lf = frame.lazy().join(
+        lookup.lazy(),
+        [col("entity_code"), col("year")],
+        [col("entity_code"), col("year")],
+        // Rows stay in input order (no sort of every column afterwards).
+        JoinArgs {
+            maintain_order: MaintainOrderJoin::Left,
+            ..JoinArgs::new(JoinType::Left)
+        },
+    );
+    Ok((lf, missing_tables.into_iter().collect()))
 }
 
 /// The canonical frame, one row per figure: what ingest read, the entity, the currency basis,
@@ -683,30 +697,14 @@ fn finish_intervals(frame: DataFrame, intervals: &IntervalSettings) -> Result<Da
         .map_err(Error::engine("ordering the output columns"))
 }
 
-#[allow(clippy::too_many_arguments)]
-/// The run summary; `file` and `reading_notes` are what reading the input decided.
-pub(crate) fn summarize(
-    counts: FlagCounts,
-    file: &str,
-    reading_notes: Vec<String>,
-    rows_in: usize,
-    rows_out: usize,
+/// The methods part of the summary: how prices were deflated and converted, how margins were
+/// carried, what per capita means here.
+fn method_notes(
     settings: &PipelineSettings,
-    baseline_steps: &[&'static dyn Step],
+    names: &[&str],
     deflator_used: Option<adjust::Deflator>,
-    references: Option<&References>,
-) -> RunSummary {
+) -> Vec<String> {
     let mut method_notes = Vec::new();
-    let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
-    let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
-    let input_currency = crate::units::InputCurrency {
-        code: if figures_are_not_money(settings) {
-            Some("XXX".into())
-        } else {
-            settings.ingest.currency_code.clone()
-        },
-        column: settings.ingest.roles.currency.is_some(),
-    };
     let base_year = settings.step_settings.base_year;
     if let Some(deflator) = deflator_used {
         let year = base_year.unwrap_or_default();
@@ -741,6 +739,33 @@ pub(crate) fn summarize(
             crate::units::per_people_words(settings.step_settings.per)
         ));
     }
+    method_notes
+}
+
+#[allow(clippy::too_many_arguments)]
+/// The run summary; `file` and `reading_notes` are what reading the input decided.
+pub(crate) fn summarize(
+    counts: FlagCounts,
+    file: &str,
+    reading_notes: Vec<String>,
+    rows_in: usize,
+    rows_out: usize,
+    settings: &PipelineSettings,
+    baseline_steps: &[&'static dyn Step],
+    deflator_used: Option<adjust::Deflator>,
+    references: Option<&References>,
+) -> RunSummary {
+    let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
+    let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
+    let input_currency = crate::units::InputCurrency {
+        code: if figures_are_not_money(settings) {
+            Some("XXX".into())
+        } else {
+            settings.ingest.currency_code.clone()
+        },
+        column: settings.ingest.roles.currency.is_some(),
+    };
+    let method_notes = method_notes(settings, &names, deflator_used);
     let mut warnings: Vec<String> = references.map(|r| r.warnings()).unwrap_or_default();
     if let Some(n) = counts.by_flag.get(flags::MIXED_CURRENCY) {
         warnings.push(format!(

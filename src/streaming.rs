@@ -195,76 +195,28 @@ fn run(
     settings: &PipelineSettings,
     staging: &mut report::Staging,
 ) -> Result<std::result::Result<pipeline::AdjustOutput, Restart>> {
-    let label = plan.input_label;
     let output = plan
         .output_path
         .ok_or_else(|| Error::usage("--streaming writes csv to a file", "pass -o FILE.csv"))?;
-    let mut pieces = open_pieces(label, stream, settings)?;
+    let pieces = open_pieces(plan.input_label, stream, settings)?;
     let spill_dir = spill_folder(output)?;
-
-    let mut first: Option<FirstPiece> = None;
-    let mut spilled: Vec<Spilled> = Vec::new();
-    let mut narrow: Vec<DataFrame> = Vec::new();
-    let mut groups: HashMap<String, u32> = HashMap::new();
-    let mut entities: HashMap<String, u32> = HashMap::new();
-    let mut units: HashMap<String, u32> = HashMap::new();
-    let mut lines_before = 0usize;
-    let mut rows_before = 0usize;
-    let mut ord = 0u64;
-    let mut later_notes: Vec<String> = Vec::new();
-    let mut shape: Option<Columns> = None;
-    while let Some(bytes) = pieces.next_piece(label)? {
-        let breaks = table::count_line_breaks(&bytes);
-        let prepared = match &first {
-            None => {
-                pipeline::prepare(&bytes, label, settings, plan.resolver, plan.references, ord)?
-            }
-            Some(f) => prepare_later_piece(
-                plan,
-                f,
-                bytes,
-                &PieceStart {
-                    lines_before,
-                    rows_before,
-                    ord,
-                },
-            )?,
-        };
-        if prepared.any_base && !settings.assume_base_rows {
-            return Ok(Err(Restart));
-        }
-        let ingested = &prepared.ingested;
-        match &first {
-            None => first = Some(first_piece(ingested, settings, label)?),
-            Some(_) => later_notes.extend(
-                ingested
-                    .notes
-                    .iter()
-                    .filter(|n| n.starts_with("set aside"))
-                    .cloned(),
-            ),
-        }
-        let columns = shape.get_or_insert_with(|| Columns {
-            head: prepared.head_columns.clone(),
-            baseline_steps: prepared.baseline_steps.clone(),
-            deflator_used: prepared.deflator_used,
-            missing_tables: prepared.missing_tables.clone(),
-        });
-        let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
-        let frame = piece_frame(prepared.lf, rows, &columns.head)?;
-        narrow.push(rank_inputs(&frame, &mut groups, &mut entities, &mut units)?);
-        let path = spill_dir
-            .path()
-            .join(format!("piece-{:05}.parquet", spilled.len()));
-        write_spill(&path, frame)?;
-        spilled.push(Spilled { path, rows });
-        lines_before += breaks;
-        rows_before += data_lines;
-        ord += rows as u64;
-    }
-    let (Some(first), Some(columns)) = (first, shape) else {
+    let spilling = match spill_pieces(plan, pieces, settings, spill_dir.path())? {
+        Ok(spilling) => spilling,
+        Err(Restart) => return Ok(Err(Restart)),
+    };
+    let Spilling {
+        first: Some(first),
+        shape: Some(columns),
+        spilled,
+        narrow,
+        later_notes,
+        rows_before,
+        ord,
+        ..
+    } = spilling
+    else {
         return Err(Error::bad_input(
-            crate::error::Location::file(label),
+            crate::error::Location::file(plan.input_label),
             "the file is empty",
             "a header line naming the columns, then one line per figure",
             "check that the right file was given",
@@ -315,6 +267,92 @@ fn run(
         frame: DataFrame::empty(),
         summary,
     }))
+}
+
+/// What the first pass over the pieces leaves: each piece's rows spilled to disk, the narrow
+/// columns the ranks need, and what the first piece decided.
+#[derive(Default)]
+struct Spilling {
+    first: Option<FirstPiece>,
+    shape: Option<Columns>,
+    spilled: Vec<Spilled>,
+    narrow: Vec<DataFrame>,
+    /// Group, entity and unit texts as small numbers, shared by every piece's narrow columns.
+    groups: HashMap<String, u32>,
+    entities: HashMap<String, u32>,
+    units: HashMap<String, u32>,
+    lines_before: usize,
+    rows_before: usize,
+    ord: u64,
+    /// Later pieces' notes of rows set aside (the first piece's notes are in `first`).
+    later_notes: Vec<String>,
+}
+
+/// The first pass: every piece prepared like an in-memory table, its rows spilled to
+/// `spill_dir`, its rank inputs kept; `Restart` when a piece holds base-currency rows that the
+/// first piece's columns did not plan for.
+fn spill_pieces(
+    plan: &StreamRun<'_>,
+    mut pieces: Pieces<std::fs::File>,
+    settings: &PipelineSettings,
+    spill_dir: &Path,
+) -> Result<std::result::Result<Spilling, Restart>> {
+    let label = plan.input_label;
+    let mut state = Spilling::default();
+    while let Some(bytes) = pieces.next_piece(label)? {
+        let breaks = table::count_line_breaks(&bytes);
+        let start = PieceStart {
+            lines_before: state.lines_before,
+            rows_before: state.rows_before,
+            ord: state.ord,
+        };
+        let prepared = match &state.first {
+            None => pipeline::prepare(
+                &bytes,
+                label,
+                settings,
+                plan.resolver,
+                plan.references,
+                start.ord,
+            )?,
+            Some(f) => prepare_later_piece(plan, f, bytes, &start)?,
+        };
+        if prepared.any_base && !settings.assume_base_rows {
+            return Ok(Err(Restart));
+        }
+        let ingested = &prepared.ingested;
+        match &state.first {
+            None => state.first = Some(first_piece(ingested, settings, label)?),
+            Some(_) => state.later_notes.extend(
+                ingested
+                    .notes
+                    .iter()
+                    .filter(|n| n.starts_with("set aside"))
+                    .cloned(),
+            ),
+        }
+        let columns = state.shape.get_or_insert_with(|| Columns {
+            head: prepared.head_columns.clone(),
+            baseline_steps: prepared.baseline_steps.clone(),
+            deflator_used: prepared.deflator_used,
+            missing_tables: prepared.missing_tables.clone(),
+        });
+        let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
+        let frame = piece_frame(prepared.lf, rows, &columns.head)?;
+        state.narrow.push(rank_inputs(
+            &frame,
+            &mut state.groups,
+            &mut state.entities,
+            &mut state.units,
+        )?);
+        let path = spill_dir.join(format!("piece-{:05}.parquet", state.spilled.len()));
+        write_spill(&path, frame)?;
+        state.spilled.push(Spilled { path, rows });
+        state.lines_before += breaks;
+        state.rows_before += data_lines;
+        state.ord += rows as u64;
+    }
+    Ok(Ok(state))
 }
 
 /// A piece's output columns and the private ones the ranks and flags need, computed; an error

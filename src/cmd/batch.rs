@@ -105,6 +105,74 @@ fn manifest_error(
     }
 }
 
+/// The jobs of one `[[run]]` entry: its recipe alone, or with each file its pattern matches
+/// (a job that says so when none does). `within` places a manifest path in its folder.
+fn entry_jobs(
+    entry: &RunEntry,
+    label: &str,
+    text: &str,
+    within: &dyn Fn(&str) -> PathBuf,
+) -> Result<Vec<Job>> {
+    let mut jobs = Vec::new();
+    let recipe = within(entry.recipe.get_ref());
+    if !recipe.is_file() {
+        return Err(manifest_error(
+            label,
+            text,
+            entry.recipe.span(),
+            "recipe",
+            format!("{} is not a file", recipe.display()),
+            "name a recipe file relative to the manifest's folder",
+        ));
+    }
+    let Some(pattern) = &entry.inputs else {
+        return Ok(vec![Job {
+            recipe,
+            input: None,
+            problem: None,
+            glob: false,
+        }]);
+    };
+    let full = within(pattern.get_ref());
+    let matches = glob::glob(&full.to_string_lossy()).map_err(|e| {
+        manifest_error(
+            label,
+            text,
+            pattern.span(),
+            "inputs",
+            format!("\"{}\" is not a file pattern: {}", pattern.get_ref(), e.msg),
+            "use * and ? wildcards, for example incoming/*.csv",
+        )
+    })?;
+    // Outputs of an earlier batch sit beside their inputs; a pattern never picks them up.
+    let mut inputs: Vec<PathBuf> = matches
+        .flatten()
+        .filter(|p| p.is_file() && !is_levelfield_output(p))
+        .collect();
+    inputs.sort();
+    if inputs.is_empty() {
+        jobs.push(Job {
+            recipe: recipe.clone(),
+            input: Some(full.clone()),
+            problem: Some(format!(
+                "no file matches {} (manifest line {})",
+                full.display(),
+                recipe::line_column(text, pattern.span().start).0
+            )),
+            glob: true,
+        });
+    }
+    for input in inputs {
+        jobs.push(Job {
+            recipe: recipe.clone(),
+            input: Some(input),
+            problem: None,
+            glob: true,
+        });
+    }
+    Ok(jobs)
+}
+
 /// Reads the manifest and expands patterns into jobs, in manifest order.
 fn read_manifest(path: &Path, allow_outside: bool) -> Result<(Vec<Job>, Option<PathBuf>)> {
     let label = path.display().to_string();
@@ -141,64 +209,7 @@ fn read_manifest(path: &Path, allow_outside: bool) -> Result<(Vec<Job>, Option<P
     }
     let mut jobs = Vec::new();
     for entry in &manifest.run {
-        let entry = entry.get_ref();
-        let recipe = within(entry.recipe.get_ref());
-        if !recipe.is_file() {
-            return Err(manifest_error(
-                &label,
-                &text,
-                entry.recipe.span(),
-                "recipe",
-                format!("{} is not a file", recipe.display()),
-                "name a recipe file relative to the manifest's folder",
-            ));
-        }
-        let Some(pattern) = &entry.inputs else {
-            jobs.push(Job {
-                recipe,
-                input: None,
-                problem: None,
-                glob: false,
-            });
-            continue;
-        };
-        let full = within(pattern.get_ref());
-        let matches = glob::glob(&full.to_string_lossy()).map_err(|e| {
-            manifest_error(
-                &label,
-                &text,
-                pattern.span(),
-                "inputs",
-                format!("\"{}\" is not a file pattern: {}", pattern.get_ref(), e.msg),
-                "use * and ? wildcards, for example incoming/*.csv",
-            )
-        })?;
-        // Outputs of an earlier batch sit beside their inputs; a pattern never picks them up.
-        let mut inputs: Vec<PathBuf> = matches
-            .flatten()
-            .filter(|p| p.is_file() && !is_levelfield_output(p))
-            .collect();
-        inputs.sort();
-        if inputs.is_empty() {
-            jobs.push(Job {
-                recipe: recipe.clone(),
-                input: Some(full.clone()),
-                problem: Some(format!(
-                    "no file matches {} (manifest line {})",
-                    full.display(),
-                    recipe::line_column(&text, pattern.span().start).0
-                )),
-                glob: true,
-            });
-        }
-        for input in inputs {
-            jobs.push(Job {
-                recipe: recipe.clone(),
-                input: Some(input),
-                problem: None,
-                glob: true,
-            });
-        }
+        jobs.extend(entry_jobs(entry.get_ref(), &label, &text, &within)?);
     }
     if let Some(dir) = &manifest.output_dir {
         if !allow_outside && !crate::source::stays_inside(&folder, dir.get_ref()) {

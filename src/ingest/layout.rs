@@ -177,26 +177,7 @@ pub fn assign_roles(
         .filter_map(|(i, h)| header_year(h).map(|y| (i, y)))
         .collect();
 
-    let wide = match flags.layout {
-        LayoutChoice::Wide => {
-            if year_columns.is_empty() {
-                return Err(Error::bad_input(
-                    Location::line(file, at),
-                    format!(
-                        "{} says the table is wide, but no header is a four-digit year",
-                        knobs.name(Role::Wide)
-                    ),
-                    "headers such as 2019, 2020 (or 2019 [YR2019])",
-                    knobs.fix(Role::Wide),
-                ));
-            }
-            true
-        }
-        LayoutChoice::Long => false,
-        LayoutChoice::Auto => {
-            !year_columns.is_empty() && flags.year.is_none() && flags.value.is_none()
-        }
-    };
+    let wide = reads_wide(flags, &year_columns, file, at)?;
 
     let mut taken: Taken = Taken::default();
     if wide {
@@ -231,31 +212,7 @@ pub fn assign_roles(
     let shape = if wide {
         Shape::Wide { year_columns }
     } else {
-        let year = match (&flags.year, flags.year_value) {
-            (Some(name), _) => YearSource::Column {
-                index: find(Role::Year, name)?,
-                detected: false,
-            },
-            (None, Some(year)) => YearSource::Fixed(year),
-            (None, None) => match position_named(headers, YEAR_NAMES, &taken) {
-                Some(index) => YearSource::Column {
-                    index,
-                    detected: true,
-                },
-                None => return Err(Error::bad_input(
-                    Location::line(file, at),
-                    format!("no year column among {}", list(headers)),
-                    "a column named year (or one column per year, such as 2019, 2020)",
-                    match knobs {
-                        Knobs::Flags => {
-                            "pass --year COL, or --year-value YYYY when the whole table is one year"
-                                .to_string()
-                        }
-                        Knobs::Catalog { .. } => knobs.fix(Role::Year),
-                    },
-                )),
-            },
-        };
+        let year = year_source(table, flags, &taken, file)?;
         if let YearSource::Column { index, .. } = year {
             taken.insert(index);
         }
@@ -285,6 +242,77 @@ pub fn assign_roles(
         reserved,
         shape,
         ignored,
+    })
+}
+
+/// Whether the table is read wide (one column per year): as the layout option says, or, left
+/// to us, when some headers are years and neither a year nor a value column is named.
+fn reads_wide(
+    flags: &RoleFlags,
+    year_columns: &[(usize, i32)],
+    file: &str,
+    at: usize,
+) -> Result<bool> {
+    let knobs = &flags.knobs;
+    Ok(match flags.layout {
+        LayoutChoice::Wide => {
+            if year_columns.is_empty() {
+                return Err(Error::bad_input(
+                    Location::line(file, at),
+                    format!(
+                        "{} says the table is wide, but no header is a four-digit year",
+                        knobs.name(Role::Wide)
+                    ),
+                    "headers such as 2019, 2020 (or 2019 [YR2019])",
+                    knobs.fix(Role::Wide),
+                ));
+            }
+            true
+        }
+        LayoutChoice::Long => false,
+        LayoutChoice::Auto => {
+            !year_columns.is_empty() && flags.year.is_none() && flags.value.is_none()
+        }
+    })
+}
+
+/// Where a long table's rows take their year: the named column, the one year of the whole
+/// table, or a column named like a year among those not `taken`.
+fn year_source(
+    table: &TextTable,
+    flags: &RoleFlags,
+    taken: &Taken,
+    file: &str,
+) -> Result<YearSource> {
+    let headers = &table.headers;
+    let at = table.header_line;
+    let knobs = &flags.knobs;
+    Ok(match (&flags.year, flags.year_value) {
+        (Some(name), _) => YearSource::Column {
+            index: find_column(headers, name, Role::Year, knobs, file, at)?,
+            detected: false,
+        },
+        (None, Some(year)) => YearSource::Fixed(year),
+        (None, None) => {
+            match position_named(headers, YEAR_NAMES, taken) {
+                Some(index) => YearSource::Column {
+                    index,
+                    detected: true,
+                },
+                None => return Err(Error::bad_input(
+                    Location::line(file, at),
+                    format!("no year column among {}", list(headers)),
+                    "a column named year (or one column per year, such as 2019, 2020)",
+                    match knobs {
+                        Knobs::Flags => {
+                            "pass --year COL, or --year-value YYYY when the whole table is one year"
+                                .to_string()
+                        }
+                        Knobs::Catalog { .. } => knobs.fix(Role::Year),
+                    },
+                )),
+            }
+        }
     })
 }
 

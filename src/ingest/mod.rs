@@ -101,16 +101,6 @@ pub fn ingest(
     // A statistics-office TSV: dimensions other than the entity that take several values in
     // the file become the group (unless --group names one), so that each series ranks alone.
     let auto_group = varying_dimensions(&table, &roles);
-    if !auto_group.is_empty() {
-        let names: Vec<&str> = auto_group
-            .iter()
-            .map(|&d| table.headers[d].as_str())
-            .collect();
-        notes.push(format!(
-            "group: the dimension(s) {} take several values, so each of their series is ranked on its own (--group DIM to choose)",
-            names.join(", ")
-        ));
-    }
     let marks = rows::RecordMarks::find(&table, &roles);
     if let (Some(p), Some(_)) = (marks.power, options.value_multiplier) {
         return Err(Error::usage(
@@ -121,17 +111,7 @@ pub fn ingest(
             "drop --value-multiplier: the column already says the unit of every figure",
         ));
     }
-    notes.extend(marks.describe(&table));
-    let unused: Vec<String> = roles
-        .ignored
-        .iter()
-        .filter(|h| !auto_group.iter().any(|&d| &table.headers[d] == *h))
-        .filter(|h| !marks.uses(&table, h))
-        .cloned()
-        .collect();
-    if !unused.is_empty() {
-        notes.push(format!("columns not used: {}", layout::list(&unused)));
-    }
+    notes.extend(column_use_notes(&table, &roles, &auto_group, &marks));
     let mut rows = rows::read_rows(
         &table,
         &rows::RowPlan {
@@ -164,6 +144,39 @@ pub fn ingest(
         encoding: decoded.encoding,
         roles_used,
     })
+}
+
+/// The notes on how the columns are used: dimensions that became the group, the marks read
+/// beside each figure, and the columns left unused.
+fn column_use_notes(
+    table: &table::TextTable,
+    roles: &layout::Roles,
+    auto_group: &[usize],
+    marks: &rows::RecordMarks,
+) -> Vec<String> {
+    let mut notes = Vec::new();
+    if !auto_group.is_empty() {
+        let names: Vec<&str> = auto_group
+            .iter()
+            .map(|&d| table.headers[d].as_str())
+            .collect();
+        notes.push(format!(
+            "group: the dimension(s) {} take several values, so each of their series is ranked on its own (--group DIM to choose)",
+            names.join(", ")
+        ));
+    }
+    notes.extend(marks.describe(table));
+    let unused: Vec<String> = roles
+        .ignored
+        .iter()
+        .filter(|h| !auto_group.iter().any(|&d| &table.headers[d] == *h))
+        .filter(|h| !marks.uses(table, h))
+        .cloned()
+        .collect();
+    if !unused.is_empty() {
+        notes.push(format!("columns not used: {}", layout::list(&unused)));
+    }
+    notes
 }
 
 /// The first note: what was read, as what, and how many data lines it holds.

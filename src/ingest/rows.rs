@@ -35,7 +35,7 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
         marks,
         auto_group,
         currency_code,
-        margin_count,
+        margin_count: _,
     } = *plan;
     let reader = RowReader {
         file,
@@ -53,29 +53,9 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
     let mut rows = Vec::with_capacity(table.records.len() * rows_per_record);
     for (index, record) in table.records.iter().enumerate() {
         let data_row = index + 1 + options.row_offset;
-        let entity_input = match roles.entity_fallback {
-            Some(name) if record.cells[roles.entity].trim().is_empty() => {
-                record.cells[name].to_string()
-            }
-            // SDMX-CSV 2.0 may label its codes (`AUS: Australia`): the code names the entity.
-            _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]).to_string(),
-            _ => record.cells[roles.entity].to_string(),
-        };
+        let entity_input = record_entity(record, roles, sdmx);
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
-        let group = if auto_group.is_empty() {
-            roles
-                .group
-                .map(|g| record.cells[g].trim().to_string())
-                .filter(|g| !g.is_empty())
-        } else {
-            Some(
-                auto_group
-                    .iter()
-                    .map(|&d| record.cells[d].trim())
-                    .collect::<Vec<_>>()
-                    .join(","),
-            )
-        };
+        let group = record_group(record, roles, auto_group);
         let currency_cell = roles
             .currency
             .map(|c| (table.headers[c].as_str(), &record.cells[c]));
@@ -105,25 +85,7 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
                     currency_cell,
                     row_flags,
                 )?;
-                let cells = margins::MarginCells {
-                    cells: roles.reserved[..margin_count]
-                        .iter()
-                        .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
-                        .collect(),
-                };
-                row.se = margins::standard_error(
-                    &options.margins,
-                    row.value,
-                    &cells,
-                    multiplier.map(number::to_f64).unwrap_or(1.0),
-                    file,
-                    record.line,
-                    &mut row.flags,
-                )?;
-                row.extra = roles.reserved[margin_count..]
-                    .iter()
-                    .map(|&i| record.cells[i].to_string())
-                    .collect();
+                with_margins(&mut row, record, table, plan, multiplier)?;
                 rows.push(row);
             }
             Shape::Wide { year_columns } => {
@@ -147,6 +109,72 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
         }
     }
     Ok(rows)
+}
+
+/// The entity text of a record: its entity cell, or the fallback column's where that is
+/// empty; of an SDMX-CSV 2.0 cell labelled `AUS: Australia`, the code.
+fn record_entity(record: &table::TextRecord, roles: &layout::Roles, sdmx: bool) -> String {
+    match roles.entity_fallback {
+        Some(name) if record.cells[roles.entity].trim().is_empty() => {
+            record.cells[name].to_string()
+        }
+        _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]).to_string(),
+        _ => record.cells[roles.entity].to_string(),
+    }
+}
+
+/// A record's group: the group column's text, or the varying dimensions of a statistics
+/// office's table joined with commas.
+fn record_group(
+    record: &table::TextRecord,
+    roles: &layout::Roles,
+    auto_group: &[usize],
+) -> Option<String> {
+    if auto_group.is_empty() {
+        roles
+            .group
+            .map(|g| record.cells[g].trim().to_string())
+            .filter(|g| !g.is_empty())
+    } else {
+        Some(
+            auto_group
+                .iter()
+                .map(|&d| record.cells[d].trim())
+                .collect::<Vec<_>>()
+                .join(","),
+        )
+    }
+}
+
+/// A long row's standard error from its margin cells, and the claim columns carried beside it.
+fn with_margins(
+    row: &mut CanonicalRow,
+    record: &table::TextRecord,
+    table: &table::TextTable,
+    plan: &RowPlan,
+    multiplier: Option<Decimal>,
+) -> Result<()> {
+    let (roles, margin_count) = (plan.roles, plan.margin_count);
+    let cells = margins::MarginCells {
+        cells: roles.reserved[..margin_count]
+            .iter()
+            .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
+            .collect(),
+    };
+    row.se = margins::standard_error(
+        &plan.options.margins,
+        row.value,
+        &cells,
+        multiplier.map(number::to_f64).unwrap_or(1.0),
+        plan.file,
+        record.line,
+        &mut row.flags,
+    )?;
+    row.extra = roles.reserved[margin_count..]
+        .iter()
+        .map(|&i| record.cells[i].to_string())
+        .collect();
+    Ok(())
 }
 
 /// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a

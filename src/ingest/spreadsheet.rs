@@ -17,6 +17,51 @@ pub fn is_spreadsheet(file: &str) -> bool {
         .is_some_and(|e| EXTENSIONS.contains(&e.to_ascii_lowercase().as_str()))
 }
 
+/// The sheet to read: the one named or numbered (from 1) by `--sheet`, else the first. The
+/// error is None when the workbook has no sheet at all.
+fn chosen_sheet(
+    names: &[String],
+    sheet: Option<&str>,
+    file: &str,
+) -> std::result::Result<String, Option<Error>> {
+    match sheet {
+        None => names.first().cloned().ok_or(None),
+        Some(wanted) => match (
+            names.iter().find(|n| n.as_str() == wanted),
+            wanted.parse::<usize>(),
+        ) {
+            (Some(n), _) => Ok(n.clone()),
+            (None, Ok(index)) if index >= 1 && index <= names.len() => Ok(names[index - 1].clone()),
+            _ => Err(Some(Error::usage(
+                format!("{file} has no sheet \"{wanted}\""),
+                format!(
+                    "pass --sheet with one of: {} (or its position, from 1)",
+                    names.join(", ")
+                ),
+            ))),
+        },
+    }
+}
+
+/// The sheet rows (from 1) that hold a formula.
+fn rows_with_formulas<RS: std::io::Read + std::io::Seek>(
+    workbook: &mut calamine::Sheets<RS>,
+    name: &str,
+) -> Vec<usize> {
+    workbook
+        .worksheet_formula(name)
+        .map(|formulas| {
+            let start = formulas.start().map(|(r, _)| r as usize).unwrap_or(0);
+            formulas
+                .rows()
+                .enumerate()
+                .filter(|(_, row)| row.iter().any(|f| !f.is_empty()))
+                .map(|(i, _)| start + i + 1)
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
 /// The chosen sheet as CSV text (line N = sheet row N) and notes for the summary.
 pub fn sheet_to_csv(
     bytes: &[u8],
@@ -36,42 +81,12 @@ pub fn sheet_to_csv(
     let mut workbook =
         open_workbook_auto_from_rs(Cursor::new(bytes.to_vec())).map_err(unreadable)?;
     let names = workbook.sheet_names();
-    let name = match sheet {
-        None => names
-            .first()
-            .cloned()
-            .ok_or_else(|| unreadable(calamine::Error::Msg("the workbook has no sheet")))?,
-        Some(wanted) => match (
-            names.iter().find(|n| n.as_str() == wanted),
-            wanted.parse::<usize>(),
-        ) {
-            (Some(n), _) => n.clone(),
-            (None, Ok(index)) if index >= 1 && index <= names.len() => names[index - 1].clone(),
-            _ => {
-                return Err(Error::usage(
-                    format!("{file} has no sheet \"{wanted}\""),
-                    format!(
-                        "pass --sheet with one of: {} (or its position, from 1)",
-                        names.join(", ")
-                    ),
-                ))
-            }
-        },
-    };
+    let name = chosen_sheet(&names, sheet, file).map_err(|e| {
+        e.unwrap_or_else(|| unreadable(calamine::Error::Msg("the workbook has no sheet")))
+    })?;
     check_declared_size(&mut workbook, &name, file)?;
     let range = workbook.worksheet_range(&name).map_err(unreadable)?;
-    let formula_rows: Vec<usize> = workbook
-        .worksheet_formula(&name)
-        .map(|formulas| {
-            let start = formulas.start().map(|(r, _)| r as usize).unwrap_or(0);
-            formulas
-                .rows()
-                .enumerate()
-                .filter(|(_, row)| row.iter().any(|f| !f.is_empty()))
-                .map(|(i, _)| start + i + 1)
-                .collect()
-        })
-        .unwrap_or_default();
+    let formula_rows = rows_with_formulas(&mut workbook, &name);
     let first_row = range.start().map(|(r, _)| r as usize).unwrap_or(0);
     let first_column = range.start().map(|(_, c)| c as usize).unwrap_or(0);
     let mut writer = csv::WriterBuilder::new()

@@ -194,45 +194,12 @@ fn resource_of(r: RawResource, index: usize, file: &str) -> Result<Resource> {
             "fix \"multiplier\"",
         ));
     }
-    let layout = match r.layout.as_deref() {
-        None => LayoutChoice::Auto,
-        Some("long") => LayoutChoice::Long,
-        Some("wide") => LayoutChoice::Wide,
-        Some(other) => {
-            return Err(fail(
-                format!("layout \"{other}\""),
-                "long or wide",
-                "fix \"layout\" or leave it out",
-            ))
-        }
-    };
-    let basis = match r.basis.as_deref() {
-        None | Some("lcu") => Basis::Lcu,
-        Some("usd") | Some("base") => Basis::Base,
-        Some("intl") | Some("ppp") => Basis::Intl,
-        Some(other) => {
-            return Err(fail(
-                format!("basis \"{other}\""),
-                "lcu, usd or intl",
-                "fix \"basis\"",
-            ))
-        }
-    };
-    if r.margin_field.is_some() && !matches!(r.margin_confidence, Some(90 | 95 | 99)) {
-        return Err(fail(
-            "margin_field without a margin_confidence of 90, 95 or 99".into(),
-            "the confidence level the margins are stated at",
-            "add \"margin_confidence\": 90 (or 95, 99)",
-        ));
-    }
-    if (r.margin_field.is_some() || r.se_field.is_some())
-        && !matches!(kind, Kind::Population | Kind::Income)
-    {
-        return Err(fail(
-            format!("margins on a {} table", kind.as_str()),
-            "margins only on population and income tables (fx, ppp and cpi are treated as exact)",
-            "remove se_field / margin_field from this resource",
-        ));
+    let layout = layout_of(r.layout.as_deref())
+        .map_err(|found| fail(found, "long or wide", "fix \"layout\" or leave it out"))?;
+    let basis = basis_of(r.basis.as_deref())
+        .map_err(|found| fail(found, "lcu, usd or intl", "fix \"basis\""))?;
+    if let Some((found, expected, fix)) = margin_problem(&r, kind) {
+        return Err(fail(found, expected, fix));
     }
     let base_currency = r
         .base_currency
@@ -264,6 +231,48 @@ fn resource_of(r: RawResource, index: usize, file: &str) -> Result<Resource> {
         filter: r.filter,
         decimal_comma: r.decimal_comma,
     })
+}
+
+/// A resource's layout; the text to show where it is none of long and wide.
+fn layout_of(text: Option<&str>) -> std::result::Result<LayoutChoice, String> {
+    match text {
+        None => Ok(LayoutChoice::Auto),
+        Some("long") => Ok(LayoutChoice::Long),
+        Some("wide") => Ok(LayoutChoice::Wide),
+        Some(other) => Err(format!("layout \"{other}\"")),
+    }
+}
+
+/// What a resource's figures are in; the text to show where the basis is unknown.
+fn basis_of(text: Option<&str>) -> std::result::Result<Basis, String> {
+    match text {
+        None | Some("lcu") => Ok(Basis::Lcu),
+        Some("usd") | Some("base") => Ok(Basis::Base),
+        Some("intl") | Some("ppp") => Ok(Basis::Intl),
+        Some(other) => Err(format!("basis \"{other}\"")),
+    }
+}
+
+/// What is wrong with a resource's margin fields (found, expected, fix), if anything: a margin
+/// needs its confidence level, and only population and income tables carry margins.
+fn margin_problem(r: &RawResource, kind: Kind) -> Option<(String, &'static str, &'static str)> {
+    if r.margin_field.is_some() && !matches!(r.margin_confidence, Some(90 | 95 | 99)) {
+        return Some((
+            "margin_field without a margin_confidence of 90, 95 or 99".into(),
+            "the confidence level the margins are stated at",
+            "add \"margin_confidence\": 90 (or 95, 99)",
+        ));
+    }
+    if (r.margin_field.is_some() || r.se_field.is_some())
+        && !matches!(kind, Kind::Population | Kind::Income)
+    {
+        return Some((
+            format!("margins on a {} table", kind.as_str()),
+            "margins only on population and income tables (fx, ppp and cpi are treated as exact)",
+            "remove se_field / margin_field from this resource",
+        ));
+    }
+    None
 }
 
 /// Parses and checks a catalog; `file` names it in messages.

@@ -125,6 +125,48 @@ fn observation(
     Ok(Some((year, factor)))
 }
 
+/// Refuses a catalog filter on a dimension the file does not have.
+fn check_filter_columns(
+    headers: &[String],
+    resource: &Resource,
+    file: &str,
+    at: usize,
+) -> Result<()> {
+    for dimension in resource.filter.keys() {
+        if !headers.contains(&dimension.to_uppercase()) {
+            return Err(Error::bad_input(
+                Location::line(file, at),
+                format!("the catalog filters on {dimension}, which is not a column of the file"),
+                format!("one of {}", headers.join(", ")),
+                format!(
+                    "fix \"filter\" on the catalog resource \"{}\"",
+                    resource.name
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// Two series keys for one entity-year: the catalog must pick one with a filter.
+fn several_series(
+    file: &str,
+    line: usize,
+    (entity, year): (&str, i32),
+    found: BTreeSet<&str>,
+    resource: &Resource,
+) -> Error {
+    Error::bad_input(
+        Location::line(file, line),
+        format!(
+            "several series for {entity} in {year}: {}",
+            found.into_iter().collect::<Vec<_>>().join(" | ")
+        ),
+        "one series per entity and year",
+        format!("add a \"filter\" to the catalog resource \"{}\" that picks one series (for example a measure or unit code)", resource.name),
+    )
+}
+
 /// A reference table from an SDMX-CSV file (version 1 or 2): the rows the catalog's `filter`
 /// keeps, one factor per entity and year; several series for one entity-year are an error.
 pub fn load_sdmx(
@@ -153,19 +195,7 @@ pub fn load_sdmx(
     let time = column("TIME_PERIOD").ok_or_else(|| missing("TIME_PERIOD"))?;
     let value = column("OBS_VALUE").ok_or_else(|| missing("OBS_VALUE"))?;
     let unit_mult = column("UNIT_MULT");
-    for dimension in resource.filter.keys() {
-        if column(&dimension.to_uppercase()).is_none() {
-            return Err(Error::bad_input(
-                Location::line(file, at),
-                format!("the catalog filters on {dimension}, which is not a column of the file"),
-                format!("one of {}", headers.join(", ")),
-                format!(
-                    "fix \"filter\" on the catalog resource \"{}\"",
-                    resource.name
-                ),
-            ));
-        }
-    }
+    check_filter_columns(&headers, resource, file, at)?;
     let dimensions: Vec<usize> = (0..headers.len())
         .filter(|&i| !NOT_DIMENSIONS.contains(&headers[i].as_str()))
         .collect();
@@ -211,14 +241,12 @@ pub fn load_sdmx(
             .join(",");
         if let Some((_, first)) = origins.get(&entity, year) {
             let found: BTreeSet<&str> = [first, series.as_str()].into_iter().collect();
-            return Err(Error::bad_input(
-                Location::line(file, record.line),
-                format!(
-                    "several series for {entity} in {year}: {}",
-                    found.into_iter().collect::<Vec<_>>().join(" | ")
-                ),
-                "one series per entity and year",
-                format!("add a \"filter\" to the catalog resource \"{}\" that picks one series (for example a measure or unit code)", resource.name),
+            return Err(several_series(
+                file,
+                record.line,
+                (&entity, year),
+                found,
+                resource,
             ));
         }
         let series_id = origins.series_id(&series);

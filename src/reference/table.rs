@@ -103,32 +103,7 @@ fn load_plain(
     resolver: &Resolver,
     notes: &mut Vec<String>,
 ) -> Result<RefTable> {
-    let flags = RoleFlags {
-        entity: resource.entity_field.clone(),
-        value: resource.value_field.clone(),
-        year: resource.year_field.clone(),
-        layout: resource.layout,
-        reserved: resource
-            .se_field
-            .iter()
-            .chain(resource.margin_field.iter())
-            .cloned()
-            .collect(),
-        knobs: Knobs::Catalog {
-            resource: resource.name.clone(),
-        },
-        ..Default::default()
-    };
-    let roles = layout::assign_roles(text_table, &flags, file, Some(resolver))?;
-    if !roles.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
-        return Err(Error::bad_input(
-            Location::file(file),
-            "a margin column in a wide table",
-            "a long table (entity, year, value, margin) when the catalog names se_field or margin_field",
-            "reshape the table to long form, or remove the margin property from the catalog",
-        ));
-    }
-    check_wide_headers(text_table, &roles, file, resource)?;
+    let roles = plain_roles(text_table, file, resource, resolver)?;
     notes.push(describe_roles(text_table, &roles));
     let marks = crate::ingest::RecordMarks::find(text_table, &roles);
     notes.extend(marks.describe(text_table));
@@ -215,6 +190,43 @@ fn load_plain(
         }
     }
     Ok(loaded)
+}
+
+/// The roles of a plain reference table's columns, from the catalog's fields; refused where a
+/// margin column sits in a wide table or a wide table's headers are not all years.
+fn plain_roles(
+    text_table: &table::TextTable,
+    file: &str,
+    resource: &Resource,
+    resolver: &Resolver,
+) -> Result<layout::Roles> {
+    let flags = RoleFlags {
+        entity: resource.entity_field.clone(),
+        value: resource.value_field.clone(),
+        year: resource.year_field.clone(),
+        layout: resource.layout,
+        reserved: resource
+            .se_field
+            .iter()
+            .chain(resource.margin_field.iter())
+            .cloned()
+            .collect(),
+        knobs: Knobs::Catalog {
+            resource: resource.name.clone(),
+        },
+        ..Default::default()
+    };
+    let roles = layout::assign_roles(text_table, &flags, file, Some(resolver))?;
+    if !roles.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
+        return Err(Error::bad_input(
+            Location::file(file),
+            "a margin column in a wide table",
+            "a long table (entity, year, value, margin) when the catalog names se_field or margin_field",
+            "reshape the table to long form, or remove the margin property from the catalog",
+        ));
+    }
+    check_wide_headers(text_table, &roles, file, resource)?;
+    Ok(roles)
 }
 
 /// The (year, column) cells of one record: every year column of a wide table, or the value

@@ -161,27 +161,9 @@ fn methods_html(note: &MethodsNote) -> String {
     out
 }
 
-pub fn render(
-    frame: &DataFrame,
-    summary: &RunSummary,
-    note: &MethodsNote,
-    rounding: Rounding,
-) -> Result<String> {
-    let rounding = if rounding == Rounding::Full {
-        Rounding::Reading
-    } else {
-        rounding
-    };
-    let source = format!(
-        "Source: {}; reference tables: {}; computed by levelfield {}.",
-        summary.input,
-        if summary.references.is_empty() {
-            "none".to_string()
-        } else {
-            summary.references.join("; ")
-        },
-        env!("CARGO_PKG_VERSION")
-    );
+/// The charts section: a slope chart and a dot chart for each of the last `CHARTED`
+/// group-years ranked, each with its source line, and a sentence where some are left out.
+fn charts_html(frame: &DataFrame, summary: &RunSummary, source: &str) -> Result<String> {
     let baseline_name = summary.units.baseline_legend();
     let partitions = partitions(frame);
     let mut charts_html = String::new();
@@ -239,14 +221,39 @@ pub fn render(
         charts_html.push_str(&format!(
             "<figure><figcaption>Ranks before and after adjustment, {scope}</figcaption>{slope}<p class=\"source\">{}</p></figure>\
              <figure><figcaption>Values on one axis, {scope}</figcaption>{dots}<p class=\"source\">{}</p></figure>",
-            escape(&source),
-            escape(&source),
+            escape(source),
+            escape(source),
             scope = escape(&scope),
         ));
     }
     if charts_html.is_empty() {
         charts_html.push_str("<p>No ranked rows to chart.</p>");
     }
+    Ok(charts_html)
+}
+
+pub fn render(
+    frame: &DataFrame,
+    summary: &RunSummary,
+    note: &MethodsNote,
+    rounding: Rounding,
+) -> Result<String> {
+    let rounding = if rounding == Rounding::Full {
+        Rounding::Reading
+    } else {
+        rounding
+    };
+    let source = format!(
+        "Source: {}; reference tables: {}; computed by levelfield {}.",
+        summary.input,
+        if summary.references.is_empty() {
+            "none".to_string()
+        } else {
+            summary.references.join("; ")
+        },
+        env!("CARGO_PKG_VERSION")
+    );
+    let charts_html = charts_html(frame, summary, &source)?;
     Ok(format!(
         "<!doctype html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\
          <title>levelfield report: {input}</title><style>{STYLE}</style></head><body><main>\

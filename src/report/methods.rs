@@ -100,50 +100,13 @@ fn flag_reason(flag: &str) -> String {
     reason.to_string()
 }
 
-pub fn build(
+/// The files a run read, each with what it is and its SHA-256: the input, then the catalog,
+/// its alias files and its tables.
+fn file_lines(
     summary: &RunSummary,
-    settings: &PipelineSettings,
     references: Option<&References>,
     input_sha256: &str,
-) -> MethodsNote {
-    let mut in_brief: Vec<String> = settings
-        .steps
-        .iter()
-        .map(|s| s.explain(&settings.step_settings))
-        .collect();
-    if settings.steps.is_empty() {
-        in_brief.push("The figures were ranked as given, without adjustment.".into());
-    } else if settings.steps.iter().any(|s| s.name() == "ppp") {
-        in_brief.push(format!(
-            "The comparison without the price-level adjustment (\"baseline\") uses the same steps with market exchange rates in place of PPPs: {}. The adjusted figures are in {}.",
-            summary.units.baseline.words, summary.units.adjusted.words
-        ));
-    } else {
-        in_brief.push(format!(
-            "No step converts at PPPs, so the baseline is the adjusted figures themselves and no rank shift comes from a price-level adjustment. The figures are in {}.",
-            summary.units.adjusted.words
-        ));
-    }
-    in_brief.push(format!(
-        "Ranks are standard competition ranks within each {}year ({} value first); every row of the input is kept, and {} of {} carry flags explained below.",
-        if summary.notes.iter().any(|n| n.contains("group")) { "group and " } else { "" },
-        if settings.order == crate::rank::Order::Desc { "highest" } else { "lowest" },
-        summary.rows_flagged,
-        summary.rows_in
-    ));
-    let steps = settings
-        .steps
-        .iter()
-        .map(|s| StepLine {
-            name: s.name().into(),
-            summary: s.summary().into(),
-            formula: s.formula().into(),
-        })
-        .collect();
-    let mut details = summary.method_notes.clone();
-    if let Some(year) = settings.step_settings.base_year {
-        details.push(format!("base year: {year}"));
-    }
+) -> Vec<FileLine> {
     let mut files = vec![FileLine {
         role: "input".into(),
         file: summary.input.clone(),
@@ -194,6 +157,54 @@ pub fn build(
             });
         }
     }
+    files
+}
+
+pub fn build(
+    summary: &RunSummary,
+    settings: &PipelineSettings,
+    references: Option<&References>,
+    input_sha256: &str,
+) -> MethodsNote {
+    let mut in_brief: Vec<String> = settings
+        .steps
+        .iter()
+        .map(|s| s.explain(&settings.step_settings))
+        .collect();
+    if settings.steps.is_empty() {
+        in_brief.push("The figures were ranked as given, without adjustment.".into());
+    } else if settings.steps.iter().any(|s| s.name() == "ppp") {
+        in_brief.push(format!(
+            "The comparison without the price-level adjustment (\"baseline\") uses the same steps with market exchange rates in place of PPPs: {}. The adjusted figures are in {}.",
+            summary.units.baseline.words, summary.units.adjusted.words
+        ));
+    } else {
+        in_brief.push(format!(
+            "No step converts at PPPs, so the baseline is the adjusted figures themselves and no rank shift comes from a price-level adjustment. The figures are in {}.",
+            summary.units.adjusted.words
+        ));
+    }
+    in_brief.push(format!(
+        "Ranks are standard competition ranks within each {}year ({} value first); every row of the input is kept, and {} of {} carry flags explained below.",
+        if summary.notes.iter().any(|n| n.contains("group")) { "group and " } else { "" },
+        if settings.order == crate::rank::Order::Desc { "highest" } else { "lowest" },
+        summary.rows_flagged,
+        summary.rows_in
+    ));
+    let steps = settings
+        .steps
+        .iter()
+        .map(|s| StepLine {
+            name: s.name().into(),
+            summary: s.summary().into(),
+            formula: s.formula().into(),
+        })
+        .collect();
+    let mut details = summary.method_notes.clone();
+    if let Some(year) = settings.step_settings.base_year {
+        details.push(format!("base year: {year}"));
+    }
+    let files = file_lines(summary, references, input_sha256);
     let mut flagged: Vec<(String, usize)> = Vec::new();
     for (flag, count) in &summary.flag_counts {
         let reason = flag_reason(flag.trim_end_matches(":YYYY"));

@@ -114,41 +114,13 @@ pub fn add_intervals(frame: DataFrame, settings: &IntervalSettings) -> Result<Da
                 .map(|&i| values[i].unwrap_or(f64::NAN))
                 .collect();
             let s: Vec<f64> = rows.iter().map(|&i| ses[i].unwrap_or(0.0)).collect();
-            let ivs = match settings.method {
-                IntervalMethod::Joint(adjustment) => {
-                    let alpha = 1.0 - settings.level.confidence();
-                    let critical = intervals::joint_critical(rows.len(), alpha, adjustment);
-                    intervals::joint_intervals(&v, &s, critical, settings.order)
-                }
-                IntervalMethod::Simulate { draws, seed } => {
-                    // Each partition gets its own stream so results do not depend on the others.
-                    let seed = seed
-                        .wrapping_add(index as u64)
-                        .wrapping_mul(0x9E37_79B9_7F4A_7C15);
-                    intervals::simulated_intervals(
-                        &v,
-                        &s,
-                        draws,
-                        seed,
-                        settings.level.confidence(),
-                        settings.order,
-                    )
-                }
-            };
+            let ivs = partition_intervals(&v, &s, index, settings);
             for (k, &i) in rows.iter().enumerate() {
                 low[i] = Some(ivs[k].0 as i64);
                 high[i] = Some(ivs[k].1 as i64);
             }
             if track == "adjusted" {
-                mark_ties(
-                    rows,
-                    &v,
-                    &s,
-                    settings,
-                    &codes,
-                    &i64_column(&frame, "rank_adjusted")?,
-                    &mut tied_with,
-                );
+                mark_ties(rows, &v, &s, settings, &codes, &ranked, &mut tied_with);
             }
         }
         out.insert(
@@ -169,24 +141,7 @@ pub fn add_intervals(frame: DataFrame, settings: &IntervalSettings) -> Result<Da
         );
     }
     let shifts = i64_column(&frame, "rank_shift")?;
-    for i in 0..n {
-        let (Some(shift), Some(bl), Some(bh), Some(al), Some(ah)) = (
-            shifts[i],
-            out["rank_baseline_low"][i],
-            out["rank_baseline_high"][i],
-            out["rank_adjusted_low"][i],
-            out["rank_adjusted_high"][i],
-        ) else {
-            continue;
-        };
-        if shift != 0 && bl <= ah && al <= bh {
-            let text = flags_text[i].get_or_insert_with(String::new);
-            if !text.is_empty() {
-                text.push(';');
-            }
-            text.push_str(flags::WITHIN_UNCERTAINTY);
-        }
-    }
+    flag_shifts_within_intervals(&shifts, &out, &mut flags_text);
     let mut frame = frame;
     for name in [
         "rank_baseline_low",
@@ -209,6 +164,64 @@ pub fn add_intervals(frame: DataFrame, settings: &IntervalSettings) -> Result<Da
         .with_column(Column::new("flags".into(), flags_column))
         .map_err(Error::engine("updating flags"))?;
     Ok(frame)
+}
+
+/// The rank intervals of one partition's values `v` with standard errors `s` (its `index`
+/// seeds the simulation, so that results do not depend on the other partitions).
+fn partition_intervals(
+    v: &[f64],
+    s: &[f64],
+    index: usize,
+    settings: &IntervalSettings,
+) -> Vec<(usize, usize)> {
+    match settings.method {
+        IntervalMethod::Joint(adjustment) => {
+            let alpha = 1.0 - settings.level.confidence();
+            let critical = intervals::joint_critical(v.len(), alpha, adjustment);
+            intervals::joint_intervals(v, s, critical, settings.order)
+        }
+        IntervalMethod::Simulate { draws, seed } => {
+            // Each partition gets its own stream so results do not depend on the others.
+            let seed = seed
+                .wrapping_add(index as u64)
+                .wrapping_mul(0x9E37_79B9_7F4A_7C15);
+            intervals::simulated_intervals(
+                v,
+                s,
+                draws,
+                seed,
+                settings.level.confidence(),
+                settings.order,
+            )
+        }
+    }
+}
+
+/// Flags `within_uncertainty` on each row whose rank moved while its baseline and adjusted
+/// rank intervals overlap.
+fn flag_shifts_within_intervals(
+    shifts: &[Option<i64>],
+    out: &BTreeMap<&str, Vec<Option<i64>>>,
+    flags_text: &mut [Option<String>],
+) {
+    for i in 0..shifts.len() {
+        let (Some(shift), Some(bl), Some(bh), Some(al), Some(ah)) = (
+            shifts[i],
+            out["rank_baseline_low"][i],
+            out["rank_baseline_high"][i],
+            out["rank_adjusted_low"][i],
+            out["rank_adjusted_high"][i],
+        ) else {
+            continue;
+        };
+        if shift != 0 && bl <= ah && al <= bh {
+            let text = flags_text[i].get_or_insert_with(String::new);
+            if !text.is_empty() {
+                text.push(';');
+            }
+            text.push_str(flags::WITHIN_UNCERTAINTY);
+        }
+    }
 }
 
 /// For each ranked row, the neighbours one rank position above and below (in adjusted order)
