@@ -89,15 +89,46 @@ pub fn read_limit() -> u64 {
 /// Files of at least this many bytes turn transparent huge pages off (see [`fit_pages_to_input`]).
 const SMALL_PAGES_FROM: u64 = 8 << 20;
 
-/// Turns transparent huge pages off for the rest of the process once a file of `len` bytes, at
-/// least [`SMALL_PAGES_FROM`], is read. Where the system grants huge pages on request the
-/// allocator asks for them, and each first touch then zeroes 2 MiB whether it is used or not.
-/// Measured in paired runs (README, performance): at 1M rows (26 MB) the run took 0.86x the
-/// wall time without them and less memory; a 200-row table took 1.15x the time without them
-/// (its fixed costs touch a few large buffers once). The threshold between the two measured
-/// sizes is a choice. Best effort: an error is ignored.
+/// Files of at least this many bytes ask for large pages instead (see [`fit_pages_to_input`]).
+const LARGE_PAGES_FROM: u64 = 128 << 20;
+
+/// What the binary does when a file of [`LARGE_PAGES_FROM`] bytes or more is read: its
+/// allocator's way of asking the system for large pages (the library has no allocator of its own).
+static LARGE_INPUT_HOOK: std::sync::OnceLock<fn()> = std::sync::OnceLock::new();
+
+/// Whether large pages were asked for: small pages are then never forced for the process.
+static LARGE_PAGES: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// Sets what is done, once, when a file of [`LARGE_PAGES_FROM`] bytes or more is read (the
+/// binary asks its allocator for large pages). A second call is ignored.
+pub fn on_large_input(hook: fn()) {
+    let _ = LARGE_INPUT_HOOK.set(hook);
+}
+
+/// Fits the process's memory pages to the size of the file it is about to read, measured in
+/// paired runs on one machine (README, performance):
+/// - under [`SMALL_PAGES_FROM`] (8 MiB), nothing changes: a 200-row table took 1.15x the time
+///   with huge pages off (its fixed costs touch a few large buffers once);
+/// - from 8 MiB, transparent huge pages are turned off for the rest of the process: where the
+///   system grants them to every mapping, each first touch zeroes 2 MiB whether it is used or
+///   not (1M rows, 26 MB: 0.86x the wall time without them);
+/// - from [`LARGE_PAGES_FROM`] (128 MiB), the hook set by [`on_large_input`] asks for large
+///   pages instead, and they stay allowed: a table of that size faults in gigabytes, and at 4 KiB
+///   a page the kernel's page faults were half of a 10M-row run (260 MB: 0.79x the wall time
+///   with large pages, paired; 5M rows, 130 MB: 0.95x; 1M rows: 1.09x, so not below).
+///
+/// The thresholds between the measured sizes are a choice. Best effort: an error is ignored.
 fn fit_pages_to_input(len: u64) {
-    if len < SMALL_PAGES_FROM {
+    use std::sync::atomic::Ordering;
+    if len >= LARGE_PAGES_FROM {
+        if !LARGE_PAGES.swap(true, Ordering::Relaxed) {
+            if let Some(hook) = LARGE_INPUT_HOOK.get() {
+                hook();
+            }
+        }
+        return;
+    }
+    if len < SMALL_PAGES_FROM || LARGE_PAGES.load(Ordering::Relaxed) {
         return;
     }
     #[cfg(target_os = "linux")]
@@ -246,3 +277,36 @@ pub fn normalize(path: &std::path::Path) -> std::path::PathBuf {
 
 /// The catalog file of a reference folder.
 pub const CATALOG_FILE: &str = "datapackage.json";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+
+    static LARGE_PAGE_REQUESTS: AtomicUsize = AtomicUsize::new(0);
+
+    fn count_request() {
+        LARGE_PAGE_REQUESTS.fetch_add(1, Ordering::Relaxed);
+    }
+
+    #[test]
+    fn a_large_file_asks_for_large_pages_once_and_small_pages_are_not_forced_after_it() {
+        on_large_input(count_request);
+        fit_pages_to_input(SMALL_PAGES_FROM - 1);
+        fit_pages_to_input(LARGE_PAGES_FROM - 1);
+        assert_eq!(LARGE_PAGE_REQUESTS.load(Ordering::Relaxed), 0);
+        fit_pages_to_input(LARGE_PAGES_FROM);
+        fit_pages_to_input(4 * LARGE_PAGES_FROM);
+        assert_eq!(LARGE_PAGE_REQUESTS.load(Ordering::Relaxed), 1);
+        // The 8 MiB file read before the large one turned huge pages off; one read after it
+        // must not (the large file's pages are asked for as large ones).
+        #[cfg(target_os = "linux")]
+        {
+            // SAFETY: PR_SET/GET_THP_DISABLE take plain integers.
+            unsafe { libc::prctl(libc::PR_SET_THP_DISABLE, 0, 0, 0, 0) };
+            fit_pages_to_input(SMALL_PAGES_FROM);
+            let disabled = unsafe { libc::prctl(libc::PR_GET_THP_DISABLE, 0, 0, 0, 0) };
+            assert_eq!(disabled, 0, "huge pages were turned off after a large file");
+        }
+    }
+}
