@@ -3,6 +3,10 @@
 //! Factor flags are built from the factor kind: `no_<kind>`, `no_<kind>_base_year` and
 //! `<kind>_year_differs:YYYY`.
 
+use crate::error::{Error, Result};
+use polars::prelude::DataFrame;
+use std::collections::BTreeMap;
+
 pub const FOOTNOTE: &str = "footnote";
 pub const MISSING_VALUE: &str = "missing_value";
 pub const UNPARSED: &str = "unparsed";
@@ -21,6 +25,44 @@ pub const MIXED_CURRENCY: &str = "mixed_currency";
 pub const NO_MARGIN: &str = "no_margin";
 pub const ASYMMETRIC_CI: &str = "asymmetric_ci";
 pub const WITHIN_UNCERTAINTY: &str = "within_uncertainty";
+
+/// Rows flagged and flags by kind (`name:YYYY` flags counted under one key).
+#[derive(Debug, Clone, Default)]
+pub struct FlagCounts {
+    pub rows_flagged: usize,
+    pub by_flag: BTreeMap<String, usize>,
+}
+
+impl FlagCounts {
+    pub fn of(frame: &DataFrame) -> Result<FlagCounts> {
+        let flag_column = frame
+            .column("flags")
+            .and_then(|c| c.str().cloned())
+            .map_err(Error::engine("counting flags"))?;
+        let mut counts = FlagCounts::default();
+        for value in flag_column.iter().flatten() {
+            if value.is_empty() {
+                continue;
+            }
+            counts.rows_flagged += 1;
+            for flag in value.split(';') {
+                let key = match flag.split_once(':') {
+                    Some((name, _)) => format!("{name}:YYYY"),
+                    None => flag.to_string(),
+                };
+                *counts.by_flag.entry(key).or_default() += 1;
+            }
+        }
+        Ok(counts)
+    }
+
+    pub fn add(&mut self, other: FlagCounts) {
+        self.rows_flagged += other.rows_flagged;
+        for (flag, n) in other.by_flag {
+            *self.by_flag.entry(flag).or_default() += n;
+        }
+    }
+}
 
 /// Every fixed flag with its meaning, for the README and `--help`. A test checks that each
 /// flag raised anywhere in the code is listed here.

@@ -9,7 +9,7 @@ use crate::adjust::{self, Step, Unit};
 use crate::attach::{self, AttachSettings};
 use crate::entity::{Entity, Resolver};
 use crate::error::{Error, Result};
-use crate::flags;
+use crate::flags::{self, FlagCounts};
 use crate::ingest;
 pub use crate::model::{PipelineSettings, RunSummary};
 use crate::rank;
@@ -19,7 +19,7 @@ use crate::tracks::{self, TrackPlan, TrackStart};
 use crate::uncertainty::ranking::{self, IntervalSettings};
 use crate::units::TrackUnit;
 use polars::prelude::*;
-use std::collections::{BTreeMap, HashSet};
+use std::collections::HashSet;
 
 /// The result of a run: the output frame and what the summary reports.
 pub struct AdjustOutput {
@@ -626,44 +626,6 @@ pub(crate) fn output_columns(head: &[String], settings: &PipelineSettings) -> Ve
         order.extend(["_se_baseline", "_se_adjusted"].map(String::from));
     }
     order
-}
-
-/// Rows flagged and flags by kind (`name:YYYY` flags counted under one key).
-#[derive(Debug, Clone, Default)]
-pub(crate) struct FlagCounts {
-    pub rows_flagged: usize,
-    pub by_flag: BTreeMap<String, usize>,
-}
-
-impl FlagCounts {
-    pub fn of(frame: &DataFrame) -> Result<FlagCounts> {
-        let flag_column = frame
-            .column("flags")
-            .and_then(|c| c.str().cloned())
-            .map_err(Error::engine("counting flags"))?;
-        let mut counts = FlagCounts::default();
-        for value in flag_column.iter().flatten() {
-            if value.is_empty() {
-                continue;
-            }
-            counts.rows_flagged += 1;
-            for flag in value.split(';') {
-                let key = match flag.split_once(':') {
-                    Some((name, _)) => format!("{name}:YYYY"),
-                    None => flag.to_string(),
-                };
-                *counts.by_flag.entry(key).or_default() += 1;
-            }
-        }
-        Ok(counts)
-    }
-
-    pub fn add(&mut self, other: FlagCounts) {
-        self.rows_flagged += other.rows_flagged;
-        for (flag, n) in other.by_flag {
-            *self.by_flag.entry(flag).or_default() += n;
-        }
-    }
 }
 
 /// Adds rank intervals and ties, then puts the columns in their documented order.

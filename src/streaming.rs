@@ -19,9 +19,10 @@
 
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
+use crate::flags::FlagCounts;
 use crate::ingest::encoding::EncodingChoice;
 use crate::ingest::table;
-use crate::pipeline::{self, FlagCounts, PipelineSettings};
+use crate::pipeline::{self, PipelineSettings};
 use crate::reference::References;
 use crate::report::{self, Format};
 use polars::prelude::*;
