@@ -75,7 +75,7 @@ pub const FLAG_MEANINGS: &[(&str, &str)] = &[
     (UNKNOWN_CURRENCY, "the currency cell is not an ISO 4217 code (kept because of --lenient)"),
     (UNRESOLVED, "the entity matched no country, alias or aggregate (kept because of --allow-unresolved)"),
     (AGGREGATE, "the entity is an aggregate (world, region, income group); not ranked unless --rank-aggregates"),
-    (CURRENCY_MISMATCH, "the figure's currency is neither the entity's own nor the reference tables' base currency"),
+    (CURRENCY_MISMATCH, "a step converts currencies, and the figure's currency is neither the entity's own nor the reference tables' base currency: not converted"),
     ("no_<kind>", "no reference factor of that kind (fx, ppp, cpi, population, income) for the entity and year"),
     ("no_<kind>_base_year", "no reference factor of that kind for the entity in the base year"),
     ("<kind>_year_differs:YYYY", "the factor of year YYYY was used (allowed by --nearest-year)"),

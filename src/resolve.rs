@@ -53,7 +53,8 @@ pub struct ResolveOptions<'a> {
     pub base_currency: &'a str,
 }
 
-/// Resolves every row. Adds `unresolved`, `aggregate` and `currency_mismatch` flags to the rows.
+/// Resolves every row. Adds `unresolved` and `aggregate` flags to the rows, and gives each
+/// row's currency basis (`currency_mismatch` is the pipeline's, where a step converts).
 pub fn resolve_rows(
     ingested: &mut Ingested,
     resolver: &Resolver,
@@ -97,15 +98,13 @@ pub fn resolve_rows(
                 if entity.kind == EntityKind::Aggregate && !options.rank_aggregates {
                     row.flags.push(flags::AGGREGATE.into());
                 }
-                let basis = input_basis(
+                // A mismatch is flagged later, and only where a step converts currencies
+                // (`pipeline::row_facts`): without one, figures rank as given.
+                bases.push(input_basis(
                     row.currency.as_deref(),
                     entity.currency.as_deref(),
                     options.base_currency,
-                );
-                if basis == InputBasis::Mismatch {
-                    row.flags.push(flags::CURRENCY_MISMATCH.into());
-                }
-                bases.push(basis);
+                ));
                 columns.at.push(Some(at));
             }
             Err(at) => {

@@ -161,6 +161,8 @@ fn currency_that_is_neither_local_nor_base_is_flagged_not_converted() {
     let rows = run.rows();
     assert_eq!(rows.len(), 4);
     assert!(rows[1]["flags"].contains("currency_mismatch"));
+    // Once: resolving the entity and converting the figure each used to add it.
+    assert_eq!(rows[1]["flags"].matches("currency_mismatch").count(), 1);
     assert_eq!(rows[1]["value_adjusted"], "");
     assert!(!rows[2]["flags"].contains("currency_mismatch"));
     assert!((num(&rows[2], "value_intl") - 230.0 / 12.6).abs() < 1e-9);
@@ -181,6 +183,10 @@ fn stdin_input_json_output_and_atomic_file_output() {
     assert_eq!(json["rows"][1]["entity_code"], "CHL");
     assert_eq!(json["rows"][1]["rank_adjusted"], 1);
     assert_eq!(json["metadata"]["summary"]["rows_in"], 2);
+    // ISO 4217's XXX is "no currency": no step converts, so no row is a currency mismatch.
+    for row in json["rows"].as_array().unwrap() {
+        assert_eq!(row["flags"], "", "{row}");
+    }
 
     let input = env.write("in.csv", text);
     let run = env.run(&["adjust", &input, "-o", "out.csv"]);
