@@ -27,8 +27,11 @@ use crate::reference::References;
 use crate::report::{self, Format};
 use polars::prelude::*;
 use std::collections::HashMap;
-use std::io::{BufRead, BufReader, Read, Write};
+use std::io::{BufRead, BufReader, Write};
 use std::path::{Path, PathBuf};
+
+mod pieces;
+use pieces::Pieces;
 
 /// What a streaming run reads and how big its pieces are.
 #[derive(Debug, Clone)]
@@ -78,61 +81,6 @@ pub fn check(
         );
     }
     Ok(())
-}
-
-/// Cuts a byte stream into pieces that end at a record boundary.
-struct Pieces<R: Read> {
-    reader: BufReader<R>,
-    delimiter: u8,
-    target: usize,
-    finished: bool,
-}
-
-impl<R: Read> Pieces<R> {
-    fn next_piece(&mut self, label: &str) -> Result<Option<Vec<u8>>> {
-        if self.finished {
-            return Ok(None);
-        }
-        let mut piece: Vec<u8> = Vec::with_capacity(self.target + (1 << 16));
-        let mut in_quotes = false;
-        let mut field_filled = false;
-        let mut filled = 0usize;
-        let mut line: Vec<u8> = Vec::new();
-        loop {
-            line.clear();
-            let n = self
-                .reader
-                .read_until(b'\n', &mut line)
-                .map_err(|e| Error::io(label, "read", e))?;
-            if n == 0 {
-                self.finished = true;
-                break;
-            }
-            for &b in &line {
-                match b {
-                    b'"' => in_quotes = !in_quotes,
-                    b'\n' | b'\r' if !in_quotes => {}
-                    b if b == self.delimiter && !in_quotes => {
-                        filled += field_filled as usize;
-                        field_filled = false;
-                    }
-                    b' ' | b'\t' => {}
-                    _ => field_filled = true,
-                }
-            }
-            piece.extend_from_slice(&line);
-            if !in_quotes {
-                filled += field_filled as usize;
-                let record_has_cells = filled >= 2;
-                field_filled = false;
-                filled = 0;
-                if record_has_cells && piece.len() >= self.target {
-                    break;
-                }
-            }
-        }
-        Ok((!piece.is_empty()).then_some(piece))
-    }
 }
 
 /// What the first piece decided for the others.
@@ -761,39 +709,6 @@ fn read_spill(path: &Path) -> Result<DataFrame> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn cut(text: &str, target: usize) -> Vec<String> {
-        let mut pieces = Pieces {
-            reader: BufReader::new(text.as_bytes()),
-            delimiter: b',',
-            target,
-            finished: false,
-        };
-        let mut out = Vec::new();
-        while let Some(p) = pieces.next_piece("t.csv").unwrap() {
-            out.push(String::from_utf8(p).unwrap());
-        }
-        out
-    }
-
-    #[test]
-    fn pieces_end_at_records_with_cells_and_lose_nothing() {
-        let text = "a,b\n1,2\n\"x\ny\",3\n4,5\nnote only\n6,7\n";
-        let pieces = cut(text, 1);
-        assert_eq!(pieces.concat(), text);
-        // A quoted line break never ends a piece; a one-cell line never ends one either.
-        assert_eq!(
-            pieces,
-            vec![
-                "a,b\n",
-                "1,2\n",
-                "\"x\ny\",3\n",
-                "4,5\n",
-                "note only\n6,7\n"
-            ]
-        );
-        assert_eq!(cut(text, 1 << 20), vec![text.to_string()]);
-    }
 
     #[test]
     fn a_piece_header_is_quoted_where_needed() {
