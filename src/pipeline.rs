@@ -385,7 +385,7 @@ fn canonical_frame(
                 "_ord".into(),
                 (ord_offset..ord_offset + rows_in as u64).collect::<Vec<u64>>(),
             ),
-            text("row_id", rows.iter().map(|r| r.row_id.as_str())),
+            row_id_column(rows),
             text("entity_input", rows.iter().map(|r| r.entity_input.as_str())),
             entity_column("entity_code", |e| &e.code),
             entity_column("entity_name", |e| &e.name),
@@ -426,6 +426,19 @@ fn canonical_frame(
         keys,
         any_base,
     })
+}
+
+/// The `row_id` column, each id written into one reused buffer (no string kept per row).
+fn row_id_column(rows: &[ingest::CanonicalRow]) -> Column {
+    use std::fmt::Write;
+    let mut builder = StringChunkedBuilder::new("row_id".into(), rows.len());
+    let mut id = String::new();
+    for row in rows {
+        id.clear();
+        let _ = write!(id, "{}", row.row_id);
+        builder.append_value(&id);
+    }
+    builder.finish().into_column()
 }
 
 /// A text column from its cells, built in place.

@@ -27,10 +27,27 @@ pub struct IngestOptions {
     pub row_offset: usize,
 }
 
+/// Where a figure sits in the input: its data row (from 1), and in a wide table the year of
+/// its column. Written `12` or `12:2019`; kept as numbers until the output is written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct RowId {
+    pub data_row: usize,
+    pub year_column: Option<i32>,
+}
+
+impl std::fmt::Display for RowId {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self.year_column {
+            None => write!(f, "{}", self.data_row),
+            Some(year) => write!(f, "{}:{year}", self.data_row),
+        }
+    }
+}
+
 /// One figure of the input.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CanonicalRow {
-    pub row_id: String,
+    pub row_id: RowId,
     pub line: usize,
     pub entity_input: String,
     pub year: Option<i32>,

@@ -14,7 +14,7 @@ pub mod layout;
 pub mod margins;
 pub mod record;
 mod rows;
-pub use canonical::{CanonicalRow, IngestOptions};
+pub use canonical::{CanonicalRow, IngestOptions, RowId};
 pub(crate) use rows::RecordMarks;
 pub mod spreadsheet;
 pub mod table;
@@ -473,7 +473,7 @@ mod tests {
             IngestOptions::default(),
         )
         .unwrap();
-        let ids: Vec<&str> = out.rows.iter().map(|r| r.row_id.as_str()).collect();
+        let ids: Vec<String> = out.rows.iter().map(|r| r.row_id.to_string()).collect();
         assert_eq!(ids, vec!["1:2019", "1:2020", "2:2019", "2:2020"]);
         assert_eq!(out.rows[0].value, Some(1200.0));
         assert_eq!(out.rows[1].value, None);

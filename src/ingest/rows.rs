@@ -3,7 +3,7 @@
 //! ten, a quote cut out of a runaway) and the flags raised on the way. Long tables give a row
 //! per record, wide ones a row per year column.
 
-use super::canonical::{CanonicalRow, IngestOptions};
+use super::canonical::{CanonicalRow, IngestOptions, RowId};
 use super::layout::{self, Shape, YearSource};
 use super::{margins, table};
 use crate::cells::number::{self, Cell};
@@ -72,7 +72,10 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
                     )?,
                 };
                 let mut row = reader.row(
-                    data_row.to_string(),
+                    RowId {
+                        data_row,
+                        year_column: None,
+                    },
                     record.line,
                     entity_input,
                     year,
@@ -91,7 +94,10 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
             Shape::Wide { year_columns } => {
                 for &(column, year) in year_columns {
                     rows.push(reader.row(
-                        format!("{data_row}:{year}"),
+                        RowId {
+                            data_row,
+                            year_column: Some(year),
+                        },
                         record.line,
                         entity_input.clone(),
                         Some(year),
@@ -315,7 +321,7 @@ impl RowReader<'_> {
     #[allow(clippy::too_many_arguments)]
     fn row(
         &self,
-        row_id: String,
+        row_id: RowId,
         line: usize,
         entity_input: String,
         year: Option<i32>,
