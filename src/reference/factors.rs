@@ -162,6 +162,28 @@ pub(crate) fn insert_factor(
     Ok(())
 }
 
+/// Two series keys for one entity-year, `first` from an earlier line and `this` from `line`
+/// (one key when a line repeats it): the catalog must pick one series with a filter.
+pub(crate) fn several_series(
+    file: &str,
+    line: usize,
+    (code, year): (&str, i32),
+    (first, this): (&str, &str),
+    resource: &Resource,
+) -> Error {
+    let found = if first == this {
+        first.to_string()
+    } else {
+        format!("{first} | {this}")
+    };
+    Error::bad_input(
+        Location::line(file, line),
+        format!("several series for {code} in {year}: {found}"),
+        "one series per entity and year",
+        format!("add a \"filter\" to the catalog resource \"{}\" that picks one series (for example a measure or unit code)", resource.name),
+    )
+}
+
 /// An empty table for `resource`, read from `bytes`.
 pub(crate) fn empty_table(bytes: &[u8], file: &str, resource: &Resource) -> RefTable {
     RefTable {

@@ -14,8 +14,9 @@ use crate::entity::{Resolution, Resolver};
 use crate::error::{Error, Location, Result};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
-use crate::reference::factors::{check_positive, empty_table, insert_factor, Origins, RefTable};
-use std::collections::BTreeSet;
+use crate::reference::factors::{
+    check_positive, empty_table, insert_factor, several_series, Origins, RefTable,
+};
 
 /// Columns that are not dimensions of a series.
 const NOT_DIMENSIONS: &[&str] = &[
@@ -148,25 +149,6 @@ fn check_filter_columns(
     Ok(())
 }
 
-/// Two series keys for one entity-year: the catalog must pick one with a filter.
-fn several_series(
-    file: &str,
-    line: usize,
-    (entity, year): (&str, i32),
-    found: BTreeSet<&str>,
-    resource: &Resource,
-) -> Error {
-    Error::bad_input(
-        Location::line(file, line),
-        format!(
-            "several series for {entity} in {year}: {}",
-            found.into_iter().collect::<Vec<_>>().join(" | ")
-        ),
-        "one series per entity and year",
-        format!("add a \"filter\" to the catalog resource \"{}\" that picks one series (for example a measure or unit code)", resource.name),
-    )
-}
-
 /// A reference table from an SDMX-CSV file (version 1 or 2): the rows the catalog's `filter`
 /// keeps, one factor per entity and year; several series for one entity-year are an error.
 pub fn load_sdmx(
@@ -240,12 +222,11 @@ pub fn load_sdmx(
             .collect::<Vec<_>>()
             .join(",");
         if let Some((_, first)) = origins.get(&entity, year) {
-            let found: BTreeSet<&str> = [first, series.as_str()].into_iter().collect();
             return Err(several_series(
                 file,
                 record.line,
                 (&entity, year),
-                found,
+                (first, &series),
                 resource,
             ));
         }

@@ -12,7 +12,9 @@ use crate::error::{Error, Location, Result};
 use crate::ingest::layout::{self, Knobs, RoleFlags, Shape, YearSource};
 use crate::ingest::table;
 use crate::reference::catalog::Resource;
-use crate::reference::factors::{check_positive, empty_table, insert_factor, Origins};
+use crate::reference::factors::{
+    check_positive, empty_table, insert_factor, several_series, Origins,
+};
 pub use crate::reference::factors::{Factor, RefTable};
 use polars::prelude::PlHashMap;
 
@@ -167,10 +169,9 @@ fn load_plain(
                     return Err(several_series(
                         file,
                         record.line,
-                        &code,
-                        year,
-                        previous,
-                        &series,
+                        (&code, year),
+                        (previous, &series),
+                        resource,
                     ));
                 }
             }
@@ -353,15 +354,6 @@ fn dimension_filter(
                 })
         })
         .collect()
-}
-
-fn several_series(file: &str, line: usize, code: &str, year: i32, a: &str, b: &str) -> Error {
-    Error::bad_input(
-        Location::line(file, line),
-        format!("several series for {code} in {year}: {a} | {b}"),
-        "one series per entity and year",
-        "add a \"filter\" to the catalog resource that picks one series (for example a unit code)",
-    )
 }
 
 /// Wide reference tables: a header that holds digits but is not a year is most likely a year
