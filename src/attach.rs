@@ -34,9 +34,9 @@ pub fn base_currency_home(currency: &str) -> Option<&'static str> {
 }
 
 /// Builds the lookup frame: `entity_code`, `year`, then `<prefix>_used`, `<prefix>_year` for
-/// each need, then `_factor_flags` (null when nothing to say). A need in `optional` (the baseline's, or a derived column's) whose
-/// table the catalog lacks gets empty columns instead of stopping the run; `missing_tables`
-/// says which.
+/// each need, then `_factor_flags` (null when nothing to say). A need in `optional` (the
+/// baseline's, or a derived column's) whose table the catalog lacks gets empty columns instead
+/// of stopping the run; `missing_tables` says which.
 pub fn lookup_frame(
     keys: &HashSet<(String, i32)>,
     needs: &BTreeSet<FactorNeed>,

@@ -374,6 +374,7 @@ fn canonical_frame(
     let rows = &ingested.rows;
     // Each column is built straight from the rows, without a vector of cells in between: at
     // 10M rows each such vector was 160 MB of fresh memory, faulted in and freed again.
+
     // A text column of each row's entity (null where the name did not resolve).
     let entity_column = |name: &str, field: fn(&Entity) -> &str| {
         optional_text(name, (0..rows_in).map(|i| entities.of(i).map(field)))
@@ -504,11 +505,10 @@ fn carried_columns(rows: &[ingest::CanonicalRow], extras: usize) -> Vec<Column> 
         rows.iter().map(|r| r.line as u64).collect::<Vec<u64>>(),
     )];
     for i in 0..extras {
-        columns.push(Column::new(
-            format!("_extra_{i}").into(),
+        columns.push(text(
+            &format!("_extra_{i}"),
             rows.iter()
-                .map(|r| r.extra.get(i).map(String::as_str).unwrap_or(""))
-                .collect::<Vec<&str>>(),
+                .map(|r| r.extra.get(i).map(String::as_str).unwrap_or("")),
         ));
     }
     columns

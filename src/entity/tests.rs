@@ -4,6 +4,16 @@
 use super::*;
 use std::collections::HashSet;
 
+/// The fields of an ISO 3166-1 entry in Debian's iso-codes JSON that name or code a country.
+const ISO_3166_FIELDS: [&str; 6] = [
+    "alpha_2",
+    "alpha_3",
+    "numeric",
+    "name",
+    "official_name",
+    "common_name",
+];
+
 fn code_of(r: &Resolver, text: &str) -> Option<String> {
     match r.resolve(text) {
         Resolution::Found(e) => Some(e.code.clone()),
@@ -37,15 +47,7 @@ fn every_iso_3166_entry_resolves_by_each_code_and_name() {
     );
     for e in &entries {
         let alpha3 = &e["alpha_3"];
-        let fields = [
-            "alpha_2",
-            "alpha_3",
-            "numeric",
-            "name",
-            "official_name",
-            "common_name",
-        ];
-        for field in fields {
+        for field in ISO_3166_FIELDS {
             if let Some(text) = e.get(field) {
                 assert_eq!(code_of(&r, text).as_ref(), Some(alpha3), "{field} {text:?}");
             }
@@ -63,17 +65,10 @@ fn embedded_iso_tables_match_the_system_files() {
     let mut expected: Vec<Vec<String>> = entries
         .iter()
         .map(|e| {
-            [
-                "alpha_2",
-                "alpha_3",
-                "numeric",
-                "name",
-                "official_name",
-                "common_name",
-            ]
-            .iter()
-            .map(|f| e.get(*f).cloned().unwrap_or_default())
-            .collect()
+            ISO_3166_FIELDS
+                .iter()
+                .map(|f| e.get(*f).cloned().unwrap_or_default())
+                .collect()
         })
         .collect();
     expected.sort_by(|a, b| a[1].cmp(&b[1]));
