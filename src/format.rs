@@ -6,6 +6,7 @@
 //! rule: no decimals from 100 up, two from 1 up, three significant digits below 1.
 
 use crate::error::{Error, Result};
+use crate::shortest::{push_shortest, shortest};
 use polars::prelude::*;
 use rust_decimal::prelude::FromPrimitive;
 use rust_decimal::{Decimal, RoundingStrategy};
@@ -31,7 +32,7 @@ pub fn format_number(value: f64, rounding: Rounding, grouping: bool) -> String {
     let text = match rounding {
         Rounding::Full => {
             let v = if value == 0.0 { 0.0 } else { value };
-            format!("{v}")
+            shortest(v)
         }
         Rounding::Decimals(dp) => round_dp(value, dp),
         Rounding::Significant(sig) => round_sig(value, sig.max(1)),
@@ -56,7 +57,7 @@ pub fn format_number(value: f64, rounding: Rounding, grouping: bool) -> String {
 /// The decimal a reader sees for `value`: its shortest round-trip text, so that 2.675 rounds as
 /// 2.675 and not as the binary 2.67499999...
 fn to_decimal(value: f64) -> Option<Decimal> {
-    let text = format!("{value}");
+    let text = shortest(value);
     Decimal::from_str(&text)
         .ok()
         .or_else(|| Decimal::from_f64(value))
@@ -275,19 +276,17 @@ impl<'a> CellSource<'a> {
 
     /// Appends the next cell's text to `out` (`guard`: see `write_csv`).
     fn push_next(&mut self, rounding: Rounding, guard: bool, out: &mut String) {
-        use std::fmt::Write;
         match self {
             CellSource::Float(cells) => match cells.next().flatten() {
                 Some(x) if rounding == Rounding::Full && x.is_finite() => {
-                    let x = if x == 0.0 { 0.0 } else { x };
-                    let _ = write!(out, "{x}");
+                    push_shortest(out, if x == 0.0 { 0.0 } else { x });
                 }
                 Some(x) => out.push_str(&format_number(x, rounding, false)),
                 None => {}
             },
             CellSource::Int(cells) => {
                 if let Some(x) = cells.next().flatten() {
-                    let _ = write!(out, "{x}");
+                    out.push_str(itoa::Buffer::new().format(x));
                 }
             }
             CellSource::Text(cells) => {
@@ -412,7 +411,10 @@ fn slice_csv(slice: &DataFrame, names: &[String], rounding: Rounding, guard: boo
 
 /// Writes the frame as csv (with or without the header line) to `out`. Slices of
 /// `CSV_SLICE_ROWS` rows are formatted on polars' threads, one slice a thread, each by the same
-/// code into its own buffer, and written in order: the bytes are those of one writer.
+/// code into its own buffer, and written in order: the bytes are those of one writer. The
+/// calling thread writes one batch of slices while the pool formats the next, so the kernel's
+/// copy into the file overlaps the formatting (a bounded channel holds one batch in waiting);
+/// called from a pool thread, it formats and writes in turn.
 /// With `guard`, a text cell that a spreadsheet would take for a formula (it starts with `=`,
 /// `+`, `-`, `@`, a tab or a carriage return and is not a number) is written with a leading
 /// `'`, the common defence of csv exports (OWASP, "CSV Injection"); numbers are never touched.
@@ -423,7 +425,6 @@ pub fn write_csv(
     guard: bool,
     out: &mut dyn std::io::Write,
 ) -> Result<()> {
-    use rayon::prelude::*;
     let names: Vec<String> = frame
         .get_column_names()
         .iter()
@@ -435,6 +436,53 @@ pub fn write_csv(
         writer.flush().map_err(write_error)?;
     }
     let pool = &polars_core::runtime::THREAD_POOL;
+    if pool.current_thread_index().is_some() {
+        // On one of the pool's threads (a batch job): a writer waiting here for the pool to
+        // format would hold a thread the formatting needs, so format and write in turn.
+        let mut failed = None;
+        format_batches(frame, &names, rounding, guard, |batch| {
+            failed = write_batch(&mut *out, batch).err();
+            failed.is_none()
+        });
+        return match failed {
+            Some(e) => Err(e),
+            None => out.flush().map_err(write_error),
+        };
+    }
+    let (batches, written) = std::sync::mpsc::sync_channel::<Vec<Vec<u8>>>(1);
+    let names = &names;
+    std::thread::scope(|scope| {
+        // The sender moves into the formatter: the channel closes when it has sent the last,
+        // and the formatter stops at its next send once the receiver is gone (a failed write).
+        scope.spawn(move || {
+            format_batches(frame, names, rounding, guard, |batch| {
+                batches.send(batch).is_ok()
+            })
+        });
+        written
+            .into_iter()
+            .try_for_each(|batch| write_batch(&mut *out, batch))
+    })?;
+    out.flush().map_err(write_error)
+}
+
+fn write_batch(out: &mut dyn std::io::Write, batch: Vec<Vec<u8>>) -> Result<()> {
+    batch
+        .iter()
+        .try_for_each(|text| out.write_all(text).map_err(write_error))
+}
+
+/// Formats the frame's rows in batches of one slice per pool thread and hands each batch, in
+/// order, to `take`; stops when `take` says no (the writer has gone).
+fn format_batches(
+    frame: &DataFrame,
+    names: &[String],
+    rounding: Rounding,
+    guard: bool,
+    mut take: impl FnMut(Vec<Vec<u8>>) -> bool,
+) {
+    use rayon::prelude::*;
+    let pool = &polars_core::runtime::THREAD_POOL;
     let batch = CSV_SLICE_ROWS * pool.current_num_threads().max(1);
     let mut start = 0;
     while start < frame.height() {
@@ -445,21 +493,16 @@ pub fn write_csv(
             starts
                 .par_iter()
                 .map(|&s| {
-                    slice_csv(
-                        &frame.slice(s as i64, CSV_SLICE_ROWS),
-                        &names,
-                        rounding,
-                        guard,
-                    )
+                    let slice = frame.slice(s as i64, CSV_SLICE_ROWS);
+                    slice_csv(&slice, names, rounding, guard)
                 })
                 .collect()
         });
-        for text in texts {
-            out.write_all(&text).map_err(write_error)?;
+        if !take(texts) {
+            return;
         }
         start += batch;
     }
-    out.flush().map_err(write_error)
 }
 
 #[cfg(test)]
@@ -514,6 +557,48 @@ mod tests {
                 .unwrap();
         }
         assert_eq!(bytes, expected.into_inner().unwrap());
+    }
+
+    #[test]
+    fn a_failed_write_stops_the_formatter_and_the_pool_path_writes_the_same_bytes() {
+        /// Takes `room` bytes, then fails as a full disk does.
+        struct FullDisk {
+            room: usize,
+        }
+        impl std::io::Write for FullDisk {
+            fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+                if self.room < buf.len() {
+                    return Err(std::io::Error::other("no space left on device"));
+                }
+                self.room -= buf.len();
+                Ok(buf.len())
+            }
+            fn flush(&mut self) -> std::io::Result<()> {
+                Ok(())
+            }
+        }
+        let rows = 10 * CSV_SLICE_ROWS;
+        let values: Vec<f64> = (0..rows).map(|i| i as f64 / 7.0).collect();
+        let frame = df!("value" => values).unwrap();
+        let failed = write_csv(
+            &frame,
+            Rounding::Full,
+            true,
+            false,
+            &mut FullDisk { room: 1 << 16 },
+        );
+        assert!(failed.unwrap_err().to_string().contains("no space left"));
+        // From one of the pool's threads (a batch job) the rows are formatted and written in
+        // turn, to the same bytes.
+        let mut here = Vec::new();
+        write_csv(&frame, Rounding::Full, true, false, &mut here).unwrap();
+        let on_pool = polars_core::runtime::THREAD_POOL.install(|| {
+            let mut bytes = Vec::new();
+            write_csv(&frame, Rounding::Full, true, false, &mut bytes).unwrap();
+            bytes
+        });
+        assert_eq!(here, on_pool);
+        assert_eq!(here.iter().filter(|&&b| b == b'\n').count(), rows + 1);
     }
 
     #[test]

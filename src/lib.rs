@@ -46,6 +46,7 @@ pub mod recipe;
 pub mod reference;
 pub mod report;
 pub mod resolve;
+pub mod shortest;
 pub mod source;
 pub mod staging;
 pub mod streaming;
