@@ -387,7 +387,7 @@ fn canonical_frame(
                 (ord_offset..ord_offset + rows_in as u64).collect::<Vec<u64>>(),
             ),
             row_id_column(rows),
-            text("entity_input", rows.iter().map(|r| r.entity_input.as_str())),
+            text("entity_input", rows.iter().map(|r| &*r.entity_input)),
             entity_column("entity_code", |e| &e.code),
             entity_column("entity_name", |e| &e.name),
             entity_column("entity_kind", |e| e.kind.as_str()),

@@ -62,7 +62,8 @@ pub fn resolve_rows(
 ) -> Result<(EntityColumns, Vec<InputBasis>)> {
     // Each distinct text is resolved once: to its place among the entities found, or to its
     // place among the unresolved.
-    let mut cache: PlHashMap<String, std::result::Result<u32, usize>> = PlHashMap::default();
+    let mut cache: PlHashMap<std::sync::Arc<str>, std::result::Result<u32, usize>> =
+        PlHashMap::default();
     let mut unresolved: Vec<UnresolvedName> = Vec::new();
     let n = ingested.rows.len();
     let mut columns = EntityColumns {
@@ -71,7 +72,7 @@ pub fn resolve_rows(
     };
     let mut bases = Vec::with_capacity(n);
     for row in ingested.rows.iter_mut() {
-        let outcome = match cache.get(&row.entity_input) {
+        let outcome = match cache.get(&*row.entity_input) {
             Some(&outcome) => outcome,
             None => {
                 let outcome = match resolver.resolve_with(&row.entity_input, false) {
@@ -81,7 +82,7 @@ pub fn resolve_rows(
                     }
                     Resolution::Unresolved { suggestions } => {
                         unresolved.push(UnresolvedName {
-                            text: row.entity_input.clone(),
+                            text: row.entity_input.to_string(),
                             lines: Vec::new(),
                             suggestions,
                         });

@@ -65,7 +65,7 @@ pub fn ingest(
     role_flags
         .reserved
         .extend(options.extra_columns.iter().cloned());
-    let table = table::find_table(
+    let mut table = table::find_table(
         &decoded.text,
         delimiter,
         file,
@@ -112,8 +112,11 @@ pub fn ingest(
         ));
     }
     notes.extend(column_use_notes(&table, &roles, &auto_group, &marks));
+    let data_lines = table.records.len();
+    let records = std::mem::take(&mut table.records);
     let mut rows = rows::read_rows(
         &table,
+        records,
         &rows::RowPlan {
             file,
             options,
@@ -136,7 +139,7 @@ pub fn ingest(
         notes,
         entity_column,
         has_group: roles.group.is_some() || !auto_group.is_empty(),
-        data_lines: table.records.len(),
+        data_lines,
         dimensioned: !table.dimensions.is_empty(),
         warnings,
         headers: table.headers,
@@ -290,21 +293,25 @@ fn varying_dimensions(table: &table::TextTable, roles: &layout::Roles) -> Vec<us
 
 /// The input as text, with the delimiter to read it by; a spreadsheet's notes and the sheet rows
 /// that hold formulas come along.
-struct DecodedInput {
-    decoded: encoding::Decoded,
+struct DecodedInput<'a> {
+    decoded: encoding::Decoded<'a>,
     delimiter: u8,
     sheet_notes: Vec<String>,
     formula_rows: Vec<usize>,
 }
 
-fn decode_input(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<DecodedInput> {
+fn decode_input<'a>(
+    bytes: &'a [u8],
+    file: &str,
+    options: &IngestOptions,
+) -> Result<DecodedInput<'a>> {
     let (decoded, delimiter, sheet_notes, formula_rows) = if file
         .to_ascii_lowercase()
         .ends_with(".parquet")
     {
         (
             encoding::Decoded {
-                text: parquet_as_csv(bytes, file)?,
+                text: parquet_as_csv(bytes, file)?.into(),
                 description: "Parquet".into(),
                 encoding: None,
             },
@@ -317,7 +324,7 @@ fn decode_input(bytes: &[u8], file: &str, options: &IngestOptions) -> Result<Dec
             spreadsheet::sheet_to_csv(bytes, file, options.sheet.as_deref(), options.header_row)?;
         (
             encoding::Decoded {
-                text,
+                text: text.into(),
                 description: "spreadsheet".into(),
                 encoding: None,
             },

@@ -3,7 +3,7 @@
 //! ten, a quote cut out of a runaway) and the flags raised on the way. Long tables give a row
 //! per record, wide ones a row per year column.
 
-use super::canonical::{CanonicalRow, IngestOptions, RowId};
+use super::canonical::{CanonicalRow, IngestOptions, RowId, SharedTexts};
 use super::layout::{self, Shape, YearSource};
 use super::{margins, table};
 use crate::cells::number::{self, Cell};
@@ -26,8 +26,14 @@ pub(super) struct RowPlan<'a> {
     pub margin_count: usize,
 }
 
-/// The canonical rows of `table`, in its order.
-pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<CanonicalRow>> {
+/// The canonical rows of `records` (the records of `table`, taken out of it), in their order.
+/// Each record is dropped once read, so that the rows reuse its memory rather than fresh pages
+/// (at 10M rows the records hold about 2 GB).
+pub(super) fn read_rows(
+    table: &table::TextTable,
+    records: Vec<table::TextRecord>,
+    plan: &RowPlan,
+) -> Result<Vec<CanonicalRow>> {
     let RowPlan {
         file,
         options,
@@ -41,6 +47,7 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
         file,
         options,
         currency_code,
+        shared: std::cell::RefCell::new(SharedTexts::default()),
     };
 
     let sdmx = layout::looks_like_sdmx(&table.headers);
@@ -50,12 +57,13 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
         Shape::Long { .. } => 1,
         Shape::Wide { year_columns } => year_columns.len(),
     };
-    let mut rows = Vec::with_capacity(table.records.len() * rows_per_record);
-    for (index, record) in table.records.iter().enumerate() {
+    let mut rows = Vec::with_capacity(records.len() * rows_per_record);
+    for (index, record) in records.into_iter().enumerate() {
+        let record = &record;
         let data_row = index + 1 + options.row_offset;
-        let entity_input = record_entity(record, roles, sdmx);
+        let entity_input = reader.shared(record_entity(record, roles, sdmx));
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
-        let group = record_group(record, roles, auto_group);
+        let group = record_group(record, roles, auto_group).map(|g| reader.shared(&g));
         let currency_cell = roles
             .currency
             .map(|c| (table.headers[c].as_str(), &record.cells[c]));
@@ -119,35 +127,35 @@ pub(super) fn read_rows(table: &table::TextTable, plan: &RowPlan) -> Result<Vec<
 
 /// The entity text of a record: its entity cell, or the fallback column's where that is
 /// empty; of an SDMX-CSV 2.0 cell labelled `AUS: Australia`, the code.
-fn record_entity(record: &table::TextRecord, roles: &layout::Roles, sdmx: bool) -> String {
+fn record_entity<'r>(record: &'r table::TextRecord, roles: &layout::Roles, sdmx: bool) -> &'r str {
     match roles.entity_fallback {
-        Some(name) if record.cells[roles.entity].trim().is_empty() => {
-            record.cells[name].to_string()
-        }
-        _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]).to_string(),
-        _ => record.cells[roles.entity].to_string(),
+        Some(name) if record.cells[roles.entity].trim().is_empty() => &record.cells[name],
+        _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]),
+        _ => &record.cells[roles.entity],
     }
 }
 
 /// A record's group: the group column's text, or the varying dimensions of a statistics
 /// office's table joined with commas.
-fn record_group(
-    record: &table::TextRecord,
+fn record_group<'r>(
+    record: &'r table::TextRecord,
     roles: &layout::Roles,
     auto_group: &[usize],
-) -> Option<String> {
+) -> Option<std::borrow::Cow<'r, str>> {
     if auto_group.is_empty() {
         roles
             .group
-            .map(|g| record.cells[g].trim().to_string())
+            .map(|g| record.cells[g].trim())
             .filter(|g| !g.is_empty())
+            .map(std::borrow::Cow::Borrowed)
     } else {
         Some(
             auto_group
                 .iter()
                 .map(|&d| record.cells[d].trim())
                 .collect::<Vec<_>>()
-                .join(","),
+                .join(",")
+                .into(),
         )
     }
 }
@@ -315,17 +323,23 @@ struct RowReader<'a> {
     file: &'a str,
     options: &'a IngestOptions,
     currency_code: Option<&'a str>,
+    shared: std::cell::RefCell<SharedTexts>,
 }
 
 impl RowReader<'_> {
+    /// `text`, held once for all the rows that repeat it.
+    fn shared(&self, text: &str) -> std::sync::Arc<str> {
+        self.shared.borrow_mut().get(text)
+    }
+
     #[allow(clippy::too_many_arguments)]
     fn row(
         &self,
         row_id: RowId,
         line: usize,
-        entity_input: String,
+        entity_input: std::sync::Arc<str>,
         year: Option<i32>,
-        group: Option<String>,
+        group: Option<std::sync::Arc<str>>,
         figure: Figure,
         currency_cell: Option<(&str, &str)>,
         mut row_flags: Vec<String>,
@@ -382,7 +396,7 @@ impl RowReader<'_> {
         let currency = match currency_cell {
             Some((header, text)) if !text.trim().is_empty() => {
                 match checked_currency(text, Some((line, header)), self.file) {
-                    Ok(code) => Some(code),
+                    Ok(code) => Some(self.shared(&code)),
                     Err(_) if self.options.lenient => {
                         row_flags.push(flags::UNKNOWN_CURRENCY.into());
                         None
@@ -390,7 +404,7 @@ impl RowReader<'_> {
                     Err(e) => return Err(e),
                 }
             }
-            _ => self.currency_code.map(str::to_string),
+            _ => self.currency_code.map(|code| self.shared(code)),
         };
         Ok(CanonicalRow {
             row_id,
