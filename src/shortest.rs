@@ -38,9 +38,10 @@ pub fn push_shortest(out: &mut String, x: f64) {
 /// The binary exponents e (of x = m·2^e, m odd) at which a tie can happen. A tie has
 /// x = (10·digits + 5)·10^e (see `round_tie_up`), and both neighbours, 10^(e+1) apart, read
 /// back as x, so 10^(e+1) ≤ ulp(x) ≤ 2^e (x's lowest set bit is 2^e), which holds only for
-/// e ≤ -2. Then 10·digits + 5 = m·5^-e has at most 18 digits, so -e ≤ 25. On 2026-12-04, 200 million random numbers gave ties at
-/// every e from -25 to -2 but -24, and none elsewhere. Most numbers a division gives have all
-/// 53 bits and fall outside, so their text is never taken apart.
+/// e ≤ -2. Then 10·digits + 5 = m·5^-e has at most 18 digits, so -e ≤ 25. On 2026-12-04,
+/// 200 million random numbers gave ties at every e from -25 to -2 but -24, and none elsewhere.
+/// Most numbers a division gives have all 53 bits and fall outside, so their text is never
+/// taken apart.
 const TIE_EXPONENTS: std::ops::RangeInclusive<i32> = -25..=-2;
 
 /// The text of `x` as a new string (see `push_shortest`).
