@@ -85,7 +85,8 @@ pub fn decode<'a>(
             EncodingChoice::Utf8
         };
         return Ok(Decoded {
-            text: text.into_owned().into(),
+            // Borrowed for UTF-8 after its mark (a spreadsheet's export), decoded for UTF-16.
+            text,
             description: format!("{} (byte-order mark)", encoding.name()),
             encoding: Some(choice),
         });

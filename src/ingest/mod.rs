@@ -77,12 +77,7 @@ pub fn ingest(
         },
     )?;
     let roles = layout::assign_roles(&table, &role_flags, file, resolver)?;
-    if !role_flags.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
-        return Err(Error::usage(
-            "margin and claim columns need a long table (one row per entity and year, with the margin or claim beside the value)",
-            "reshape the table to long form, or pass --long with --year and --value",
-        ));
-    }
+    reserved_need_a_long_table(&role_flags, &roles)?;
 
     let mut notes = vec![source_note(file, &decoded, delimiter, &table)];
     notes.append(&mut sheet_notes);
@@ -147,6 +142,17 @@ pub fn ingest(
         encoding: decoded.encoding,
         roles_used,
     })
+}
+
+/// Margin and claim columns sit beside the value of a long table; a wide one has no such place.
+fn reserved_need_a_long_table(role_flags: &RoleFlags, roles: &layout::Roles) -> Result<()> {
+    if !role_flags.reserved.is_empty() && matches!(roles.shape, Shape::Wide { .. }) {
+        return Err(Error::usage(
+            "margin and claim columns need a long table (one row per entity and year, with the margin or claim beside the value)",
+            "reshape the table to long form, or pass --long with --year and --value",
+        ));
+    }
+    Ok(())
 }
 
 /// The notes on how the columns are used: dimensions that became the group, the marks read
