@@ -577,7 +577,11 @@ mod tests {
                 Ok(())
             }
         }
-        let rows = 10 * CSV_SLICE_ROWS;
+        // Several batches (a batch is one slice a pool thread) and a short last one.
+        let threads = polars_core::runtime::THREAD_POOL
+            .current_num_threads()
+            .max(1);
+        let rows = (3 * threads + 1) * CSV_SLICE_ROWS + 5;
         let values: Vec<f64> = (0..rows).map(|i| i as f64 / 7.0).collect();
         let frame = df!("value" => values).unwrap();
         let failed = write_csv(
