@@ -603,6 +603,22 @@ mod tests {
         });
         assert_eq!(here, on_pool);
         assert_eq!(here.iter().filter(|&&b| b == b'\n').count(), rows + 1);
+        // The formatter stops at the first batch the writer refuses (the channel's send fails
+        // once the writer has gone), and otherwise hands over every batch, in order.
+        let names = vec!["value".to_string()];
+        let mut offered = 0;
+        format_batches(&frame, &names, Rounding::Full, false, |_| {
+            offered += 1;
+            false
+        });
+        assert_eq!(offered, 1);
+        let mut batches = Vec::new();
+        format_batches(&frame, &names, Rounding::Full, false, |batch| {
+            batches.push(batch.concat());
+            true
+        });
+        assert_eq!(batches.len(), rows.div_ceil(CSV_SLICE_ROWS * threads));
+        assert_eq!(batches.concat(), here["value\n".len()..]);
     }
 
     #[test]
