@@ -24,16 +24,15 @@ pub fn push_shortest(out: &mut String, x: f64) {
     let mut buffer = ryu::Buffer::new();
     let text = buffer.format_finite(x.abs());
     let (m, e) = odd_binary(x.abs());
-    let tie = TIE_EXPONENTS.contains(&e) && {
-        let (digits, exponent) = decimal_parts(text);
-        round_tie_up(m, e, digits, exponent)
-    };
+    // Taken apart only where a tie can be, and then once.
+    let parts = TIE_EXPONENTS.contains(&e).then(|| decimal_parts(text));
+    let tie = parts.is_some_and(|(digits, exponent)| round_tie_up(m, e, digits, exponent));
     if !tie && !text.contains('e') {
         // Ryū's plain text is the standard library's but for a `.0` on whole numbers.
         out.push_str(text.strip_suffix(".0").unwrap_or(text));
         return;
     }
-    let (digits, exponent) = decimal_parts(text);
+    let (digits, exponent) = parts.unwrap_or_else(|| decimal_parts(text));
     push_plain(out, digits + u64::from(tie), exponent);
 }
 
@@ -132,6 +131,14 @@ fn push_plain(out: &mut String, digits: u64, exponent: i32) {
 mod tests {
     use super::*;
 
+    /// A positive `x` as m·2^e and as Ryū's digits·10^exponent.
+    fn taken_apart(x: f64) -> (u64, i32, u64, i32) {
+        let mut buffer = ryu::Buffer::new();
+        let (digits, exponent) = decimal_parts(buffer.format_finite(x));
+        let (m, e) = odd_binary(x);
+        (m, e, digits, exponent)
+    }
+
     /// The reference: the standard library's own `{}` text.
     fn std_text(x: f64) -> String {
         format!("{x}")
@@ -193,9 +200,7 @@ mod tests {
             0x4024_0002_0000_0000,
         ] {
             let x = f64::from_bits(bits);
-            let mut buffer = ryu::Buffer::new();
-            let (digits, exponent) = decimal_parts(buffer.format_finite(x));
-            let (m, e) = odd_binary(x);
+            let (m, e, digits, exponent) = taken_apart(x);
             assert!(TIE_EXPONENTS.contains(&e), "{x}");
             assert!(round_tie_up(m, e, digits, exponent), "{x}");
             assert!(!round_tie_up(m, e, digits + 1, exponent), "{x}");
@@ -219,9 +224,7 @@ mod tests {
                     let m = ((1_u64 << (bits - 1)) | low) & ((1_u64 << bits) - 1) | 1;
                     let x = m as f64 * 2f64.powi(-t);
                     assert_eq!(shortest(x), std_text(x), "{m}/2^{t}");
-                    let mut buffer = ryu::Buffer::new();
-                    let (digits, exponent) = decimal_parts(buffer.format_finite(x));
-                    let (m, e) = odd_binary(x);
+                    let (m, e, digits, exponent) = taken_apart(x);
                     if round_tie_up(m, e, digits, exponent) {
                         ties_at.insert(e);
                     }
