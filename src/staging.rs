@@ -96,10 +96,11 @@ pub fn temp_beside(path: &Path) -> Result<tempfile::NamedTempFile> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => std::path::PathBuf::from("."),
     };
-    let temp = tempfile::NamedTempFile::new_in(&dir)
-        .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))?;
-    crate::cleanup::register(temp.path());
-    Ok(temp)
+    crate::cleanup::create_registered(
+        || tempfile::NamedTempFile::new_in(&dir),
+        tempfile::NamedTempFile::path,
+    )
+    .map_err(|e| Error::io(dir.display(), "create a temporary file in", e))
 }
 
 /// Moves a finished temporary file (created in the target's folder) over `path`.
@@ -119,8 +120,8 @@ pub fn persist_atomically(temp: tempfile::NamedTempFile, path: &Path) -> Result<
     temp.as_file()
         .sync_all()
         .map_err(|e| Error::io(path.display(), "write the output", e))?;
-    crate::cleanup::forget(temp.path());
-    temp.persist(path).map_err(|e| {
+    let temp_path = temp.path().to_path_buf();
+    crate::cleanup::settle(&temp_path, || temp.persist(path)).map_err(|e| {
         Error::io(
             path.display(),
             "move the finished output into place",

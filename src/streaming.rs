@@ -474,12 +474,15 @@ fn spill_folder(output: &Path) -> Result<tempfile::TempDir> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    let spill_dir = tempfile::Builder::new()
-        .prefix(".levelfield-pieces-")
-        .tempdir_in(&folder)
-        .map_err(|e| Error::io(folder.display(), "create a temporary folder in", e))?;
-    crate::cleanup::register(spill_dir.path());
-    Ok(spill_dir)
+    crate::cleanup::create_registered(
+        || {
+            tempfile::Builder::new()
+                .prefix(".levelfield-pieces-")
+                .tempdir_in(&folder)
+        },
+        tempfile::TempDir::path,
+    )
+    .map_err(|e| Error::io(folder.display(), "create a temporary folder in", e))
 }
 
 /// Where a piece starts in the whole file.
