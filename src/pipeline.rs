@@ -101,7 +101,7 @@ pub fn run_adjust(
 /// from `ord_offset` (a piece of a larger file starts where the previous piece ended).
 pub(crate) struct Prepared {
     pub lf: LazyFrame,
-    /// What ingest decided (its rows are dropped once the frame is built).
+    /// What ingest decided (its rows were taken out and dropped as the frame was built).
     pub ingested: ingest::Ingested,
     pub rows_in: usize,
     /// The output columns up to `value_adjusted` (and the margin columns), in order.
@@ -197,7 +197,6 @@ pub(crate) fn prepare(
         settings,
         carried_names,
     );
-    ingested.rows = Vec::new();
     Ok(Prepared {
         lf,
         ingested,
@@ -297,21 +296,23 @@ fn row_facts(
     // The entity-years the rows need factors for, by the entity's place in `entities.found`.
     let mut entity_years: PlHashSet<(u32, i32)> = PlHashSet::default();
     let mut any_base = false;
-    for (i, row) in ingested.rows.iter_mut().enumerate() {
+    let rows = &mut ingested.rows;
+    for (i, &row_basis) in bases.iter().enumerate().take(rows_in) {
         let basis = if whole_table_in_base || !check_currency {
             InputBasis::Local
         } else {
-            bases[i]
+            row_basis
         };
         if basis == InputBasis::Mismatch {
-            row.flags.push(flags::CURRENCY_MISMATCH.into());
+            rows.flag(i, flags::CURRENCY_MISMATCH);
         }
         any_base |= basis == InputBasis::Base;
         basis_text.push(basis.as_str());
-        flags_pre.push(if row.flags.is_empty() {
+        let row_flags = rows.flags(i);
+        flags_pre.push(if row_flags.is_empty() {
             None
         } else {
-            Some(row.flags.join(";"))
+            Some(row_flags.join(";"))
         });
         let entity = entities.of(i);
         let kind = entity.map(|e| e.kind.as_str());
@@ -323,13 +324,13 @@ fn row_facts(
             None
         } else {
             Some(
-                row_currency(row, entity)
+                row_currency(rows, i, entity)
                     .map(str::to_string)
                     .or_else(|| entity.map(|e| format!("units of {}", e.code)))
                     .unwrap_or_default(),
             )
         });
-        if let (Some(at), Some(year)) = (entities.at[i], row.year) {
+        if let (Some(at), Some(year)) = (entities.at[i], rows.year[i]) {
             entity_years.insert((at, year));
         }
     }
@@ -348,9 +349,12 @@ fn row_facts(
 }
 
 /// The currency a row's figure is in: the one it states, else its entity's.
-fn row_currency<'a>(row: &'a ingest::CanonicalRow, entity: Option<&'a Entity>) -> Option<&'a str> {
-    row.currency
-        .as_deref()
+fn row_currency<'a>(
+    rows: &'a ingest::CanonicalRows,
+    at: usize,
+    entity: Option<&'a Entity>,
+) -> Option<&'a str> {
+    rows.currency_text(at)
         .or_else(|| entity.and_then(|e| e.currency.as_deref()))
 }
 
@@ -371,49 +375,63 @@ fn canonical_frame(
         keys,
         any_base,
     } = row_facts(ingested, entities, bases, settings, start);
-    let rows = &ingested.rows;
+    // The rows are taken out of `ingested` and each of their columns is dropped as soon as its
+    // frame column exists, so that the next column reuses its memory rather than fresh pages.
+    let mut rows = std::mem::take(&mut ingested.rows);
     // Each column is built straight from the rows, without a vector of cells in between: at
     // 10M rows each such vector was 160 MB of fresh memory, faulted in and freed again.
-
+    let mut columns = vec![
+        Column::new(
+            "_ord".into(),
+            (ord_offset..ord_offset + rows_in as u64).collect::<Vec<u64>>(),
+        ),
+        row_id_column(&rows),
+    ];
+    rows.row_id = Vec::new();
+    columns.push(text(
+        "entity_input",
+        rows.entity_input.iter().map(|&t| rows.texts.get(t)),
+    ));
+    rows.entity_input = Vec::new();
     // A text column of each row's entity (null where the name did not resolve).
     let entity_column = |name: &str, field: fn(&Entity) -> &str| {
         optional_text(name, (0..rows_in).map(|i| entities.of(i).map(field)))
     };
-    let frame = DataFrame::new(
-        rows_in,
-        vec![
-            Column::new(
-                "_ord".into(),
-                (ord_offset..ord_offset + rows_in as u64).collect::<Vec<u64>>(),
-            ),
-            row_id_column(rows),
-            text("entity_input", rows.iter().map(|r| &*r.entity_input)),
-            entity_column("entity_code", |e| &e.code),
-            entity_column("entity_name", |e| &e.name),
-            entity_column("entity_kind", |e| e.kind.as_str()),
-            Int32Chunked::from_iter_options("year".into(), rows.iter().map(|r| r.year))
-                .into_column(),
-            optional_text("group", rows.iter().map(|r| r.group.as_deref())),
-            text("value_input", rows.iter().map(|r| r.value_input.as_str())),
-            Float64Chunked::from_iter_options("value".into(), rows.iter().map(|r| r.value))
-                .into_column(),
-            optional_text(
-                "currency",
-                rows.iter()
-                    .enumerate()
-                    .map(|(i, r)| row_currency(r, entities.of(i))),
-            ),
-            Column::new("_unit".into(), units),
-            Column::new("_basis".into(), basis_text),
-            Column::new("_flags_pre".into(), flags_pre),
-            Column::new("_rank_eligible".into(), eligible),
-            Float64Chunked::from_iter_options("_se".into(), rows.iter().map(|r| r.se))
-                .into_column(),
-        ],
-    )
-    .map_err(Error::engine("building the input frame"))?;
+    columns.push(entity_column("entity_code", |e| &e.code));
+    columns.push(entity_column("entity_name", |e| &e.name));
+    columns.push(entity_column("entity_kind", |e| e.kind.as_str()));
+    columns.push(
+        Int32Chunked::from_iter_options("year".into(), rows.year.iter().copied()).into_column(),
+    );
+    rows.year = Vec::new();
+    columns.push(optional_text(
+        "group",
+        (0..rows_in).map(|i| rows.group_text(i)),
+    ));
+    rows.group = Vec::new();
+    columns.push(text("value_input", rows.value_input.iter()));
+    rows.value_input = ingest::TextColumn::default();
+    columns.push(
+        Float64Chunked::from_iter_options("value".into(), rows.value.iter().copied()).into_column(),
+    );
+    rows.value = Vec::new();
+    columns.push(optional_text(
+        "currency",
+        (0..rows_in).map(|i| row_currency(&rows, i, entities.of(i))),
+    ));
+    rows.currency = Vec::new();
+    columns.push(Column::new("_unit".into(), units));
+    columns.push(Column::new("_basis".into(), basis_text));
+    columns.push(Column::new("_flags_pre".into(), flags_pre));
+    columns.push(Column::new("_rank_eligible".into(), eligible));
+    columns.push(
+        Float64Chunked::from_iter_options("_se".into(), (0..rows_in).map(|i| rows.se(i)))
+            .into_column(),
+    );
+    let frame =
+        DataFrame::new(rows_in, columns).map_err(Error::engine("building the input frame"))?;
     // Columns carried as text for the audit (claimed figures, notes), with each row's line.
-    let carried = carried_columns(rows, settings.ingest.extra_columns.len());
+    let carried = carried_columns(&rows, settings.ingest.extra_columns.len());
     let carried_names: Vec<String> = carried.iter().map(|c| c.name().to_string()).collect();
     let mut frame = frame;
     for column in carried {
@@ -430,13 +448,13 @@ fn canonical_frame(
 }
 
 /// The `row_id` column, each id written into one reused buffer (no string kept per row).
-fn row_id_column(rows: &[ingest::CanonicalRow]) -> Column {
+fn row_id_column(rows: &ingest::CanonicalRows) -> Column {
     use std::fmt::Write;
     let mut builder = StringChunkedBuilder::new("row_id".into(), rows.len());
     let mut id = String::new();
-    for row in rows {
+    for row_id in &rows.row_id {
         id.clear();
-        let _ = write!(id, "{}", row.row_id);
+        let _ = write!(id, "{row_id}");
         builder.append_value(&id);
     }
     builder.finish().into_column()
@@ -496,19 +514,18 @@ fn head_columns(
 
 /// `_line` and `_extra_0`, `_extra_1`, ...: the rows' lines and the text of
 /// `IngestOptions::extra_columns` (none when no extra column is asked for).
-fn carried_columns(rows: &[ingest::CanonicalRow], extras: usize) -> Vec<Column> {
+fn carried_columns(rows: &ingest::CanonicalRows, extras: usize) -> Vec<Column> {
     if extras == 0 {
         return Vec::new();
     }
     let mut columns = vec![Column::new(
         "_line".into(),
-        rows.iter().map(|r| r.line as u64).collect::<Vec<u64>>(),
+        rows.line.iter().map(|&l| l as u64).collect::<Vec<u64>>(),
     )];
     for i in 0..extras {
         columns.push(text(
             &format!("_extra_{i}"),
-            rows.iter()
-                .map(|r| r.extra.get(i).map(String::as_str).unwrap_or("")),
+            (0..rows.line.len()).map(|at| rows.extra(at, i)),
         ));
     }
     columns

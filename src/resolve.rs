@@ -8,7 +8,6 @@ use crate::entity::{Entity, EntityKind, Resolution, Resolver};
 use crate::error::{Error, Result, UnresolvedName};
 use crate::flags;
 use crate::ingest::Ingested;
-use polars::prelude::PlHashMap;
 
 /// The entity of every row, in input order: each distinct entity once, and per row its place
 /// among them (none for an unresolved name). The frame's entity columns are written from this
@@ -62,8 +61,8 @@ pub fn resolve_rows(
 ) -> Result<(EntityColumns, Vec<InputBasis>)> {
     // Each distinct text is resolved once: to its place among the entities found, or to its
     // place among the unresolved.
-    let mut cache: PlHashMap<std::sync::Arc<str>, std::result::Result<u32, usize>> =
-        PlHashMap::default();
+    let mut cache: Vec<Option<std::result::Result<u32, usize>>> =
+        vec![None; ingested.rows.texts.len()];
     let mut unresolved: Vec<UnresolvedName> = Vec::new();
     let n = ingested.rows.len();
     let mut columns = EntityColumns {
@@ -71,25 +70,27 @@ pub fn resolve_rows(
         at: Vec::with_capacity(n),
     };
     let mut bases = Vec::with_capacity(n);
-    for row in ingested.rows.iter_mut() {
-        let outcome = match cache.get(&*row.entity_input) {
-            Some(&outcome) => outcome,
+    let rows = &mut ingested.rows;
+    for row in 0..n {
+        let text = rows.entity_input[row];
+        let outcome = match cache[text as usize] {
+            Some(outcome) => outcome,
             None => {
-                let outcome = match resolver.resolve_with(&row.entity_input, false) {
+                let outcome = match resolver.resolve_with(rows.texts.get(text), false) {
                     Resolution::Found(entity) => {
                         columns.found.push(entity.clone());
                         Ok(columns.found.len() as u32 - 1)
                     }
                     Resolution::Unresolved { suggestions } => {
                         unresolved.push(UnresolvedName {
-                            text: row.entity_input.to_string(),
+                            text: rows.texts.get(text).to_string(),
                             lines: Vec::new(),
                             suggestions,
                         });
                         Err(unresolved.len() - 1)
                     }
                 };
-                cache.insert(row.entity_input.clone(), outcome);
+                cache[text as usize] = Some(outcome);
                 outcome
             }
         };
@@ -97,12 +98,12 @@ pub fn resolve_rows(
             Ok(at) => {
                 let entity = &columns.found[at as usize];
                 if entity.kind == EntityKind::Aggregate && !options.rank_aggregates {
-                    row.flags.push(flags::AGGREGATE.into());
+                    rows.flag(row, flags::AGGREGATE);
                 }
                 // A mismatch is flagged later, and only where a step converts currencies
                 // (`pipeline::row_facts`): without one, figures rank as given.
                 bases.push(input_basis(
-                    row.currency.as_deref(),
+                    rows.currency_text(row),
                     entity.currency.as_deref(),
                     options.base_currency,
                 ));
@@ -110,10 +111,10 @@ pub fn resolve_rows(
             }
             Err(at) => {
                 let lines = &mut unresolved[at].lines;
-                if lines.last() != Some(&row.line) {
-                    lines.push(row.line);
+                if lines.last() != Some(&rows.line[row]) {
+                    lines.push(rows.line[row]);
                 }
-                row.flags.push(flags::UNRESOLVED.into());
+                rows.flag(row, flags::UNRESOLVED);
                 bases.push(InputBasis::Local);
                 columns.at.push(None);
             }

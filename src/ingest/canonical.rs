@@ -4,24 +4,10 @@
 use super::layout::RoleFlags;
 use super::{encoding, margins};
 use crate::cells::number::NumberStyle;
-use polars::prelude::PlHashSet;
+use polars::prelude::PlHashMap;
 use rust_decimal::Decimal;
+use std::collections::BTreeMap;
 use std::sync::Arc;
-
-/// Each distinct text once: the repeated texts of canonical rows share one allocation.
-#[derive(Debug, Default)]
-pub struct SharedTexts(PlHashSet<Arc<str>>);
-
-impl SharedTexts {
-    pub fn get(&mut self, text: &str) -> Arc<str> {
-        if let Some(shared) = self.0.get(text) {
-            return shared.clone();
-        }
-        let shared: Arc<str> = text.into();
-        self.0.insert(shared.clone());
-        shared
-    }
-}
 
 /// How to read the input.
 #[derive(Debug, Clone, Default)]
@@ -61,21 +47,283 @@ impl std::fmt::Display for RowId {
     }
 }
 
-/// One figure of the input. The entity, group and currency texts repeat down a table, so each
-/// distinct one is held once and shared (`Arc<str>`): at 10M rows, 20M fewer allocations.
-#[derive(Debug, Clone, PartialEq)]
-pub struct CanonicalRow {
+/// Texts end to end in one string, with where each ends: a column of short texts without an
+/// allocation per cell.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct TextColumn {
+    text: String,
+    ends: Vec<usize>,
+}
+
+impl TextColumn {
+    pub fn with_capacity(cells: usize) -> TextColumn {
+        TextColumn {
+            text: String::new(),
+            ends: Vec::with_capacity(cells),
+        }
+    }
+
+    pub fn push(&mut self, cell: &str) {
+        self.text.push_str(cell);
+        self.ends.push(self.text.len());
+    }
+
+    pub fn len(&self) -> usize {
+        self.ends.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.ends.is_empty()
+    }
+
+    pub fn get(&self, i: usize) -> &str {
+        let start = match i {
+            0 => 0,
+            _ => self.ends[i - 1],
+        };
+        &self.text[start..self.ends[i]]
+    }
+
+    pub fn iter(&self) -> impl Iterator<Item = &str> + '_ {
+        (0..self.len()).map(move |i| self.get(i))
+    }
+}
+
+/// Each distinct text once (entity, group and currency texts repeat down a table): a row holds
+/// the text's place here.
+#[derive(Debug, Clone, Default)]
+pub struct Texts {
+    all: Vec<Arc<str>>,
+    places: PlHashMap<Arc<str>, u32>,
+}
+
+impl Texts {
+    /// The place of `text`, added if it is new.
+    pub fn place(&mut self, text: &str) -> u32 {
+        if let Some(&at) = self.places.get(text) {
+            return at;
+        }
+        let shared: Arc<str> = text.into();
+        // Fewer distinct texts than rows, and rows are counted in `usize` far below 4 billion
+        // for an input within --max-input-mb.
+        let at = u32::try_from(self.all.len()).unwrap_or(u32::MAX);
+        self.all.push(shared.clone());
+        self.places.insert(shared, at);
+        at
+    }
+
+    pub fn get(&self, at: u32) -> &str {
+        &self.all[at as usize]
+    }
+
+    pub fn len(&self) -> usize {
+        self.all.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.all.is_empty()
+    }
+}
+
+/// The figures of the input, one row each, held as columns: at 10M rows a row costs about 90
+/// bytes here (by the sizes of its fields), where a struct per row with its own strings cost
+/// about 200. Entity, group and currency texts are places in `texts`; flags are kept only for
+/// the rows that have any, in the order they were raised.
+#[derive(Debug, Clone, Default)]
+pub struct CanonicalRows {
+    pub row_id: Vec<RowId>,
+    pub line: Vec<usize>,
+    pub entity_input: Vec<u32>,
+    pub year: Vec<Option<i32>>,
+    pub group: Vec<Option<u32>>,
+    pub value_input: TextColumn,
+    pub value: Vec<Option<f64>>,
+    /// Standard errors of `value`, in its unit: empty when no margins were given.
+    se: Vec<Option<f64>>,
+    pub currency: Vec<Option<u32>>,
+    flags: BTreeMap<usize, Vec<&'static str>>,
+    /// The text of `IngestOptions::extra_columns`, one column each (long tables only).
+    extra: Vec<TextColumn>,
+    pub texts: Texts,
+}
+
+/// One row as `CanonicalRows::push` takes it.
+pub struct RowParts<'a> {
     pub row_id: RowId,
     pub line: usize,
-    pub entity_input: Arc<str>,
+    pub entity_input: u32,
     pub year: Option<i32>,
-    pub group: Option<Arc<str>>,
-    pub value_input: String,
+    pub group: Option<u32>,
+    pub value_input: &'a str,
     pub value: Option<f64>,
-    /// Standard error of `value`, in its unit, when margins were given.
-    pub se: Option<f64>,
-    pub currency: Option<Arc<str>>,
-    pub flags: Vec<String>,
-    /// The text of `IngestOptions::extra_columns`, in their order (long tables only).
-    pub extra: Vec<String>,
+    pub currency: Option<u32>,
+    pub flags: Vec<&'static str>,
+}
+
+impl CanonicalRows {
+    pub fn with_capacity(rows: usize) -> CanonicalRows {
+        CanonicalRows {
+            row_id: Vec::with_capacity(rows),
+            line: Vec::with_capacity(rows),
+            entity_input: Vec::with_capacity(rows),
+            year: Vec::with_capacity(rows),
+            group: Vec::with_capacity(rows),
+            value_input: TextColumn::with_capacity(rows),
+            value: Vec::with_capacity(rows),
+            currency: Vec::with_capacity(rows),
+            ..CanonicalRows::default()
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.row_id.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.row_id.is_empty()
+    }
+
+    pub fn push(&mut self, row: RowParts) {
+        let at = self.len();
+        self.row_id.push(row.row_id);
+        self.line.push(row.line);
+        self.entity_input.push(row.entity_input);
+        self.year.push(row.year);
+        self.group.push(row.group);
+        self.value_input.push(row.value_input);
+        self.value.push(row.value);
+        self.currency.push(row.currency);
+        self.add_flags(at, row.flags);
+    }
+
+    /// Sets the margin-derived standard error and carried texts of the last row pushed (long
+    /// tables, with margins or extra columns), with the flags the margins raised.
+    pub fn finish_last(&mut self, se: Option<f64>, extra: &[&str], flags: Vec<&'static str>) {
+        let at = self.len() - 1;
+        if self.se.len() < at {
+            self.se.resize(at, None);
+        }
+        self.se.push(se);
+        if self.extra.len() < extra.len() {
+            self.extra.resize_with(extra.len(), TextColumn::default);
+        }
+        for (column, text) in self.extra.iter_mut().zip(extra) {
+            column.push(text);
+        }
+        self.add_flags(at, flags);
+    }
+
+    fn add_flags(&mut self, at: usize, flags: Vec<&'static str>) {
+        if !flags.is_empty() {
+            self.flags.entry(at).or_default().extend(flags);
+        }
+    }
+
+    /// Raises `flag` on row `at`, after those it has.
+    pub fn flag(&mut self, at: usize, flag: &'static str) {
+        self.flags.entry(at).or_default().push(flag);
+    }
+
+    /// The flags of row `at`, in the order they were raised.
+    pub fn flags(&self, at: usize) -> &[&'static str] {
+        self.flags.get(&at).map(Vec::as_slice).unwrap_or(&[])
+    }
+
+    pub fn se(&self, at: usize) -> Option<f64> {
+        self.se.get(at).copied().flatten()
+    }
+
+    /// The text of extra column `k` in row `at` (empty where there is none).
+    pub fn extra(&self, at: usize, k: usize) -> &str {
+        match self.extra.get(k) {
+            Some(column) if at < column.len() => column.get(at),
+            _ => "",
+        }
+    }
+
+    pub fn entity_text(&self, at: usize) -> &str {
+        self.texts.get(self.entity_input[at])
+    }
+
+    pub fn group_text(&self, at: usize) -> Option<&str> {
+        self.group[at].map(|g| self.texts.get(g))
+    }
+
+    pub fn currency_text(&self, at: usize) -> Option<&str> {
+        self.currency[at].map(|c| self.texts.get(c))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rows_read_back_as_pushed_with_flags_in_order() {
+        let mut rows = CanonicalRows::with_capacity(2);
+        let mut parts = |data_row, value_input: &'static str, flags| {
+            let entity_input = rows.texts.place("France");
+            rows.push(RowParts {
+                row_id: RowId {
+                    data_row,
+                    year_column: None,
+                },
+                line: data_row + 1,
+                entity_input,
+                year: Some(2020),
+                group: None,
+                value_input,
+                value: value_input.parse().ok(),
+                currency: None,
+                flags,
+            });
+        };
+        parts(1, "1.5", vec![]);
+        parts(2, "", vec!["missing_value"]);
+        rows.flag(1, "aggregate");
+        rows.flag(0, "unresolved");
+        assert_eq!(rows.len(), 2);
+        assert_eq!((rows.entity_text(1), rows.texts.len()), ("France", 1));
+        assert_eq!(rows.value_input.iter().collect::<Vec<_>>(), vec!["1.5", ""]);
+        assert_eq!(rows.flags(0), &["unresolved"]);
+        assert_eq!(rows.flags(1), &["missing_value", "aggregate"]);
+        assert_eq!((rows.se(1), rows.extra(1, 0)), (None, ""));
+    }
+
+    #[test]
+    fn margins_and_extra_texts_belong_to_their_rows() {
+        let mut rows = CanonicalRows::default();
+        for (i, se) in [(1, Some(0.5)), (2, None)] {
+            let entity_input = rows.texts.place("Chile");
+            rows.push(RowParts {
+                row_id: RowId {
+                    data_row: i,
+                    year_column: None,
+                },
+                line: i + 1,
+                entity_input,
+                year: None,
+                group: None,
+                value_input: "3",
+                value: Some(3.0),
+                currency: None,
+                flags: vec![],
+            });
+            rows.finish_last(
+                se,
+                &["claimed", "note"],
+                if se.is_none() {
+                    vec!["no_margin"]
+                } else {
+                    vec![]
+                },
+            );
+        }
+        assert_eq!((rows.se(0), rows.se(1)), (Some(0.5), None));
+        assert_eq!(
+            (rows.extra(0, 1), rows.extra(1, 0), rows.extra(1, 2)),
+            ("note", "claimed", "")
+        );
+        assert_eq!(rows.flags(1), &["no_margin"]);
+    }
 }

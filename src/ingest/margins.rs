@@ -76,7 +76,7 @@ pub fn standard_error(
     multiplier: f64,
     file: &str,
     line: usize,
-    row_flags: &mut Vec<String>,
+    row_flags: &mut Vec<&'static str>,
 ) -> Result<Option<f64>> {
     let read = |index: usize| -> Result<Option<f64>> {
         let (header, text) = cells.cells[index];
@@ -125,7 +125,7 @@ pub fn standard_error(
                     ));
                 }
                 if (above - below).abs() > 1e-9 * value.abs().max(1.0) {
-                    row_flags.push(flags::ASYMMETRIC_CI.into());
+                    row_flags.push(flags::ASYMMETRIC_CI);
                 }
                 // The larger half stands for a symmetric margin: conservative, since no margin
                 // is understated (common practice; no published source is relied on).
@@ -161,7 +161,7 @@ pub fn standard_error(
         },
     };
     if se.is_none() {
-        row_flags.push(flags::NO_MARGIN.into());
+        row_flags.push(flags::NO_MARGIN);
     }
     Ok(se)
 }
@@ -170,7 +170,11 @@ pub fn standard_error(
 mod tests {
     use super::*;
 
-    fn se(spec: &MarginSpec, value: f64, cells: Vec<(&str, &str)>) -> (Option<f64>, Vec<String>) {
+    fn se(
+        spec: &MarginSpec,
+        value: f64,
+        cells: Vec<(&str, &str)>,
+    ) -> (Option<f64>, Vec<&'static str>) {
         let mut f = Vec::new();
         let out = standard_error(
             spec,

@@ -14,7 +14,7 @@ pub mod layout;
 pub mod margins;
 pub mod record;
 mod rows;
-pub use canonical::{CanonicalRow, IngestOptions, RowId};
+pub use canonical::{CanonicalRows, IngestOptions, RowId, TextColumn, Texts};
 pub(crate) use rows::RecordMarks;
 pub mod spreadsheet;
 pub mod table;
@@ -27,7 +27,7 @@ use layout::{LayoutChoice, RoleFlags, Shape, YearSource};
 /// The rows and what was decided while reading them (for the run summary).
 #[derive(Debug, Clone)]
 pub struct Ingested {
-    pub rows: Vec<CanonicalRow>,
+    pub rows: CanonicalRows,
     pub file: String,
     pub notes: Vec<String>,
     pub entity_column: String,
@@ -123,8 +123,12 @@ pub fn ingest(
         },
     )?;
     // Formulas are never evaluated: a row whose sheet row holds one says so.
-    for row in rows.iter_mut().filter(|r| formula_rows.contains(&r.line)) {
-        row.flags.push(flags::FORMULA_CELL.into());
+    if !formula_rows.is_empty() {
+        for at in 0..rows.len() {
+            if formula_rows.contains(&rows.line[at]) {
+                rows.flag(at, flags::FORMULA_CELL);
+            }
+        }
     }
     let roles_used = roles_used(&table, &roles);
     let warnings = reading_warnings(&table, &rows, options);
@@ -410,7 +414,7 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
 /// whose numbers look like decimal commas read as thousands separators.
 fn reading_warnings(
     table: &table::TextTable,
-    rows: &[CanonicalRow],
+    rows: &CanonicalRows,
     options: &IngestOptions,
 ) -> Vec<String> {
     let mut warnings = Vec::new();
@@ -423,9 +427,8 @@ fn reading_warnings(
             if table.skipped.len() > 3 { "; ..." } else { "" }
         ));
     }
-    let grouped = rows
-        .iter()
-        .filter(|r| r.value.is_some() && r.value_input.contains(','))
+    let grouped = (0..rows.len())
+        .filter(|&at| rows.value[at].is_some() && rows.value_input.get(at).contains(','))
         .count();
     if table.delimiter == b';' && !options.number_style.decimal_comma && grouped > 0 {
         warnings.push(format!(
@@ -486,13 +489,14 @@ mod tests {
             IngestOptions::default(),
         )
         .unwrap();
-        let ids: Vec<String> = out.rows.iter().map(|r| r.row_id.to_string()).collect();
+        let ids: Vec<String> = out.rows.row_id.iter().map(ToString::to_string).collect();
         assert_eq!(ids, vec!["1:2019", "1:2020", "2:2019", "2:2020"]);
-        assert_eq!(out.rows[0].value, Some(1200.0));
-        assert_eq!(out.rows[1].value, None);
-        assert_eq!(out.rows[1].flags, vec!["missing_value".to_string()]);
-        assert_eq!(out.rows[2].flags, vec!["footnote".to_string()]);
-        assert_eq!(out.rows[3].line, 3);
+        assert_eq!(out.rows.value[0], Some(1200.0));
+        assert_eq!(out.rows.value[1], None);
+        assert_eq!(out.rows.flags(1), &["missing_value"]);
+        assert_eq!(out.rows.flags(2), &["footnote"]);
+        assert_eq!(out.rows.line[3], 3);
+        assert_eq!(out.rows.value_input.get(2), "3*");
     }
 
     #[test]
@@ -510,7 +514,7 @@ mod tests {
         };
         let out = run("country,year,value\nFrance,2020,abc\n", lenient).unwrap();
         assert_eq!(out.rows.len(), 1);
-        assert_eq!(out.rows[0].flags, vec!["unparsed".to_string()]);
+        assert_eq!(out.rows.flags(0), &["unparsed"]);
     }
 
     #[test]
@@ -520,7 +524,7 @@ mod tests {
             ..Default::default()
         };
         let out = run("country,year,value\nFrance,2020,0.1\n", options).unwrap();
-        assert_eq!(out.rows[0].value, Some(100_000.0));
+        assert_eq!(out.rows.value[0], Some(100_000.0));
     }
 
     #[test]
@@ -538,8 +542,8 @@ mod tests {
             options.clone(),
         )
         .unwrap();
-        assert_eq!(out.rows[0].currency.as_deref(), Some("EUR"));
-        assert_eq!(out.rows[1].currency, None);
+        assert_eq!(out.rows.currency_text(0), Some("EUR"));
+        assert_eq!(out.rows.currency_text(1), None);
         let err = run("country,year,value,cur\nFrance,2020,1,EUX\n", options)
             .unwrap_err()
             .to_string();

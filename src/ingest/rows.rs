@@ -3,7 +3,7 @@
 //! ten, a quote cut out of a runaway) and the flags raised on the way. Long tables give a row
 //! per record, wide ones a row per year column.
 
-use super::canonical::{CanonicalRow, IngestOptions, RowId, SharedTexts};
+use super::canonical::{CanonicalRows, IngestOptions, RowId, RowParts};
 use super::layout::{self, Shape, YearSource};
 use super::{margins, table};
 use crate::cells::number::{self, Cell};
@@ -33,7 +33,7 @@ pub(super) fn read_rows(
     table: &table::TextTable,
     records: Vec<table::TextRecord>,
     plan: &RowPlan,
-) -> Result<Vec<CanonicalRow>> {
+) -> Result<CanonicalRows> {
     let RowPlan {
         file,
         options,
@@ -41,13 +41,12 @@ pub(super) fn read_rows(
         marks,
         auto_group,
         currency_code,
-        margin_count: _,
+        margin_count,
     } = *plan;
     let reader = RowReader {
         file,
         options,
         currency_code,
-        shared: std::cell::RefCell::new(SharedTexts::default()),
     };
 
     let sdmx = layout::looks_like_sdmx(&table.headers);
@@ -57,13 +56,14 @@ pub(super) fn read_rows(
         Shape::Long { .. } => 1,
         Shape::Wide { year_columns } => year_columns.len(),
     };
-    let mut rows = Vec::with_capacity(records.len() * rows_per_record);
+    let mut rows = CanonicalRows::with_capacity(records.len() * rows_per_record);
+    let with_margins = margin_count > 0 || roles.reserved.len() > margin_count;
     for (index, record) in records.into_iter().enumerate() {
         let record = &record;
         let data_row = index + 1 + options.row_offset;
-        let entity_input = reader.shared(record_entity(record, roles, sdmx));
+        let entity_input = rows.texts.place(record_entity(record, roles, sdmx));
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
-        let group = record_group(record, roles, auto_group).map(|g| reader.shared(&g));
+        let group = record_group(record, roles, auto_group).map(|g| rows.texts.place(&g));
         let currency_cell = roles
             .currency
             .map(|c| (table.headers[c].as_str(), &record.cells[c]));
@@ -79,15 +79,18 @@ pub(super) fn read_rows(
                         &mut row_flags,
                     )?,
                 };
-                let mut row = reader.row(
-                    RowId {
-                        data_row,
-                        year_column: None,
+                let value = reader.push_row(
+                    &mut rows,
+                    Place {
+                        row_id: RowId {
+                            data_row,
+                            year_column: None,
+                        },
+                        line: record.line,
+                        entity_input,
+                        year,
+                        group,
                     },
-                    record.line,
-                    entity_input,
-                    year,
-                    group,
                     Figure {
                         cell: &record.cells[*value],
                         column: &table.headers[*value],
@@ -96,20 +99,24 @@ pub(super) fn read_rows(
                     currency_cell,
                     row_flags,
                 )?;
-                with_margins(&mut row, record, table, plan, multiplier)?;
-                rows.push(row);
+                if with_margins {
+                    push_margins(&mut rows, value, record, table, plan, multiplier)?;
+                }
             }
             Shape::Wide { year_columns } => {
                 for &(column, year) in year_columns {
-                    rows.push(reader.row(
-                        RowId {
-                            data_row,
-                            year_column: Some(year),
+                    reader.push_row(
+                        &mut rows,
+                        Place {
+                            row_id: RowId {
+                                data_row,
+                                year_column: Some(year),
+                            },
+                            line: record.line,
+                            entity_input,
+                            year: Some(year),
+                            group,
                         },
-                        record.line,
-                        entity_input.clone(),
-                        Some(year),
-                        group.clone(),
                         Figure {
                             cell: &record.cells[column],
                             column: &table.headers[column],
@@ -117,7 +124,7 @@ pub(super) fn read_rows(
                         },
                         currency_cell,
                         marks.flags(record),
-                    )?);
+                    )?;
                 }
             }
         }
@@ -160,9 +167,11 @@ fn record_group<'r>(
     }
 }
 
-/// A long row's standard error from its margin cells, and the claim columns carried beside it.
-fn with_margins(
-    row: &mut CanonicalRow,
+/// A long row's standard error from its margin cells, and the claim columns carried beside it,
+/// set on the row just pushed.
+fn push_margins(
+    rows: &mut CanonicalRows,
+    value: Option<f64>,
     record: &table::TextRecord,
     table: &table::TextTable,
     plan: &RowPlan,
@@ -175,20 +184,31 @@ fn with_margins(
             .map(|&i| (table.headers[i].as_str(), &record.cells[i]))
             .collect(),
     };
-    row.se = margins::standard_error(
+    let mut flags = Vec::new();
+    let se = margins::standard_error(
         &plan.options.margins,
-        row.value,
+        value,
         &cells,
         multiplier.map(number::to_f64).unwrap_or(1.0),
         plan.file,
         record.line,
-        &mut row.flags,
+        &mut flags,
     )?;
-    row.extra = roles.reserved[margin_count..]
+    let extra: Vec<&str> = roles.reserved[margin_count..]
         .iter()
-        .map(|&i| record.cells[i].to_string())
+        .map(|&i| &record.cells[i])
         .collect();
+    rows.finish_last(se, &extra, flags);
     Ok(())
+}
+
+/// Where a row sits and what it is about: all of a row but its figure and currency.
+struct Place {
+    row_id: RowId,
+    line: usize,
+    entity_input: u32,
+    year: Option<i32>,
+    group: Option<u32>,
 }
 
 /// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a
@@ -267,17 +287,17 @@ impl RecordMarks {
         notes
     }
 
-    fn flags(&self, record: &table::TextRecord) -> Vec<String> {
+    fn flags(&self, record: &table::TextRecord) -> Vec<&'static str> {
         let mut out = Vec::new();
         if record.unbalanced_quote {
-            out.push(flags::UNBALANCED_QUOTE.into());
+            out.push(flags::UNBALANCED_QUOTE);
         }
         if self
             .footnotes
             .iter()
             .any(|&f| !record.cells[f].trim().is_empty())
         {
-            out.push(flags::FOOTNOTE.into());
+            out.push(flags::FOOTNOTE);
         }
         out
     }
@@ -323,27 +343,19 @@ struct RowReader<'a> {
     file: &'a str,
     options: &'a IngestOptions,
     currency_code: Option<&'a str>,
-    shared: std::cell::RefCell<SharedTexts>,
 }
 
 impl RowReader<'_> {
-    /// `text`, held once for all the rows that repeat it.
-    fn shared(&self, text: &str) -> std::sync::Arc<str> {
-        self.shared.borrow_mut().get(text)
-    }
-
-    #[allow(clippy::too_many_arguments)]
-    fn row(
+    /// Reads the figure and currency of a row and pushes it; gives the figure's value.
+    fn push_row(
         &self,
-        row_id: RowId,
-        line: usize,
-        entity_input: std::sync::Arc<str>,
-        year: Option<i32>,
-        group: Option<std::sync::Arc<str>>,
+        rows: &mut CanonicalRows,
+        place: Place,
         figure: Figure,
         currency_cell: Option<(&str, &str)>,
-        mut row_flags: Vec<String>,
-    ) -> Result<CanonicalRow> {
+        mut row_flags: Vec<&'static str>,
+    ) -> Result<Option<f64>> {
+        let line = place.line;
         let Figure {
             cell,
             column,
@@ -356,7 +368,7 @@ impl RowReader<'_> {
                 footnote,
             }) => {
                 if footnote {
-                    row_flags.push(flags::FOOTNOTE.into());
+                    row_flags.push(flags::FOOTNOTE);
                 }
                 match multiplier {
                     Some(m) => Some(number::to_f64(value.checked_mul(m).ok_or_else(|| {
@@ -371,12 +383,12 @@ impl RowReader<'_> {
                 }
             }
             Ok(Cell::Missing) => {
-                row_flags.push(flags::MISSING_VALUE.into());
+                row_flags.push(flags::MISSING_VALUE);
                 None
             }
             Err(e) if self.options.lenient => {
                 let _ = e;
-                row_flags.push(flags::UNPARSED.into());
+                row_flags.push(flags::UNPARSED);
                 None
             }
             Err(e) => {
@@ -396,29 +408,28 @@ impl RowReader<'_> {
         let currency = match currency_cell {
             Some((header, text)) if !text.trim().is_empty() => {
                 match checked_currency(text, Some((line, header)), self.file) {
-                    Ok(code) => Some(self.shared(&code)),
+                    Ok(code) => Some(rows.texts.place(&code)),
                     Err(_) if self.options.lenient => {
-                        row_flags.push(flags::UNKNOWN_CURRENCY.into());
+                        row_flags.push(flags::UNKNOWN_CURRENCY);
                         None
                     }
                     Err(e) => return Err(e),
                 }
             }
-            _ => self.currency_code.map(|code| self.shared(code)),
+            _ => self.currency_code.map(|code| rows.texts.place(code)),
         };
-        Ok(CanonicalRow {
-            row_id,
+        rows.push(RowParts {
+            row_id: place.row_id,
             line,
-            entity_input,
-            year,
-            group,
-            value_input: cell.to_string(),
+            entity_input: place.entity_input,
+            year: place.year,
+            group: place.group,
+            value_input: cell,
             value,
-            se: None,
-            extra: Vec::new(),
             currency,
             flags: row_flags,
-        })
+        });
+        Ok(value)
     }
 
     fn year(
@@ -426,16 +437,16 @@ impl RowReader<'_> {
         cell: &str,
         line: usize,
         column: &str,
-        row_flags: &mut Vec<String>,
+        row_flags: &mut Vec<&'static str>,
     ) -> Result<Option<i32>> {
         match layout::parse_year_cell(cell) {
             Ok(Some(year)) => Ok(Some(year)),
             Ok(None) => {
-                row_flags.push(flags::MISSING_YEAR.into());
+                row_flags.push(flags::MISSING_YEAR);
                 Ok(None)
             }
             Err(_) if self.options.lenient => {
-                row_flags.push(flags::UNPARSED_YEAR.into());
+                row_flags.push(flags::UNPARSED_YEAR);
                 Ok(None)
             }
             Err(text) => Err(Error::bad_input(
