@@ -375,6 +375,7 @@ fn canonical_frame(
         keys,
         any_base,
     } = row_facts(ingested, entities, bases, settings, start);
+    let keys_of_ranking = resolve::ranking_keys(&ingested.rows, entities);
     // The rows are taken out of `ingested` and each of their columns is dropped as soon as its
     // frame column exists, so that the next column reuses its memory rather than fresh pages.
     let mut rows = std::mem::take(&mut ingested.rows);
@@ -420,6 +421,8 @@ fn canonical_frame(
         (0..rows_in).map(|i| row_currency(&rows, i, entities.of(i))),
     ));
     rows.currency = Vec::new();
+    columns.push(Column::new("_series".into(), keys_of_ranking.series));
+    columns.push(Column::new("_partition".into(), keys_of_ranking.partition));
     columns.push(Column::new("_unit".into(), units));
     columns.push(Column::new("_basis".into(), basis_text));
     columns.push(Column::new("_flags_pre".into(), flags_pre));
@@ -537,10 +540,9 @@ pub(crate) fn with_ranks_and_flags(
     settings: &PipelineSettings,
     baseline_missing: bool,
 ) -> Result<LazyFrame> {
-    let entity = coalesce(&[col("entity_code"), col("entity_input")]);
-    let partition = [col("group"), col("year")];
-    let several = rank::several_series(&[entity, col("group"), col("year")])
-        .map_err(Error::engine("ranking"))?;
+    // One integer column each for (entity, group, year) and (group, year): `resolve::ranking_keys`.
+    let partition = [col("_partition")];
+    let several = rank::several_series(&[col("_series")]).map_err(Error::engine("ranking"))?;
     let mixed = rank::mixed_units(col("_unit"), col("_rank_eligible"), &partition)
         .map_err(Error::engine("ranking"))?;
     let ranks = rank::rank_columns(

@@ -8,6 +8,7 @@ use crate::entity::{Entity, EntityKind, Resolution, Resolver};
 use crate::error::{Error, Result, UnresolvedName};
 use crate::flags;
 use crate::ingest::Ingested;
+use polars::prelude::PlHashMap;
 
 /// The entity of every row, in input order: each distinct entity once, and per row its place
 /// among them (none for an unresolved name). The frame's entity columns are written from this
@@ -23,6 +24,63 @@ impl EntityColumns {
     pub fn of(&self, row: usize) -> Option<&Entity> {
         self.at[row].map(|i| &self.found[i as usize])
     }
+}
+
+/// What ranking groups rows by, as one number a row each. Polars groups several key columns by
+/// hashing their rows encoded as bytes: at 10M rows, 35% of the pages touched in the first 17 s
+/// were touched by that grouping (a page-fault profile, 2026-12-05); one integer column is
+/// grouped without the encoding.
+pub struct RankingKeys {
+    /// Rows share it exactly when they share their entity (the resolved code, else the text as
+    /// given), their group and their year (`rank::several_series`).
+    pub series: Vec<u64>,
+    /// Rows share it exactly when they share their group and their year: the rows ranked
+    /// together.
+    pub partition: Vec<u64>,
+}
+
+/// Each row's `RankingKeys`.
+pub fn ranking_keys<'a>(
+    rows: &'a crate::ingest::CanonicalRows,
+    entities: &'a EntityColumns,
+) -> RankingKeys {
+    // The entity's text, numbered once for each distinct one: a resolved entity's code, or an
+    // unresolved row's text (the same number when the two texts are equal).
+    let mut numbers: PlHashMap<&'a str, u32> = PlHashMap::default();
+    let mut number_of = |text: &'a str| -> u32 {
+        let next = numbers.len() as u32;
+        *numbers.entry(text).or_insert(next)
+    };
+    let found: Vec<u32> = entities
+        .found
+        .iter()
+        .map(|e| number_of(e.code.as_str()))
+        .collect();
+    let texts: Vec<u32> = (0..rows.texts.len() as u32)
+        .map(|t| number_of(rows.texts.get(t)))
+        .collect();
+    let mut pairs: PlHashMap<(u32, u32), u64> = PlHashMap::default();
+    let n = rows.line.len();
+    let mut keys = RankingKeys {
+        series: Vec::with_capacity(n),
+        partition: Vec::with_capacity(n),
+    };
+    for i in 0..n {
+        let entity = match entities.at[i] {
+            Some(at) => found[at as usize],
+            None => texts[rows.entity_input[i] as usize],
+        };
+        // A group is a place among the distinct texts (equal texts, equal places); none is
+        // a place no text has.
+        let group = rows.group[i].unwrap_or(u32::MAX);
+        let next = pairs.len() as u64;
+        let pair = *pairs.entry((entity, group)).or_insert(next);
+        // Any i32 year in the low 32 bits; bit 32 alone for a row without a year.
+        let year = rows.year[i].map_or(1 << 32, |y| u64::from(y as u32));
+        keys.series.push(pair << 33 | year);
+        keys.partition.push(u64::from(group) << 33 | year);
+    }
+    keys
 }
 
 /// How a figure relates to the reference tables' currencies.
@@ -189,5 +247,41 @@ mod tests {
             InputBasis::Mismatch
         );
         assert_eq!(input_basis(Some("XQA"), None, "USD"), InputBasis::Local);
+    }
+
+    /// Which of `rows` share a key, as the index of the first row with the same key.
+    fn classes(keys: &[u64]) -> Vec<usize> {
+        keys.iter()
+            .map(|k| keys.iter().position(|other| other == k).unwrap())
+            .collect()
+    }
+
+    #[test]
+    fn ranking_keys_are_equal_exactly_when_entity_group_and_year_are() {
+        // FRA is France's ISO 3166-1 alpha-3 code: the same entity as "France".
+        let text = "country,year,item,value\n\
+            France,2020,a,1\nFRA,2020,a,2\nFrance,2021,a,3\nFrance,2020,b,4\n\
+            France,2020,,5\nNowhere,2020,a,6\nNowhere,2020,a,7\nChile,,a,8\nChile,,a,9\n";
+        let options = crate::ingest::IngestOptions {
+            roles: crate::ingest::layout::RoleFlags {
+                group: Some("item".into()),
+                ..Default::default()
+            },
+            ..Default::default()
+        };
+        let resolver = Resolver::builtin();
+        let mut ingested =
+            crate::ingest::ingest(text.as_bytes(), "t.csv", &options, Some(&resolver)).unwrap();
+        let options = ResolveOptions {
+            allow_unresolved: true,
+            rank_aggregates: false,
+            base_currency: "USD",
+        };
+        let (entities, _) = resolve_rows(&mut ingested, &resolver, &options).unwrap();
+        let keys = ranking_keys(&ingested.rows, &entities);
+        // Rows 0 and 1 are one entity; 5 and 6 one unresolved text; 7 and 8 share a missing year.
+        assert_eq!(classes(&keys.series), vec![0, 0, 2, 3, 4, 5, 5, 7, 7]);
+        // Ranked together: group a in 2020 (whatever the entity), and group a without a year.
+        assert_eq!(classes(&keys.partition), vec![0, 0, 2, 3, 4, 0, 0, 7, 7]);
     }
 }
