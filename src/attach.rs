@@ -2,14 +2,14 @@
 //! steps asked for (`FactorNeed`), each with the year it came from, and the flags that say which
 //! factor was missing or taken from a neighbouring year.
 //!
-//! The lookup is done once per distinct key, not per row, and the result is a small frame that
-//! the pipeline left-joins onto the (possibly large) input frame.
+//! The lookup is done once per distinct key, not per row, and its small columns are gathered
+//! onto the (possibly large) input frame by each row's key.
 
 use crate::adjust::{At, FactorNeed, Whose};
 use crate::error::{Error, Result};
 use crate::reference::References;
 use polars::prelude::*;
-use std::collections::{BTreeSet, HashSet};
+use std::collections::BTreeSet;
 
 pub struct AttachSettings {
     pub base_year: Option<i32>,
@@ -33,30 +33,20 @@ pub fn base_currency_home(currency: &str) -> Option<&'static str> {
     }
 }
 
-/// Builds the lookup frame: `entity_code`, `year`, then `<prefix>_used`, `<prefix>_year` for
-/// each need, then `_factor_flags` (null when nothing to say). A need in `optional` (the
-/// baseline's, or a derived column's) whose table the catalog lacks gets empty columns instead
-/// of stopping the run; `missing_tables` says which.
+/// The factors of every entity-year in `keys`, in that order: for each need `<prefix>_used`,
+/// `<prefix>_year` (and `<prefix>_se` where the table states margins), and each key's flags
+/// joined with `;` (none when there is nothing to say). A need in `optional` (the baseline's,
+/// or a derived column's) whose table the catalog lacks gets empty columns instead of
+/// stopping the run.
 pub fn lookup_frame(
-    keys: &HashSet<(String, i32)>,
+    keys: &[(&str, i32)],
     needs: &BTreeSet<FactorNeed>,
     optional: &BTreeSet<FactorNeed>,
     references: Option<&References>,
     settings: &AttachSettings,
-) -> Result<DataFrame> {
-    let mut keys: Vec<&(String, i32)> = keys.iter().collect();
-    keys.sort();
+) -> Result<Lookup> {
     let n = keys.len();
-    let mut columns: Vec<Column> = vec![
-        Column::new(
-            "entity_code".into(),
-            keys.iter().map(|(c, _)| c.as_str()).collect::<Vec<_>>(),
-        ),
-        Column::new(
-            "year".into(),
-            keys.iter().map(|(_, y)| *y).collect::<Vec<i32>>(),
-        ),
-    ];
+    let mut columns: Vec<Column> = Vec::new();
     let mut flags: Vec<Vec<String>> = vec![Vec::new(); n];
     for need in needs {
         if optional.contains(need) && references.and_then(|r| r.get(need.kind)).is_none() {
@@ -87,23 +77,22 @@ pub fn lookup_frame(
                 )
             })?),
         };
-        columns.extend(need_columns(need, table, home, &keys, settings, &mut flags));
+        columns.extend(need_columns(need, table, home, keys, settings, &mut flags));
     }
-    let joined: Vec<Option<String>> = flags
+    let flags = flags
         .into_iter()
-        .map(|f| {
-            if f.is_empty() {
-                None
-            } else {
-                Some(f.join(";"))
-            }
-        })
+        .map(|f| (!f.is_empty()).then(|| f.join(";")))
         .collect();
-    columns.push(Column::new("_factor_flags".into(), joined));
-    DataFrame::new(n, columns).map_err(Error::engine("building the factor lookup"))
+    Ok(Lookup { columns, flags })
 }
 
-/// One need's columns over the sorted `keys`: the factor used, its year and (where the table
+/// The factors of a list of entity-years, one row each (see `lookup_frame`).
+pub struct Lookup {
+    pub columns: Vec<Column>,
+    pub flags: Vec<Option<String>>,
+}
+
+/// One need's columns over `keys`: the factor used, its year and (where the table
 /// states margins) its standard error; a flag in `flags` for each key whose factor is missing
 /// or from another year. `home` is the entity whose factors every key takes (the base
 /// currency's home), or None for each key's own.
@@ -111,7 +100,7 @@ fn need_columns(
     need: &FactorNeed,
     table: &crate::reference::RefTable,
     home: Option<&str>,
-    keys: &[&(String, i32)],
+    keys: &[(&str, i32)],
     settings: &AttachSettings,
     flags: &mut [Vec<String>],
 ) -> Vec<Column> {
@@ -129,7 +118,7 @@ fn need_columns(
             At::RowYear => *row_year + offset,
             At::BaseYear => settings.base_year.unwrap_or(*row_year),
         };
-        let entity = home.unwrap_or(code.as_str());
+        let entity = home.unwrap_or(code);
         match table.lookup(entity, year, settings.nearest_year) {
             Some(factor) => {
                 if factor.year != year {

@@ -4,7 +4,7 @@
 //! `<kind>_year_differs:YYYY`.
 
 use crate::error::{Error, Result};
-use polars::prelude::DataFrame;
+use polars::prelude::{Column, DataFrame, IntoColumn, NewChunkedArray, StringChunked};
 use std::collections::BTreeMap;
 
 pub const FOOTNOTE: &str = "footnote";
@@ -34,6 +34,7 @@ pub struct FlagCounts {
 }
 
 impl FlagCounts {
+    /// The counts of a text column of flags (`flags`, as written).
     pub fn of(frame: &DataFrame) -> Result<FlagCounts> {
         let flag_column = frame
             .column("flags")
@@ -41,19 +42,24 @@ impl FlagCounts {
             .map_err(Error::engine("counting flags"))?;
         let mut counts = FlagCounts::default();
         for value in flag_column.iter().flatten() {
-            if value.is_empty() {
-                continue;
-            }
-            counts.rows_flagged += 1;
-            for flag in value.split(';') {
-                let key = match flag.split_once(':') {
-                    Some((name, _)) => format!("{name}:YYYY"),
-                    None => flag.to_string(),
-                };
-                *counts.by_flag.entry(key).or_default() += 1;
-            }
+            counts.add_text(value, 1);
         }
         Ok(counts)
+    }
+
+    /// Counts one row's flags (`text`, as written) `rows` times.
+    fn add_text(&mut self, text: &str, rows: usize) {
+        if text.is_empty() || rows == 0 {
+            return;
+        }
+        self.rows_flagged += rows;
+        for flag in text.split(';') {
+            let key = match flag.split_once(':') {
+                Some((name, _)) => format!("{name}:YYYY"),
+                None => flag.to_string(),
+            };
+            *self.by_flag.entry(key).or_default() += rows;
+        }
     }
 
     pub fn add(&mut self, other: FlagCounts) {
@@ -61,6 +67,160 @@ impl FlagCounts {
         for (flag, n) in other.by_flag {
             *self.by_flag.entry(flag).or_default() += n;
         }
+    }
+}
+
+/// The flags raised once the ranks are known, in the order they are written after the
+/// row's earlier flags.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct LateFlags {
+    pub no_baseline: bool,
+    pub several_series: bool,
+    pub mixed_currency: bool,
+    pub not_ranked: bool,
+}
+
+impl LateFlags {
+    /// The four flags as a number from 0 to 15.
+    fn bits(self) -> usize {
+        usize::from(self.no_baseline)
+            | usize::from(self.several_series) << 1
+            | usize::from(self.mixed_currency) << 2
+            | usize::from(self.not_ranked) << 3
+    }
+
+    fn names(self) -> impl Iterator<Item = &'static str> {
+        [
+            (self.no_baseline, NO_BASELINE),
+            (self.several_series, SEVERAL_SERIES),
+            (self.mixed_currency, MIXED_CURRENCY),
+            (self.not_ranked, NOT_RANKED),
+        ]
+        .into_iter()
+        .filter_map(|(raised, name)| raised.then_some(name))
+    }
+}
+
+/// Every row's flags as a place among the distinct flag texts: rows share few combinations,
+/// so the column costs four bytes a row, and each text is composed and counted once. The text
+/// of a row is its earlier flags (reading, entity, currency, factors), then its late ones,
+/// joined with `;` (empty when none).
+#[derive(Debug, Clone, Default)]
+pub struct FlagColumn {
+    ids: Vec<u32>,
+    texts: Vec<String>,
+}
+
+impl FlagColumn {
+    pub fn len(&self) -> usize {
+        self.ids.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.ids.is_empty()
+    }
+
+    /// The flags of row `row`, as written.
+    pub fn text(&self, row: usize) -> &str {
+        &self.texts[self.ids[row] as usize]
+    }
+
+    /// The rows flagged and the flags by kind.
+    pub fn counts(&self) -> FlagCounts {
+        let mut rows = vec![0usize; self.texts.len()];
+        for &id in &self.ids {
+            rows[id as usize] += 1;
+        }
+        let mut counts = FlagCounts::default();
+        for (text, n) in self.texts.iter().zip(rows) {
+            counts.add_text(text, n);
+        }
+        counts
+    }
+
+    /// The flags of rows whose early flags are held as text (a streamed piece's), with the
+    /// late flags `late` gives for each row.
+    pub fn of_texts<'a>(
+        early: impl ExactSizeIterator<Item = Option<&'a str>>,
+        late: impl Fn(usize) -> LateFlags,
+    ) -> FlagColumn {
+        let mut builder = FlagColumnBuilder::new(early.len(), 0);
+        for (row, text) in early.enumerate() {
+            builder.push_own(text.into_iter(), late(row));
+        }
+        builder.finish()
+    }
+
+    /// The column as text, named `name`.
+    pub fn to_column(&self, name: &str) -> Column {
+        StringChunked::from_iter_values(name.into(), (0..self.len()).map(|i| self.text(i)))
+            .into_column()
+    }
+}
+
+/// Builds a `FlagColumn` row by row. A row whose earlier flags are one of a few shared texts
+/// (a factor key's flags) is placed by that text's number, without composing its text again.
+pub struct FlagColumnBuilder {
+    column: FlagColumn,
+    places: std::collections::HashMap<String, u32>,
+    /// For each shared text (and none, at 0) and each set of late flags, the place + 1.
+    shared: Vec<u32>,
+    scratch: String,
+}
+
+impl FlagColumnBuilder {
+    /// A builder for `rows` rows whose shared earlier texts are numbered below `shared`.
+    pub fn new(rows: usize, shared: usize) -> FlagColumnBuilder {
+        FlagColumnBuilder {
+            column: FlagColumn {
+                ids: Vec::with_capacity(rows),
+                texts: Vec::new(),
+            },
+            places: Default::default(),
+            shared: vec![0; (shared + 1) * 16],
+            scratch: String::new(),
+        }
+    }
+
+    /// A row whose earlier flags are shared text number `at` (`text`), or none.
+    pub fn push_shared(&mut self, at: Option<u32>, text: Option<&str>, late: LateFlags) {
+        let slot = at.map_or(0, |a| a as usize + 1) * 16 + late.bits();
+        match self.shared[slot] {
+            0 => {
+                let id = self.push_own(text.into_iter(), late);
+                self.shared[slot] = id + 1;
+            }
+            known => self.column.ids.push(known - 1),
+        }
+    }
+
+    /// A row with earlier flags of its own (each part a flag, or several joined with `;`);
+    /// returns its place.
+    pub fn push_own<'a>(&mut self, earlier: impl Iterator<Item = &'a str>, late: LateFlags) -> u32 {
+        self.scratch.clear();
+        let late_names = late.names().map(|name| -> &'a str { name });
+        for part in earlier.chain(late_names).filter(|p| !p.is_empty()) {
+            if !self.scratch.is_empty() {
+                self.scratch.push(';');
+            }
+            self.scratch.push_str(part);
+        }
+        let id = match self.places.get(self.scratch.as_str()) {
+            Some(&id) => id,
+            None => {
+                // Far fewer distinct texts than rows.
+                let id = u32::try_from(self.column.texts.len()).unwrap_or(u32::MAX);
+                self.column.texts.push(self.scratch.clone());
+                self.places.insert(self.scratch.clone(), id);
+                id
+            }
+        };
+        self.column.ids.push(id);
+        id
+    }
+
+    pub fn finish(self) -> FlagColumn {
+        self.column
     }
 }
 

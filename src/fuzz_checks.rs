@@ -83,7 +83,7 @@ pub fn ingest_adjust(data: &[u8]) {
     };
     let rows_in = ingested.rows.len();
     if let Ok(out) = run_adjust(data, "fuzz.csv", settings, resolver, Some(references)) {
-        assert_eq!(out.frame.height(), rows_in);
+        assert_eq!(out.table.height(), rows_in);
         assert_eq!(out.summary.rows_in, out.summary.rows_out);
     }
 }

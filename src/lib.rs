@@ -31,14 +31,17 @@ pub mod cells;
 pub mod cleanup;
 pub mod cli;
 pub mod cmd;
+pub mod csv_writer;
 pub mod entity;
 pub mod error;
 pub mod flags;
 pub mod format;
+pub mod frame;
 #[doc(hidden)]
 pub mod fuzz_checks;
 pub mod ingest;
 pub mod model;
+pub mod output;
 pub mod pipeline;
 pub mod plan;
 pub mod rank;

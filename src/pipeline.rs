@@ -6,24 +6,24 @@
 //! adjusted and ranked by the engine, not row by row.
 
 use crate::adjust::{self, Step, Unit};
-use crate::attach::{self, AttachSettings};
-use crate::entity::{Entity, Resolver};
+use crate::entity::Resolver;
 use crate::error::{Error, Result};
-use crate::flags::{self, FlagCounts};
+use crate::flags::{self, FlagCounts, LateFlags};
+use crate::frame::{self, FrameStart};
 use crate::ingest;
 pub use crate::model::{PipelineSettings, RunSummary};
+use crate::output::{OutputTable, RowTexts, TextKind};
 use crate::rank;
 use crate::reference::References;
-use crate::resolve::{self, InputBasis, ResolveOptions};
+use crate::resolve::{self, ResolveOptions};
 use crate::tracks::{self, TrackPlan, TrackStart};
 use crate::uncertainty::ranking::{self, IntervalSettings};
 use crate::units::TrackUnit;
 use polars::prelude::*;
-use std::collections::HashSet;
 
 /// The result of a run: the output frame and what the summary reports.
 pub struct AdjustOutput {
-    pub frame: DataFrame,
+    pub table: OutputTable,
     pub summary: RunSummary,
 }
 
@@ -54,34 +54,47 @@ pub fn run_adjust(
     resolver: &Resolver,
     references: Option<&References>,
 ) -> Result<AdjustOutput> {
-    let prepared = prepare(bytes, input_label, settings, resolver, references, 0)?;
+    let prepared = prepare(bytes, input_label, settings, resolver, references, None)?;
     let rows_in = prepared.rows_in;
     let baseline_missing = prepared.baseline_missing();
-    let missing_tables = prepared.missing_tables.clone();
-    let lf = with_ranks_and_flags(prepared.lf, settings, baseline_missing)?;
+    let lf = with_ranks(prepared.lf, settings, baseline_missing)?;
     let order = output_columns(&prepared.head_columns, settings);
-    let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
-    let frame = lf
+    // The frame holds every output column but the texts and the flags, which are rendered
+    // from the rows (`output::RowTexts`); the two columns the late flags need come along.
+    let mut selection: Vec<Expr> = order
+        .iter()
+        .filter(|c| TextKind::of(c).is_none() && *c != "flags")
+        .map(|c| col(c.as_str()))
+        .collect();
+    selection.extend([col("_several"), col("_mixed")]);
+    let mut frame = lf
         .select(selection)
         .collect()
         .map_err(Error::engine("adjusting and ranking"))?;
-
-    let frame = match &settings.intervals {
-        Some(intervals) => finish_intervals(frame, intervals)?,
-        None => frame,
-    };
     if frame.height() != rows_in {
         return Err(Error::engine("checking that no row was lost")(polars_err!(
             ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
         )));
     }
-    let counts = FlagCounts::of(&frame)?;
+    let flags =
+        late_flags(&frame, baseline_missing).map(|late| prepared.texts.flags(|row| late[row]))?;
+    for private in ["_several", "_mixed"] {
+        frame
+            .drop_in_place(private)
+            .map_err(Error::engine("adjusting and ranking"))?;
+    }
+    let table = OutputTable::compact(frame, prepared.texts, Some(flags), &order);
+    let table = match &settings.intervals {
+        Some(intervals) => OutputTable::plain(finish_intervals(table.text_frame()?, intervals)?),
+        None => table,
+    };
+    let counts = table.flag_counts()?;
     let mut summary = summarize(
         counts,
         &prepared.ingested.file,
         prepared.ingested.notes.clone(),
         rows_in,
-        frame.height(),
+        table.height(),
         settings,
         &prepared.baseline_steps,
         prepared.deflator_used,
@@ -89,20 +102,47 @@ pub fn run_adjust(
     );
     summary
         .warnings
-        .extend(missing_tables_warning(&missing_tables));
+        .extend(missing_tables_warning(&prepared.missing_tables));
     summary
         .warnings
         .splice(0..0, prepared.ingested.warnings.iter().cloned());
-    Ok(AdjustOutput { frame, summary })
+    Ok(AdjustOutput { table, summary })
+}
+
+/// Each row's late flags, from the ranked frame's `_several`, `_mixed` and `rank_adjusted`.
+pub(crate) fn late_flags(frame: &DataFrame, baseline_missing: bool) -> Result<Vec<LateFlags>> {
+    let bools = |name: &str| {
+        frame
+            .column(name)
+            .and_then(|c| c.bool().cloned())
+            .map_err(Error::engine("flagging the rows"))
+    };
+    let (several, mixed) = (bools("_several")?, bools("_mixed")?);
+    let ranked = frame
+        .column("rank_adjusted")
+        .map_err(Error::engine("flagging the rows"))?
+        .is_not_null();
+    Ok(several
+        .iter()
+        .zip(mixed.iter())
+        .zip(ranked.iter())
+        .map(|((several, mixed), ranked)| LateFlags {
+            no_baseline: baseline_missing,
+            several_series: several.unwrap_or(false),
+            mixed_currency: mixed.unwrap_or(false),
+            not_ranked: !ranked.unwrap_or(false),
+        })
+        .collect())
 }
 
 /// The per-row part of a run, before ranks: ingest, entities, the canonical frame, factors
-/// joined once per entity-year, and both tracks, as one lazy frame. `_ord` numbers the rows
-/// from `ord_offset` (a piece of a larger file starts where the previous piece ended).
+/// gathered once per entity-year, and both tracks, as one lazy frame; the rows' texts set
+/// aside. With `ord_offset` (a piece of a larger file), `_ord` numbers the rows from it.
 pub(crate) struct Prepared {
     pub lf: LazyFrame,
-    /// What ingest decided (its rows were taken out and dropped as the frame was built).
+    /// What ingest decided (its rows were taken out: their texts are in `texts`).
     pub ingested: ingest::Ingested,
+    pub texts: RowTexts,
     pub rows_in: usize,
     /// The output columns up to `value_adjusted` (and the margin columns), in order.
     pub head_columns: Vec<String>,
@@ -127,7 +167,7 @@ pub(crate) fn prepare(
     settings: &PipelineSettings,
     resolver: &Resolver,
     references: Option<&References>,
-    ord_offset: u64,
+    ord_offset: Option<u64>,
 ) -> Result<Prepared> {
     let mut ingested = ingest::ingest(bytes, input_label, &settings.ingest, Some(resolver))?;
     let base_currency = settings.step_settings.base_currency.clone();
@@ -144,12 +184,7 @@ pub(crate) fn prepare(
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
     let rows_in = ingested.rows.len();
-    let CanonicalFrame {
-        frame,
-        carried_names,
-        keys,
-        any_base,
-    } = canonical_frame(
+    let (canonical, rows) = frame::canonical_frame(
         &mut ingested,
         &entities,
         &bases,
@@ -160,6 +195,7 @@ pub(crate) fn prepare(
             whole_table_in_base,
         },
     )?;
+    let (any_base, carried_names) = (canonical.any_base, canonical.carried_names.clone());
 
     // Both tracks, built as expressions; the factors they name are collected in `needs`.
     let start_unit = if whole_table_in_base {
@@ -185,8 +221,10 @@ pub(crate) fn prepare(
         },
     )?;
 
-    let (mut lf, missing_tables) =
-        join_factors(frame, &keys, &needs, &optional, references, settings)?;
+    let (frame, texts, missing_tables) = frame::attach_factors(
+        canonical, rows, entities, &needs, &optional, references, settings,
+    )?;
+    let mut lf = frame.lazy();
     for batch in batches {
         lf = lf.with_columns(batch);
     }
@@ -200,6 +238,7 @@ pub(crate) fn prepare(
     Ok(Prepared {
         lf,
         ingested,
+        texts,
         rows_in,
         head_columns: head,
         baseline_steps,
@@ -207,270 +246,6 @@ pub(crate) fn prepare(
         any_base,
         missing_tables,
     })
-}
-
-/// The canonical frame with its factors, joined once per distinct entity and year, in input
-/// order; and the kinds of table that optional needs lack (see `Prepared::missing_tables`).
-fn join_factors(
-    frame: DataFrame,
-    keys: &HashSet<(String, i32)>,
-    needs: &std::collections::BTreeSet<adjust::FactorNeed>,
-    optional: &std::collections::BTreeSet<adjust::FactorNeed>,
-    references: Option<&References>,
-    settings: &PipelineSettings,
-) -> Result<(LazyFrame, Vec<crate::reference::Kind>)> {
-    let missing_tables: std::collections::BTreeSet<crate::reference::Kind> = optional
-        .iter()
-        .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
-        .map(|need| need.kind)
-        .collect();
-    let lookup = attach::lookup_frame(
-        keys,
-        needs,
-        optional,
-        references,
-        &AttachSettings {
-            base_year: settings.step_settings.base_year,
-            nearest_year: settings.nearest_year,
-            base_currency: settings.step_settings.base_currency.clone(),
-            year_offset: settings.factor_year_offset,
-        },
-    )?;
-    let lf = frame.lazy().join(
-        lookup.lazy(),
-        [col("entity_code"), col("year")],
-        [col("entity_code"), col("year")],
-        // Rows stay in input order (no sort of every column afterwards).
-        JoinArgs {
-            maintain_order: MaintainOrderJoin::Left,
-            ..JoinArgs::new(JoinType::Left)
-        },
-    );
-    Ok((lf, missing_tables.into_iter().collect()))
-}
-
-/// The canonical frame, one row per figure: what ingest read, the entity, the currency basis,
-/// the unit for the mixed-currency rule, the flags so far, and the carried text columns.
-struct CanonicalFrame {
-    frame: DataFrame,
-    carried_names: Vec<String>,
-    /// The entity-years the rows need factors for.
-    keys: HashSet<(String, i32)>,
-    /// Whether any row is a figure in the base currency.
-    any_base: bool,
-}
-
-/// Where the frame's rows start (`_ord`) and how their currencies are read.
-#[derive(Clone, Copy)]
-struct FrameStart {
-    ord_offset: u64,
-    check_currency: bool,
-    whole_table_in_base: bool,
-}
-
-/// What the frame takes from each row besides its text: the flags so far, the currency basis,
-/// whether it may be ranked, its unit for the mixed-currency rule; and the entity-years needed.
-struct RowFacts {
-    flags_pre: Vec<Option<String>>,
-    basis_text: Vec<&'static str>,
-    eligible: Vec<bool>,
-    units: Vec<Option<String>>,
-    keys: HashSet<(String, i32)>,
-    any_base: bool,
-}
-
-fn row_facts(
-    ingested: &mut ingest::Ingested,
-    entities: &resolve::EntityColumns,
-    bases: &[InputBasis],
-    settings: &PipelineSettings,
-    start: &FrameStart,
-) -> RowFacts {
-    let rows_in = ingested.rows.len();
-    let (check_currency, whole_table_in_base) = (start.check_currency, start.whole_table_in_base);
-    let mut flags_pre: Vec<Option<String>> = Vec::with_capacity(rows_in);
-    let mut basis_text: Vec<&'static str> = Vec::with_capacity(rows_in);
-    let mut eligible: Vec<bool> = Vec::with_capacity(rows_in);
-    let mut units: Vec<Option<String>> = Vec::with_capacity(rows_in);
-    let converts = converts_currency(&settings.steps) || figures_are_not_money(settings);
-    // The entity-years the rows need factors for, by the entity's place in `entities.found`.
-    let mut entity_years: PlHashSet<(u32, i32)> = PlHashSet::default();
-    let mut any_base = false;
-    let rows = &mut ingested.rows;
-    for (i, &row_basis) in bases.iter().enumerate().take(rows_in) {
-        let basis = if whole_table_in_base || !check_currency {
-            InputBasis::Local
-        } else {
-            row_basis
-        };
-        if basis == InputBasis::Mismatch {
-            rows.flag(i, flags::CURRENCY_MISMATCH);
-        }
-        any_base |= basis == InputBasis::Base;
-        basis_text.push(basis.as_str());
-        let row_flags = rows.flags(i);
-        flags_pre.push(if row_flags.is_empty() {
-            None
-        } else {
-            Some(row_flags.join(";"))
-        });
-        let entity = entities.of(i);
-        let kind = entity.map(|e| e.kind.as_str());
-        eligible.push(kind.is_some() && (kind != Some("aggregate") || settings.rank_aggregates));
-        // The unit the adjusted value ends in, for the mixed-currency rule: one common unit
-        // when a step converts currencies (or makes a ratio); else the figure's currency, or,
-        // for an entity whose currency is unknown, a unit of its own.
-        units.push(if converts {
-            None
-        } else {
-            Some(
-                row_currency(rows, i, entity)
-                    .map(str::to_string)
-                    .or_else(|| entity.map(|e| format!("units of {}", e.code)))
-                    .unwrap_or_default(),
-            )
-        });
-        if let (Some(at), Some(year)) = (entities.at[i], rows.year[i]) {
-            entity_years.insert((at, year));
-        }
-    }
-    let keys: HashSet<(String, i32)> = entity_years
-        .into_iter()
-        .map(|(at, year)| (entities.found[at as usize].code.clone(), year))
-        .collect();
-    RowFacts {
-        flags_pre,
-        basis_text,
-        eligible,
-        units,
-        keys,
-        any_base,
-    }
-}
-
-/// The currency a row's figure is in: the one it states, else its entity's.
-fn row_currency<'a>(
-    rows: &'a ingest::CanonicalRows,
-    at: usize,
-    entity: Option<&'a Entity>,
-) -> Option<&'a str> {
-    rows.currency_text(at)
-        .or_else(|| entity.and_then(|e| e.currency.as_deref()))
-}
-
-fn canonical_frame(
-    ingested: &mut ingest::Ingested,
-    entities: &resolve::EntityColumns,
-    bases: &[InputBasis],
-    settings: &PipelineSettings,
-    start: &FrameStart,
-) -> Result<CanonicalFrame> {
-    let ord_offset = start.ord_offset;
-    let rows_in = ingested.rows.len();
-    let RowFacts {
-        flags_pre,
-        basis_text,
-        eligible,
-        units,
-        keys,
-        any_base,
-    } = row_facts(ingested, entities, bases, settings, start);
-    let keys_of_ranking = resolve::ranking_keys(&ingested.rows, entities);
-    // The rows are taken out of `ingested` and each of their columns is dropped as soon as its
-    // frame column exists, so that the next column reuses its memory rather than fresh pages.
-    let mut rows = std::mem::take(&mut ingested.rows);
-    // Each column is built straight from the rows, without a vector of cells in between: at
-    // 10M rows each such vector was 160 MB of fresh memory, faulted in and freed again.
-    let mut columns = vec![
-        Column::new(
-            "_ord".into(),
-            (ord_offset..ord_offset + rows_in as u64).collect::<Vec<u64>>(),
-        ),
-        row_id_column(&rows),
-    ];
-    rows.row_id = Vec::new();
-    columns.push(text(
-        "entity_input",
-        rows.entity_input.iter().map(|&t| rows.texts.get(t)),
-    ));
-    rows.entity_input = Vec::new();
-    // A text column of each row's entity (null where the name did not resolve).
-    let entity_column = |name: &str, field: fn(&Entity) -> &str| {
-        optional_text(name, (0..rows_in).map(|i| entities.of(i).map(field)))
-    };
-    columns.push(entity_column("entity_code", |e| &e.code));
-    columns.push(entity_column("entity_name", |e| &e.name));
-    columns.push(entity_column("entity_kind", |e| e.kind.as_str()));
-    columns.push(
-        Int32Chunked::from_iter_options("year".into(), rows.year.iter().copied()).into_column(),
-    );
-    rows.year = Vec::new();
-    columns.push(optional_text(
-        "group",
-        (0..rows_in).map(|i| rows.group_text(i)),
-    ));
-    rows.group = Vec::new();
-    columns.push(text("value_input", rows.value_input.iter()));
-    rows.value_input = ingest::TextColumn::default();
-    columns.push(
-        Float64Chunked::from_iter_options("value".into(), rows.value.iter().copied()).into_column(),
-    );
-    rows.value = Vec::new();
-    columns.push(optional_text(
-        "currency",
-        (0..rows_in).map(|i| row_currency(&rows, i, entities.of(i))),
-    ));
-    rows.currency = Vec::new();
-    columns.push(Column::new("_series".into(), keys_of_ranking.series));
-    columns.push(Column::new("_partition".into(), keys_of_ranking.partition));
-    columns.push(Column::new("_unit".into(), units));
-    columns.push(Column::new("_basis".into(), basis_text));
-    columns.push(Column::new("_flags_pre".into(), flags_pre));
-    columns.push(Column::new("_rank_eligible".into(), eligible));
-    columns.push(
-        Float64Chunked::from_iter_options("_se".into(), (0..rows_in).map(|i| rows.se(i)))
-            .into_column(),
-    );
-    let frame =
-        DataFrame::new(rows_in, columns).map_err(Error::engine("building the input frame"))?;
-    // Columns carried as text for the audit (claimed figures, notes), with each row's line.
-    let carried = carried_columns(&rows, settings.ingest.extra_columns.len());
-    let carried_names: Vec<String> = carried.iter().map(|c| c.name().to_string()).collect();
-    let mut frame = frame;
-    for column in carried {
-        frame
-            .with_column(column)
-            .map_err(Error::engine("building the input frame"))?;
-    }
-    Ok(CanonicalFrame {
-        frame,
-        carried_names,
-        keys,
-        any_base,
-    })
-}
-
-/// The `row_id` column, each id written into one reused buffer (no string kept per row).
-fn row_id_column(rows: &ingest::CanonicalRows) -> Column {
-    use std::fmt::Write;
-    let mut builder = StringChunkedBuilder::new("row_id".into(), rows.len());
-    let mut id = String::new();
-    for row_id in &rows.row_id {
-        id.clear();
-        let _ = write!(id, "{row_id}");
-        builder.append_value(&id);
-    }
-    builder.finish().into_column()
-}
-
-/// A text column from its cells, built in place.
-fn text<'a>(name: &str, cells: impl Iterator<Item = &'a str>) -> Column {
-    StringChunked::from_iter_values(name.into(), cells).into_column()
-}
-
-/// A text column with missing cells, built in place.
-fn optional_text<'a>(name: &str, cells: impl Iterator<Item = Option<&'a str>>) -> Column {
-    StringChunked::from_iter_options(name.into(), cells).into_column()
 }
 
 /// The output columns up to `value_adjusted` (and the margin columns), then the carried ones,
@@ -515,34 +290,16 @@ fn head_columns(
     head
 }
 
-/// `_line` and `_extra_0`, `_extra_1`, ...: the rows' lines and the text of
-/// `IngestOptions::extra_columns` (none when no extra column is asked for).
-fn carried_columns(rows: &ingest::CanonicalRows, extras: usize) -> Vec<Column> {
-    if extras == 0 {
-        return Vec::new();
-    }
-    let mut columns = vec![Column::new(
-        "_line".into(),
-        rows.line.iter().map(|&l| l as u64).collect::<Vec<u64>>(),
-    )];
-    for i in 0..extras {
-        columns.push(text(
-            &format!("_extra_{i}"),
-            (0..rows.line.len()).map(|at| rows.extra(at, i)),
-        ));
-    }
-    columns
-}
-
-/// Ranks per group and year, the shift, and the flags column.
-pub(crate) fn with_ranks_and_flags(
+/// Ranks per group and year, the shift, and the two late flags that come from the ranking
+/// groups (`_several`, `_mixed`).
+pub(crate) fn with_ranks(
     lf: LazyFrame,
     settings: &PipelineSettings,
     baseline_missing: bool,
 ) -> Result<LazyFrame> {
-    // One integer column each for (entity, group, year) and (group, year): `resolve::ranking_keys`.
+    // One integer column for (group, year), and whether each row shares its series and year
+    // with another: `resolve::ranking_keys`.
     let partition = [col("_partition")];
-    let several = rank::several_series(&[col("_series")]).map_err(Error::engine("ranking"))?;
     let mixed = rank::mixed_units(col("_unit"), col("_rank_eligible"), &partition)
         .map_err(Error::engine("ranking"))?;
     let ranks = rank::rank_columns(
@@ -554,44 +311,10 @@ pub(crate) fn with_ranks_and_flags(
         baseline_missing,
     )
     .map_err(Error::engine("ranking"))?;
-    Ok(with_flags(
-        lf.with_columns([several, mixed]).with_columns(ranks),
-        baseline_missing,
-    ))
-}
-
-/// The shift and the flags column, once `rank_baseline` and `rank_adjusted` are there.
-pub(crate) fn with_flags(lf: LazyFrame, baseline_missing: bool) -> LazyFrame {
-    let not_ranked = when(col("rank_adjusted").is_null())
-        .then(lit(flags::NOT_RANKED))
-        .otherwise(rank::null_of(DataType::String));
-    let no_baseline = if baseline_missing {
-        lit(flags::NO_BASELINE)
-    } else {
-        rank::null_of(DataType::String)
-    };
-    let several = when(col("_several"))
-        .then(lit(flags::SEVERAL_SERIES))
-        .otherwise(rank::null_of(DataType::String));
-    let mixed = when(col("_mixed"))
-        .then(lit(flags::MIXED_CURRENCY))
-        .otherwise(rank::null_of(DataType::String));
-    lf.with_column(rank::shift_column()).with_column(
-        concat_str(
-            [
-                col("_flags_pre"),
-                col("_factor_flags"),
-                no_baseline,
-                several,
-                mixed,
-                not_ranked,
-            ],
-            ";",
-            true,
-        )
-        .fill_null(lit(""))
-        .alias("flags"),
-    )
+    Ok(lf
+        .with_column(mixed)
+        .with_columns(ranks)
+        .with_column(rank::shift_column()))
 }
 
 /// The standard cautions, and those the run's settings call for.

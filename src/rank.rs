@@ -86,12 +86,59 @@ pub fn ranks_of(
     Ok(ranked.column("r")?.i64()?.iter().collect())
 }
 
-/// `_several`: the row shares its entity, group and year with another row. Such a table holds
-/// several series in one ranking (a bulk export with two indicators, say), so those rows are
-/// not ranked against each other.
-pub fn several_series(key: &[Expr]) -> PolarsResult<Expr> {
-    Ok(len().over(key)?.gt(lit(1)).alias("_several"))
+/// Whether each row shares its series (`pairs`: the entity and group, as a number below
+/// `pair_count`) and its year with another row. Such a table holds several series in one
+/// ranking (a bulk export with two indicators, say), so those rows are not ranked against each
+/// other. Rows without a year share the "no year" of their series.
+///
+/// Counted in a table of one byte per series and year where that table is small (a panel of
+/// 200,000 series over 50 years takes 10 MB), else by sorting the keys: polars' `len().over`
+/// of the same key hashed every row into a table as large as the rows, at 10M rows the largest
+/// single cost of the ranking (a profile, 2026-12-05).
+pub fn several_series(pairs: &[u32], years: &[Option<i32>], pair_count: usize) -> Vec<bool> {
+    let (low, high) = years
+        .iter()
+        .flatten()
+        .fold((i32::MAX, i32::MIN), |(lo, hi), &y| (lo.min(y), hi.max(y)));
+    // Slot 0 is "no year"; years take 1 ..= span.
+    let span = if low <= high {
+        (i64::from(high) - i64::from(low) + 2) as usize
+    } else {
+        1
+    };
+    let slot = |year: Option<i32>| year.map_or(0, |y| (i64::from(y) - i64::from(low) + 1) as usize);
+    match pair_count
+        .checked_mul(span)
+        .filter(|&n| n <= DENSE_SERIES_LIMIT)
+    {
+        Some(cells) => {
+            let mut seen = vec![0u8; cells];
+            let at = |i: usize| pairs[i] as usize * span + slot(years[i]);
+            for i in 0..pairs.len() {
+                let count = &mut seen[at(i)];
+                *count = count.saturating_add(1);
+            }
+            (0..pairs.len()).map(|i| seen[at(i)] > 1).collect()
+        }
+        None => {
+            let key = |i: usize| (u64::from(pairs[i]) << 32) | slot(years[i]) as u64;
+            let mut order: Vec<u32> = (0..pairs.len() as u32).collect();
+            order.sort_unstable_by_key(|&i| key(i as usize));
+            let mut several = vec![false; pairs.len()];
+            for run in order.chunk_by(|&a, &b| key(a as usize) == key(b as usize)) {
+                if run.len() > 1 {
+                    for &i in run {
+                        several[i as usize] = true;
+                    }
+                }
+            }
+            several
+        }
+    }
 }
+
+/// Series-and-year cells counted in a dense table (one byte each) up to this many.
+const DENSE_SERIES_LIMIT: usize = 1 << 26;
 
 /// `_mixed`: the row's ranking group (partition) holds eligible figures in more than one unit
 /// (`unit`: a currency, or null when the steps bring every figure to one unit). Figures in
@@ -193,6 +240,28 @@ mod tests {
             ranks,
             vec![Some(3), Some(1), Some(1), None, Some(4), Some(1)]
         );
+    }
+
+    #[test]
+    fn several_series_are_rows_sharing_series_and_year_counted_densely_or_by_sorting() {
+        let pairs = [0, 0, 1, 1, 0, 2, 2];
+        let years = [
+            Some(2020),
+            Some(2021),
+            Some(2020),
+            Some(2020),
+            None,
+            None,
+            None,
+        ];
+        let expected = vec![false, false, true, true, false, true, true];
+        assert_eq!(several_series(&pairs, &years, 3), expected);
+        // Far apart years, and more series than the dense table holds: the sorted path.
+        let years = [Some(1), Some(2_000_000), Some(1), Some(1), None, None, None];
+        let expected = vec![false, false, true, true, false, true, true];
+        assert_eq!(several_series(&pairs, &years, 3), expected);
+        assert_eq!(several_series(&pairs, &years, DENSE_SERIES_LIMIT), expected);
+        assert!(several_series(&[], &[], 0).is_empty());
     }
 
     #[test]

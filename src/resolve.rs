@@ -31,9 +31,9 @@ impl EntityColumns {
 /// were touched by that grouping (a page-fault profile, 2026-12-05); one integer column is
 /// grouped without the encoding.
 pub struct RankingKeys {
-    /// Rows share it exactly when they share their entity (the resolved code, else the text as
-    /// given), their group and their year (`rank::several_series`).
-    pub series: Vec<u64>,
+    /// Whether the row shares its entity (the resolved code, else the text as given), its
+    /// group and its year with another row (`rank::several_series`).
+    pub several: Vec<bool>,
     /// Rows share it exactly when they share their group and their year: the rows ranked
     /// together.
     pub partition: Vec<u64>,
@@ -59,12 +59,10 @@ pub fn ranking_keys<'a>(
     let texts: Vec<u32> = (0..rows.texts.len() as u32)
         .map(|t| number_of(rows.texts.get(t)))
         .collect();
-    let mut pairs: PlHashMap<(u32, u32), u64> = PlHashMap::default();
+    let mut pairs: PlHashMap<(u32, u32), u32> = PlHashMap::default();
     let n = rows.line.len();
-    let mut keys = RankingKeys {
-        series: Vec::with_capacity(n),
-        partition: Vec::with_capacity(n),
-    };
+    let mut series: Vec<u32> = Vec::with_capacity(n);
+    let mut partition: Vec<u64> = Vec::with_capacity(n);
     for i in 0..n {
         let entity = match entities.at[i] {
             Some(at) => found[at as usize],
@@ -73,14 +71,26 @@ pub fn ranking_keys<'a>(
         // A group is a place among the distinct texts (equal texts, equal places); none is
         // a place no text has.
         let group = rows.group[i].unwrap_or(u32::MAX);
-        let next = pairs.len() as u64;
-        let pair = *pairs.entry((entity, group)).or_insert(next);
+        let next = pairs.len() as u32;
+        series.push(*pairs.entry((entity, group)).or_insert(next));
         // Any i32 year in the low 32 bits; bit 32 alone for a row without a year.
         let year = rows.year[i].map_or(1 << 32, |y| u64::from(y as u32));
-        keys.series.push(pair << 33 | year);
-        keys.partition.push(u64::from(group) << 33 | year);
+        partition.push(u64::from(group) << 33 | year);
     }
-    keys
+    RankingKeys {
+        several: crate::rank::several_series(&series, &rows.year, pairs.len()),
+        partition,
+    }
+}
+
+/// The currency a row's figure is in: the one it states, else its entity's.
+pub fn row_currency<'a>(
+    rows: &'a crate::ingest::CanonicalRows,
+    at: usize,
+    entity: Option<&'a Entity>,
+) -> Option<&'a str> {
+    rows.currency_text(at)
+        .or_else(|| entity.and_then(|e| e.currency.as_deref()))
 }
 
 /// How a figure relates to the reference tables' currencies.
@@ -169,8 +179,8 @@ pub fn resolve_rows(
             }
             Err(at) => {
                 let lines = &mut unresolved[at].lines;
-                if lines.last() != Some(&rows.line[row]) {
-                    lines.push(rows.line[row]);
+                if lines.last() != Some(&rows.line(row)) {
+                    lines.push(rows.line(row));
                 }
                 rows.flag(row, flags::UNRESOLVED);
                 bases.push(InputBasis::Local);
@@ -257,7 +267,7 @@ mod tests {
     }
 
     #[test]
-    fn ranking_keys_are_equal_exactly_when_entity_group_and_year_are() {
+    fn rows_share_a_series_and_a_partition_exactly_when_entity_group_and_year_are() {
         // FRA is France's ISO 3166-1 alpha-3 code: the same entity as "France".
         let text = "country,year,item,value\n\
             France,2020,a,1\nFRA,2020,a,2\nFrance,2021,a,3\nFrance,2020,b,4\n\
@@ -279,8 +289,10 @@ mod tests {
         };
         let (entities, _) = resolve_rows(&mut ingested, &resolver, &options).unwrap();
         let keys = ranking_keys(&ingested.rows, &entities);
-        // Rows 0 and 1 are one entity; 5 and 6 one unresolved text; 7 and 8 share a missing year.
-        assert_eq!(classes(&keys.series), vec![0, 0, 2, 3, 4, 5, 5, 7, 7]);
+        // Rows 0 and 1 are one entity; 5 and 6 one unresolved text; 7 and 8 share a missing
+        // year: each pair shares its series and year, the other rows do not.
+        let several = vec![true, true, false, false, false, true, true, true, true];
+        assert_eq!(keys.several, several);
         // Ranked together: group a in 2020 (whatever the entity), and group a without a year.
         assert_eq!(classes(&keys.partition), vec![0, 0, 2, 3, 4, 0, 0, 7, 7]);
     }

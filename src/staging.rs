@@ -34,13 +34,13 @@ impl Staging {
     pub fn csv(
         &mut self,
         path: &Path,
-        frame: &DataFrame,
+        frame: &dyn crate::csv_writer::CellTable,
         rounding: Rounding,
         guard: bool,
     ) -> Result<()> {
         let temp = temp_beside(path)?;
         let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-        crate::format::write_csv(frame, rounding, true, guard, &mut buffered)?;
+        crate::csv_writer::write_csv(frame, rounding, true, guard, &mut buffered)?;
         let temp = buffered
             .into_inner()
             .map_err(|e| Error::io(path.display(), "write the output", e.into_error()))?;

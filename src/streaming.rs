@@ -19,9 +19,10 @@
 
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
-use crate::flags::FlagCounts;
+use crate::flags::{FlagColumn, FlagCounts};
 use crate::ingest::encoding::EncodingChoice;
 use crate::ingest::table;
+use crate::output::{OutputTable, RowTexts, TextKind};
 use crate::pipeline::{self, PipelineSettings};
 use crate::reference::References;
 use crate::report::{self, Format};
@@ -213,7 +214,7 @@ fn run(
         later_notes.into_iter().chain(column_note).collect(),
     );
     Ok(Ok(pipeline::AdjustOutput {
-        frame: DataFrame::empty(),
+        table: OutputTable::plain(DataFrame::empty()),
         summary,
     }))
 }
@@ -262,7 +263,7 @@ fn spill_pieces(
                 settings,
                 plan.resolver,
                 plan.references,
-                start.ord,
+                Some(start.ord),
             )?,
             Some(f) => prepare_later_piece(plan, f, bytes, &start)?,
         };
@@ -287,7 +288,7 @@ fn spill_pieces(
             missing_tables: prepared.missing_tables.clone(),
         });
         let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
-        let frame = piece_frame(prepared.lf, rows, &columns.head)?;
+        let frame = piece_frame(prepared.lf, prepared.texts, rows, &columns.head)?;
         state.narrow.push(rank_inputs(
             &frame,
             &mut state.groups,
@@ -304,20 +305,22 @@ fn spill_pieces(
     Ok(Ok(state))
 }
 
-/// A piece's output columns and the private ones the ranks and flags need, computed; an error
-/// if a row went missing.
-fn piece_frame(lf: LazyFrame, rows_in: usize, head: &[String]) -> Result<DataFrame> {
-    let mut keep: Vec<Expr> = head.iter().map(|c| col(c.as_str())).collect();
-    keep.extend(
-        [
-            "_ord",
-            "_flags_pre",
-            "_factor_flags",
-            "_rank_eligible",
-            "_unit",
-        ]
-        .map(col),
-    );
+/// A piece's output columns (its texts written out) and the private ones the ranks and flags
+/// need, computed; an error if a row went missing.
+fn piece_frame(
+    lf: LazyFrame,
+    texts: RowTexts,
+    rows_in: usize,
+    head: &[String],
+) -> Result<DataFrame> {
+    let private = ["_ord", "_rank_eligible", "_unit"];
+    let keep: Vec<Expr> = head
+        .iter()
+        .map(String::as_str)
+        .filter(|c| TextKind::of(c).is_none())
+        .chain(private)
+        .map(col)
+        .collect();
     let frame = lf
         .select(keep)
         .collect()
@@ -327,6 +330,16 @@ fn piece_frame(lf: LazyFrame, rows_in: usize, head: &[String]) -> Result<DataFra
             ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
         )));
     }
+    let early = texts.early_flags_column("_early_flags");
+    let names: Vec<String> = head
+        .iter()
+        .cloned()
+        .chain(private.map(String::from))
+        .collect();
+    let mut frame = OutputTable::compact(frame, texts, None, &names).text_frame()?;
+    frame
+        .with_column(early)
+        .map_err(Error::engine("adjusting a piece of the table"))?;
     Ok(frame)
 }
 
@@ -408,12 +421,23 @@ fn write_pieces(
         frame
             .hstack_mut(piece_ranks.columns())
             .map_err(Error::engine("joining ranks to a piece"))?;
-        let frame = pipeline::with_flags(frame.lazy(), baseline_missing)
+        let late = pipeline::late_flags(&frame, baseline_missing)?;
+        let early = frame
+            .column("_early_flags")
+            .and_then(|c| c.str().cloned())
+            .map_err(Error::engine("flagging a piece"))?;
+        let flags = FlagColumn::of_texts(early.iter(), |row| late[row]);
+        frame
+            .with_column(flags.to_column("flags"))
+            .map_err(Error::engine("flagging a piece"))?;
+        let frame = frame
+            .lazy()
+            .with_column(crate::rank::shift_column())
             .select(selection)
             .collect()
             .map_err(Error::engine("flagging a piece"))?;
         rows_out += frame.height();
-        counts.add(FlagCounts::of(&frame)?);
+        counts.add(flags.counts());
         report::write_csv(
             &frame,
             plan.rounding,
@@ -528,7 +552,7 @@ fn prepare_later_piece(
         &piece_settings,
         plan.resolver,
         plan.references,
-        start.ord,
+        Some(start.ord),
     )
 }
 
@@ -576,8 +600,10 @@ fn ranks_once(
     settings: &PipelineSettings,
     baseline_missing: bool,
 ) -> Result<DataFrame> {
-    let narrow = concat_frames(narrow)?;
-    let several = crate::rank::several_series(&[col("_e"), col("_g"), col("year")])
+    let mut narrow = concat_frames(narrow)?;
+    let several = several_of(&narrow)?;
+    narrow
+        .with_column(Column::new("_several".into(), several))
         .map_err(Error::engine("ranking"))?;
     let mixed = crate::rank::mixed_units(
         col("_u").cast(DataType::String),
@@ -589,10 +615,38 @@ fn ranks_once(
     rank_columns.extend([col("_several"), col("_mixed")]);
     narrow
         .lazy()
-        .with_columns([several, mixed])
+        .with_column(mixed)
         .select(rank_columns)
         .collect()
         .map_err(Error::engine("ranking"))
+}
+
+/// Whether each row shares its entity, group and year with another (`rank::several_series`),
+/// from the narrow columns' numbers.
+fn several_of(narrow: &DataFrame) -> Result<Vec<bool>> {
+    let numbers = |name: &str| {
+        narrow
+            .column(name)
+            .and_then(|c| c.u32().cloned())
+            .map_err(Error::engine("ranking"))
+    };
+    let (entities, groups) = (numbers("_e")?, numbers("_g")?);
+    let years: Vec<Option<i32>> = narrow
+        .column("year")
+        .and_then(|c| c.i32().cloned())
+        .map_err(Error::engine("ranking"))?
+        .iter()
+        .collect();
+    let mut pairs: HashMap<(Option<u32>, Option<u32>), u32> = HashMap::new();
+    let series: Vec<u32> = entities
+        .iter()
+        .zip(groups.iter())
+        .map(|pair| {
+            let next = pairs.len() as u32;
+            *pairs.entry(pair).or_insert(next)
+        })
+        .collect();
+    Ok(crate::rank::several_series(&series, &years, pairs.len()))
 }
 
 /// The header as a CSV line in `delimiter`, quoted where needed.

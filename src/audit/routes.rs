@@ -107,14 +107,15 @@ impl<'a> Engine<'a> {
             .collect();
         settings.factor_year_offset = year_offset;
         crate::adjust::check_step_options(&settings.steps, settings.step_settings.base_year)?;
-        Ok(pipeline::run_adjust(
+        pipeline::run_adjust(
             self.bytes,
             self.label,
             &settings,
             self.resolver,
             Some(self.references),
         )?
-        .frame)
+        .table
+        .text_frame()
     }
 
     /// The rows, read by a run without steps.

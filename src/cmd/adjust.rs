@@ -1,9 +1,10 @@
 //! `levelfield adjust`: the recipe merged under the flags, the plan, the run (in memory or in
 //! pieces), the outputs staged and renamed together, the summary and the saved recipe.
 
-use super::{write_stdout, Outcome};
+use super::{write_stdout, write_stdout_with, Outcome};
 use crate::cli::AdjustArgs;
 use crate::error::Result;
+use crate::output::OutputTable;
 use crate::{error, pipeline, plan, recipe, report, source, streaming};
 
 /// Runs `adjust` with its arguments (and the recipe they name).
@@ -58,18 +59,11 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     }
     output.summary.notice = plan.output.notice.clone();
     if plan.streaming.is_none() && plan.output.format.is_data_file() {
-        let available = output.frame.width();
+        let available = output.table.width();
         let written = plan
             .output
             .columns
-            .pick(
-                &output
-                    .frame
-                    .get_column_names()
-                    .iter()
-                    .map(|n| n.to_string())
-                    .collect::<Vec<_>>(),
-            )?
+            .pick(&output.table.column_names())?
             .len();
         if let Some(note) = plan.output.columns.describe(written, available) {
             output.summary.notes.push(note);
@@ -91,7 +85,8 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     Ok(output)
 }
 
-/// Stages the report and the table (or writes the table to standard output).
+/// Stages the report and the table (or writes the table to standard output). csv is written
+/// straight from the output table; the other formats take its text frame.
 fn stage_outputs(
     plan: &plan::AdjustPlan,
     output: &pipeline::AdjustOutput,
@@ -102,21 +97,20 @@ fn stage_outputs(
     // it stays with every copy of them; json carries it in its metadata.
     let marked = match &plan.output.notice {
         Some(notice) if plan.output.format != report::Format::Json => {
-            Some(report::with_notice_column(&output.frame, notice)?)
+            output.table.with_notice(notice)
         }
-        _ => None,
+        _ => output.table.clone(),
     };
-    let frame = if plan.output.format.is_data_file() {
-        data_columns(marked.as_ref().unwrap_or(&output.frame), &plan.output)?
+    let table = if plan.output.format.is_data_file() {
+        data_columns(&marked, &plan.output)?
     } else {
-        marked.unwrap_or_else(|| output.frame.clone())
+        marked
     };
-    let frame = &frame;
     let render = || -> Result<String> {
         Ok(match plan.output.format {
             report::Format::Methods => report::methods::render_markdown(note),
             format => report::render(
-                frame,
+                &table.text_frame()?,
                 &output.summary,
                 format,
                 plan.output.rounding,
@@ -125,20 +119,18 @@ fn stage_outputs(
         })
     };
     if let Some(path) = &plan.output.report {
-        let html =
-            report::html::render(&output.frame, &output.summary, note, plan.output.rounding)?;
+        let frame = output.table.text_frame()?;
+        let html = report::html::render(&frame, &output.summary, note, plan.output.rounding)?;
         staging.text(path, &html)?;
     }
+    let (rounding, guard) = (plan.output.rounding, plan.output.guard_formulas);
     match &plan.output.path {
         Some(path) if plan.output.format == report::Format::Parquet => {
-            staging.parquet(path, frame)?
+            staging.parquet(path, &table.text_frame()?)?
         }
-        Some(path) if plan.output.format == report::Format::Csv => staging.csv(
-            path,
-            frame,
-            plan.output.rounding,
-            plan.output.guard_formulas,
-        )?,
+        Some(path) if plan.output.format == report::Format::Csv => {
+            staging.csv(path, &table, rounding, guard)?
+        }
         Some(path) => staging.text(path, &render()?)?,
         None if plan.output.format == report::Format::Parquet => {
             return Err(error::Error::usage(
@@ -146,30 +138,22 @@ fn stage_outputs(
                 "pass -o FILE.parquet",
             ))
         }
-        None => {
-            write_stdout(&render()?)?;
+        None if plan.output.format == report::Format::Csv => {
+            write_stdout_with(|out| report::write_csv(&table, rounding, true, guard, out))?
         }
+        None => write_stdout(&render()?)?,
     }
     Ok(())
 }
 
 /// The columns a data file gets (`--write-columns`); reader formats choose their own.
-fn data_columns(
-    frame: &polars::prelude::DataFrame,
-    output: &plan::OutputPlan,
-) -> Result<polars::prelude::DataFrame> {
-    let available: Vec<String> = frame
-        .get_column_names()
-        .iter()
-        .map(|n| n.to_string())
-        .collect();
+fn data_columns(table: &OutputTable, output: &plan::OutputPlan) -> Result<OutputTable> {
+    let available = table.column_names();
     let keep = output.columns.pick(&available)?;
     if keep.len() == available.len() {
-        return Ok(frame.clone());
+        return Ok(table.clone());
     }
-    frame
-        .select(keep)
-        .map_err(error::Error::engine("selecting the output columns"))
+    table.select(&keep)
 }
 
 /// The summary on stderr (or, with --quiet, its warnings), and every file written.

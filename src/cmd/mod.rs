@@ -39,13 +39,42 @@ pub fn run(cli: Cli) -> Result<Outcome> {
 /// Writes to standard output. When its reader has gone away (`| head`), the tool stops quietly
 /// with exit code 0, as command-line tools do.
 pub fn write_stdout(text: &str) -> Result<()> {
-    let mut stdout = std::io::stdout().lock();
-    match stdout
-        .write_all(text.as_bytes())
-        .and_then(|()| stdout.flush())
-    {
-        Ok(()) => Ok(()),
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
-        Err(e) => Err(Error::io("standard output", "write", e)),
+    write_stdout_with(|out| {
+        out.write_all(text.as_bytes())
+            .map_err(|e| Error::io("standard output", "write", e))
+    })
+}
+
+/// Hands `write` standard output, buffered, and flushes it; a reader that has gone away
+/// ends the tool quietly (see `write_stdout`), whoever was writing.
+pub fn write_stdout_with(write: impl FnOnce(&mut dyn Write) -> Result<()>) -> Result<()> {
+    let mut out = QuietPipe(std::io::BufWriter::with_capacity(
+        1 << 16,
+        std::io::stdout().lock(),
+    ));
+    write(&mut out)?;
+    out.flush()
+        .map_err(|e| Error::io("standard output", "write", e))
+}
+
+/// Standard output that exits with code 0 when its reader has gone away.
+struct QuietPipe<W>(W);
+
+impl<W: Write> QuietPipe<W> {
+    fn quiet<T>(result: std::io::Result<T>) -> std::io::Result<T> {
+        match result {
+            Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
+            other => other,
+        }
+    }
+}
+
+impl<W: Write> Write for QuietPipe<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        Self::quiet(self.0.write(buf))
+    }
+
+    fn flush(&mut self) -> std::io::Result<()> {
+        Self::quiet(self.0.flush())
     }
 }

@@ -1,111 +1,236 @@
-//! The records below the header: where the table ends (only notes may follow its last line of
-//! data), and the checks each record passes (a repeated header, a runaway quote, a ragged
-//! line), each an error at its line or, for a runaway quote with `--lenient`, flagged rows.
+//! The records below the header, as they are read: where the table ends (only notes may
+//! follow its last line of data), the checks each record passes (a repeated header, a runaway
+//! quote, a ragged line), each an error at its line or, for a runaway quote with `--lenient`,
+//! flagged rows; and each record of the table put into its columns (`Records`) at once.
 
+use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
 use crate::ingest::delimiter::delimiter_name;
 use crate::ingest::header::{classify, CellClass, Raw};
-use crate::ingest::record::{Cells, TextRecord};
+use crate::ingest::record::{Fields, Records};
 
-/// One past the last record of the table: the table ends at the last line that holds data, and
-/// only notes may follow it. A footnote block (a data portal's "footnoteSeqID","Footnote"
-/// table below the data) is notes too.
-pub(super) fn table_end(all: &[Raw], header_index: usize, delimiter: u8) -> usize {
-    let notes_from = all[header_index + 1..]
-        .iter()
-        .position(starts_footnotes)
-        .map_or(all.len(), |p| p + header_index + 1);
-    let last_data = all[..notes_from]
-        .iter()
-        .rposition(|r| !is_note(r, delimiter))
-        .unwrap_or(header_index)
-        .max(header_index);
-    last_data + 1
+/// Where a record below the header goes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(super) enum Place {
+    /// It holds data: it belongs to the table, and so do the records held back before it.
+    Table,
+    /// It may be a note: held back until a record of data follows it.
+    Held,
+    /// Below the table: a footnote block has begun.
+    Below,
 }
-/// What the records below the header are checked against.
+
+/// Where the table ends, found while the records below the header go by: a record that may be
+/// a note is held back until a record of data follows it (then it was inside the table); the
+/// notes after the last record of data, and everything from a footnote block on (a data
+/// portal's `"footnoteSeqID","Footnote"` table), are below the table.
+#[derive(Default)]
+pub(super) struct TableEnd {
+    held: Vec<Raw>,
+    below: Vec<Raw>,
+    in_footnotes: bool,
+}
+
+impl TableEnd {
+    /// Where `record` goes; `Place::Held` and `Place::Below` records are the caller's to
+    /// `keep`, and on `Place::Table` the held ones are `release`d first.
+    pub(super) fn place(&mut self, record: &impl Fields, delimiter: u8) -> Place {
+        if self.in_footnotes {
+            Place::Below
+        } else if starts_footnotes(record) {
+            self.in_footnotes = true;
+            self.below.append(&mut self.held);
+            Place::Below
+        } else if is_note(record, delimiter) {
+            Place::Held
+        } else {
+            Place::Table
+        }
+    }
+
+    /// Keeps a record `place` did not put into the table.
+    pub(super) fn keep(&mut self, raw: Raw, place: Place) {
+        match place {
+            Place::Below => self.below.push(raw),
+            _ => self.held.push(raw),
+        }
+    }
+
+    /// The records held back, now known to be inside the table, in order.
+    pub(super) fn release(&mut self) -> Vec<Raw> {
+        std::mem::take(&mut self.held)
+    }
+
+    /// The records below the table, in order.
+    pub(super) fn finish(mut self) -> Vec<Raw> {
+        self.below.append(&mut self.held);
+        self.below
+    }
+}
+
+/// The table's records as they are read: each record checked against the header, then put
+/// into its columns (a runaway quote cut into flagged lines when lenient), and the empty
+/// lines among them counted.
 pub(super) struct Body<'a> {
     pub(super) text: &'a str,
     pub(super) file: &'a str,
     pub(super) delimiter: u8,
+    /// The header, as the table's records are checked against it (before a statistics
+    /// office's first column is split into its dimensions).
     pub(super) headers: &'a [String],
     pub(super) header_line: usize,
     pub(super) lenient: bool,
+    header_key: Vec<String>,
+    /// The line the next record starts on when no blank line comes between.
+    expected: usize,
+    pub(super) empty_lines: Vec<usize>,
+    /// The number of dimension codes each record's first cell joins (a statistics office's
+    /// TSV), split into that many cells as the record is kept.
+    dimensions: Option<usize>,
+    pub(super) records: Records,
 }
 
-impl Body<'_> {
-    /// The table's records (a runaway quote cut into flagged lines when lenient) and the empty
-    /// lines among them; `expected` is the line the first record starts on when no blank line
-    /// comes between. A repeated header, a runaway quote (unless lenient) and a ragged line
-    /// are errors at their line.
-    pub(super) fn records(
-        &self,
-        raws: impl ExactSizeIterator<Item = Raw>,
-        mut expected: usize,
-    ) -> Result<(Vec<TextRecord>, Vec<usize>)> {
+/// A record being read: its line and where it lies in the text.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Spot {
+    pub(super) line: usize,
+    pub(super) start: usize,
+    pub(super) end: usize,
+}
+
+impl<'a> Body<'a> {
+    /// Checks records against `headers`; the first record starts on `expected` when no blank
+    /// line comes between; `dimensions` as above.
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn new(
+        text: &'a str,
+        file: &'a str,
+        delimiter: u8,
+        headers: &'a [String],
+        header_line: usize,
+        lenient: bool,
+        expected: usize,
+        dimensions: Option<usize>,
+    ) -> Body<'a> {
+        let width = headers.len() + dimensions.map_or(0, |n| n - 1);
+        Body {
+            text,
+            file,
+            delimiter,
+            headers,
+            header_line,
+            lenient,
+            header_key: headers.iter().map(|h| h.to_lowercase()).collect(),
+            expected,
+            empty_lines: Vec::new(),
+            dimensions,
+            records: Records::new(width),
+        }
+    }
+
+    /// Reads one record of the table. A repeated header, a runaway quote (unless lenient) and
+    /// a ragged line are errors at their line.
+    pub(super) fn take(&mut self, spot: Spot, record: &impl Fields) -> Result<()> {
         let width = self.headers.len();
-        let header_key: Vec<String> = self.headers.iter().map(|h| h.to_lowercase()).collect();
-        let mut empty_lines: Vec<usize> = Vec::new();
-        let mut records = Vec::with_capacity(raws.len());
-        for raw in raws {
-            empty_lines.extend(expected..raw.line);
-            expected = raw.line + 1 + breaks_in(&raw);
-            if raw.filled() == 0 {
-                empty_lines.push(raw.line);
-                continue;
-            }
-            if repeats_header(&raw.record, &header_key) {
-                return Err(Error::bad_input(
-                Location::line(self.file, raw.line),
+        self.empty_lines.extend(self.expected..spot.line);
+        self.expected = spot.line + 1 + breaks_in(record);
+        if filled(record) == 0 {
+            self.empty_lines.push(spot.line);
+            return Ok(());
+        }
+        if repeats_header(record, &self.header_key) {
+            return Err(Error::bad_input(
+                Location::line(self.file, spot.line),
                 format!("this line repeats the header of line {}: the file holds two tables", self.header_line),
                 "one table per file (one header, then its rows)",
                 "split the file into one file per table, or delete the second header and check that the rows below it are in the same columns",
             ));
-            }
-            if let Some(opened) = runaway_quote(&raw, width, self.delimiter) {
-                if !self.lenient {
-                    return Err(Error::bad_input(
-                    Location::line(self.file, raw.line),
+        }
+        if let Some(opened) = runaway_quote(spot.line, record, width, self.delimiter) {
+            if !self.lenient {
+                return Err(Error::bad_input(
+                    Location::line(self.file, spot.line),
                     format!(
                         "a quote opened on this line is not closed until line {opened} (or the end of the file): it swallows the lines between"
                     ),
                     "balanced double quotes: a cell that starts with \" must end with \"",
                     "remove or close the stray quote on this line, or pass --lenient to keep those lines as rows flagged `unbalanced_quote`",
                 ));
-                }
-                records.extend(cut_runaway(self.text, &raw, self.delimiter, width));
-                continue;
             }
-            let mut record = raw.record;
-            // Spreadsheet exports pad lines with empty cells; only filled extra cells are an error.
-            let mut len = record.len();
-            while len > width && record[len - 1].trim().is_empty() {
-                len -= 1;
+            let text = self.text;
+            for (line, cells) in cut_runaway(text, spot, self.delimiter, width) {
+                self.keep(line, cells.into_iter(), true)?;
             }
-            record.truncate(len);
-            if record.len() != width {
-                return Err(ragged(
-                    self.file,
-                    raw.line,
-                    record.len(),
-                    width,
-                    self.delimiter,
-                ));
-            }
-            records.push(TextRecord {
-                line: raw.line,
-                cells: record,
-                unbalanced_quote: false,
-            });
+            return Ok(());
         }
-        Ok((records, empty_lines))
+        // Spreadsheet exports pad lines with empty cells; only filled extra cells are an error.
+        let mut len = record.count();
+        while len > width && record.field(len - 1).is_some_and(|c| c.trim().is_empty()) {
+            len -= 1;
+        }
+        if len != width {
+            return Err(ragged(self.file, spot.line, len, width, self.delimiter));
+        }
+        self.keep(spot.line, record.fields().take(len), false)
+    }
+
+    /// Puts a record's cells into the columns, its first cell split into its dimension codes
+    /// where the table has them.
+    fn keep<'c>(
+        &mut self,
+        line: usize,
+        mut cells: impl Iterator<Item = &'c str>,
+        unbalanced_quote: bool,
+    ) -> Result<()> {
+        let file = self.file;
+        let kept = match self.dimensions {
+            None => self.records.push(line, cells, unbalanced_quote),
+            Some(n) => {
+                let first = cells.next().unwrap_or("");
+                let codes: Vec<&str> = first.split(',').map(str::trim).collect();
+                if codes.len() != n {
+                    return Err(self.wrong_codes(line, first, codes.len(), n));
+                }
+                self.records
+                    .push(line, codes.into_iter().chain(cells), unbalanced_quote)
+            }
+        };
+        kept.map_err(|e| e.error(file))
+    }
+
+    fn wrong_codes(&self, line: usize, first: &str, found: usize, n: usize) -> Error {
+        let header = &self.headers[0];
+        let names = header.split_once('\\').map_or("", |(names, _)| names);
+        Error::bad_input(
+            Location::cell(self.file, line, header),
+            format!(
+                "\"{}\" has {found} code(s), but the header names {n} dimension(s)",
+                shorten(first)
+            ),
+            format!(
+                "{n} codes joined by commas ({})",
+                names
+                    .split(',')
+                    .map(str::trim)
+                    .collect::<Vec<_>>()
+                    .join(",")
+            ),
+            "fix the row's first cell",
+        )
     }
 }
+
+/// The cells of a record that hold something.
+pub(super) fn filled(record: &impl Fields) -> usize {
+    record.fields().filter(|c| !c.trim().is_empty()).count()
+}
+
 /// Whether a record's first cells are the header again (trimmed, case aside): the mark of a
 /// second table in the file. `header_key` holds the header cells lowercased. An ASCII cell is
 /// compared without lowercasing a copy (the same answer, with no allocation per cell).
-fn repeats_header(record: &Cells, header_key: &[String]) -> bool {
-    record.len() >= header_key.len()
-        && record.iter().zip(header_key).all(|(cell, key)| {
+fn repeats_header(record: &impl Fields, header_key: &[String]) -> bool {
+    record.count() >= header_key.len()
+        && record.fields().zip(header_key).all(|(cell, key)| {
             let cell = cell.trim();
             if cell.is_ascii() {
                 cell.len() == key.len()
@@ -120,22 +245,29 @@ fn repeats_header(record: &Cells, header_key: &[String]) -> bool {
 }
 
 /// Line breaks inside a record's quoted cells (the record spans that many more lines).
-pub(super) fn breaks_in(raw: &Raw) -> usize {
-    raw.record.iter().map(|c| c.matches('\n').count()).sum()
+pub(super) fn breaks_in(record: &impl Fields) -> usize {
+    record.fields().map(|c| c.matches('\n').count()).sum()
 }
 
-/// A quote still open at the end of the file: the last record starts a quoted cell that never
-/// closes (an odd number of quotes from where it opened). An error at that line, or with
-/// `lenient` nothing (its lines are read as they are by the runaway-quote rule).
-pub(super) fn open_at_end(text: &str, last: &Raw, file: &str, lenient: bool) -> Result<()> {
-    let raw = &text[last.start.min(text.len())..];
+/// A quote still open at the end of the file: the last record (starting at `start`, on
+/// `line`) starts a quoted cell that never closes (an odd number of quotes from where it
+/// opened). An error at that line, or with `lenient` nothing (its lines are read as they are
+/// by the runaway-quote rule).
+pub(super) fn open_at_end(
+    text: &str,
+    start: usize,
+    line: usize,
+    file: &str,
+    lenient: bool,
+) -> Result<()> {
+    let raw = &text[start.min(text.len())..];
     let opens_quote = raw.trim_start().starts_with('"')
         || raw.contains(",\"")
         || raw.contains("\t\"")
         || raw.contains(";\"");
     if !lenient && opens_quote && raw.matches('"').count() % 2 == 1 {
         return Err(Error::bad_input(
-            Location::line(file, last.line),
+            Location::line(file, line),
             "a quote opened on this line is never closed: the file ends inside it",
             "balanced double quotes: a cell that starts with \" must end with \"",
             "close or remove the stray quote on this line, or pass --lenient to read the line as it is",
@@ -146,9 +278,9 @@ pub(super) fn open_at_end(text: &str, last: &Raw, file: &str, lenient: bool) -> 
 
 /// The first line of a footnote block below the table (a data portal's `"footnoteSeqID",
 /// "Footnote"` header).
-fn starts_footnotes(raw: &Raw) -> bool {
-    raw.record
-        .iter()
+fn starts_footnotes(record: &impl Fields) -> bool {
+    record
+        .fields()
         .map(str::trim)
         .find(|c| !c.is_empty())
         .is_some_and(|c| c.to_lowercase().starts_with("footnote"))
@@ -156,18 +288,16 @@ fn starts_footnotes(raw: &Raw) -> bool {
 
 /// A line below the table that is a note: one filled cell of words, or words that open with a
 /// note marker (`Source:`, `Note`, `*`), holding no figure but years.
-fn is_note(raw: &Raw, delimiter: u8) -> bool {
+fn is_note(record: &impl Fields, delimiter: u8) -> bool {
     // A cell that runs over several lines with delimiters in it is a stray quote, not a note.
-    if raw
-        .record
-        .iter()
+    if record
+        .fields()
         .any(|c| c.contains('\n') && c.as_bytes().contains(&delimiter))
     {
         return false;
     }
-    let filled: Vec<&str> = raw
-        .record
-        .iter()
+    let filled: Vec<&str> = record
+        .fields()
         .map(str::trim)
         .filter(|c| !c.is_empty())
         .collect();
@@ -201,23 +331,25 @@ fn is_note(raw: &Raw, delimiter: u8) -> bool {
     ]
     .iter()
     .any(|m| lower.starts_with(m));
-    marker && raw.record.iter().all(|c| classify(c) != CellClass::Number)
+    marker && record.fields().all(|c| classify(c) != CellClass::Number)
 }
 
-/// The last line swallowed by an open quote in `raw`, when a field holds a line break and at
-/// least a line's worth of delimiters (a quoted cell with a line break in it is fine).
-fn runaway_quote(raw: &Raw, width: usize, delimiter: u8) -> Option<usize> {
+/// The last line swallowed by an open quote in a record on `line`, when a field holds a line
+/// break and at least a line's worth of delimiters (a quoted cell with a line break in it is
+/// fine).
+fn runaway_quote(line: usize, record: &impl Fields, width: usize, delimiter: u8) -> Option<usize> {
     let needed = width.saturating_sub(1).max(1);
-    raw.record.iter().find_map(|field| {
+    record.fields().find_map(|field| {
         let breaks = field.trim_end().matches('\n').count();
         let delimiters = field.bytes().filter(|&b| b == delimiter).count();
-        (breaks >= 1 && delimiters >= needed).then_some(raw.line + breaks)
+        (breaks >= 1 && delimiters >= needed).then_some(line + breaks)
     })
 }
 
-/// The lines of a runaway quote, each read as written (quotes as characters), flagged.
-fn cut_runaway(text: &str, raw: &Raw, delimiter: u8, width: usize) -> Vec<TextRecord> {
-    let body = &text[raw.start.min(text.len())..raw.end.min(text.len())];
+/// The lines of a runaway quote, each read as written (quotes as characters), `width` cells
+/// each, with their lines.
+fn cut_runaway(text: &str, spot: Spot, delimiter: u8, width: usize) -> Vec<(usize, Vec<&str>)> {
+    let body = &text[spot.start.min(text.len())..spot.end.min(text.len())];
     let mut out = Vec::new();
     for (offset, line) in body.split('\n').enumerate() {
         let line = line.trim_end_matches('\r');
@@ -230,11 +362,7 @@ fn cut_runaway(text: &str, raw: &Raw, delimiter: u8, width: usize) -> Vec<TextRe
         }
         cells.resize(width.max(cells.len()), "");
         cells.truncate(width);
-        out.push(TextRecord {
-            line: raw.line + offset,
-            cells: cells.into_iter().collect(),
-            unbalanced_quote: true,
-        });
+        out.push((spot.line + offset, cells));
     }
     out
 }
@@ -259,6 +387,7 @@ fn ragged(file: &str, line: usize, found: usize, width: usize, delimiter: u8) ->
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::ingest::record::Cells;
 
     #[test]
     fn a_repeated_header_is_found_whatever_its_case_spacing_or_script() {
@@ -276,5 +405,34 @@ mod tests {
         let header = key(&["ΧΏΡΑ", "Élément"]);
         assert!(repeats_header(&record(&["χώρα", "ÉLÉMENT"]), &header));
         assert!(!repeats_header(&record(&["χώρα", "element"]), &header));
+    }
+
+    #[test]
+    fn notes_are_held_until_data_follows_and_a_footnote_block_ends_the_table() {
+        let record = |cells: &[&str]| cells.iter().collect::<Cells>();
+        let mut end = TableEnd::default();
+        let raw = |line: usize, cells: &[&str]| Raw {
+            line,
+            start: 0,
+            end: 0,
+            record: record(cells),
+        };
+        assert_eq!(end.place(&record(&["Chile", "1"]), b','), Place::Table);
+        // A note-like line, then data: the note was inside the table.
+        let note = record(&["Source: invented", ""]);
+        assert_eq!(end.place(&note, b','), Place::Held);
+        end.keep(raw(3, &["Source: invented", ""]), Place::Held);
+        assert_eq!(end.place(&record(&["Peru", "2"]), b','), Place::Table);
+        assert_eq!(end.release().len(), 1);
+        // A note, a footnote block, then anything: all below, in order.
+        let place = end.place(&record(&["* estimate"]), b',');
+        end.keep(raw(5, &["* estimate"]), place);
+        let block = record(&["footnoteSeqID", "Footnote"]);
+        assert_eq!(end.place(&block, b','), Place::Below);
+        end.keep(raw(6, &["footnoteSeqID", "Footnote"]), Place::Below);
+        assert_eq!(end.place(&record(&["1", "2"]), b','), Place::Below);
+        end.keep(raw(7, &["1", "2"]), Place::Below);
+        let lines: Vec<usize> = end.finish().iter().map(|r| r.line).collect();
+        assert_eq!(lines, vec![5, 6, 7]);
     }
 }

@@ -2,6 +2,8 @@
 //! figure becomes (kept apart from `mod.rs` so that the row reader below it can name them).
 
 use super::layout::RoleFlags;
+pub use super::record::TextColumn;
+use super::record::TooLarge;
 use super::{encoding, margins};
 use crate::cells::number::NumberStyle;
 use polars::prelude::PlHashMap;
@@ -47,48 +49,6 @@ impl std::fmt::Display for RowId {
     }
 }
 
-/// Texts end to end in one string, with where each ends: a column of short texts without an
-/// allocation per cell.
-#[derive(Debug, Clone, Default, PartialEq, Eq)]
-pub struct TextColumn {
-    text: String,
-    ends: Vec<usize>,
-}
-
-impl TextColumn {
-    pub fn with_capacity(cells: usize) -> TextColumn {
-        TextColumn {
-            text: String::new(),
-            ends: Vec::with_capacity(cells),
-        }
-    }
-
-    pub fn push(&mut self, cell: &str) {
-        self.text.push_str(cell);
-        self.ends.push(self.text.len());
-    }
-
-    pub fn len(&self) -> usize {
-        self.ends.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.ends.is_empty()
-    }
-
-    pub fn get(&self, i: usize) -> &str {
-        let start = match i {
-            0 => 0,
-            _ => self.ends[i - 1],
-        };
-        &self.text[start..self.ends[i]]
-    }
-
-    pub fn iter(&self) -> impl Iterator<Item = &str> + '_ {
-        (0..self.len()).map(move |i| self.get(i))
-    }
-}
-
 /// Each distinct text once (entity, group and currency texts repeat down a table): a row holds
 /// the text's place here.
 #[derive(Debug, Clone, Default)]
@@ -125,14 +85,65 @@ impl Texts {
     }
 }
 
-/// The figures of the input, one row each, held as columns: at 10M rows a row costs about 90
+/// The rows' ids, held as the rule that gives them (`RowIds::follow`): a long table's rows
+/// are its data rows in turn, a wide table's rows each data row's year columns in turn. A row
+/// pushed with another id turns the rule into a list.
+#[derive(Debug, Clone)]
+enum RowIds {
+    Rule { offset: usize, years: Vec<i32> },
+    Listed(Vec<RowId>),
+}
+
+impl Default for RowIds {
+    fn default() -> Self {
+        RowIds::Listed(Vec::new())
+    }
+}
+
+impl RowIds {
+    fn rule(offset: usize, years: &[i32], at: usize) -> RowId {
+        match years.len() {
+            0 => RowId {
+                data_row: at + 1 + offset,
+                year_column: None,
+            },
+            n => RowId {
+                data_row: at / n + 1 + offset,
+                year_column: Some(years[at % n]),
+            },
+        }
+    }
+
+    fn get(&self, at: usize) -> RowId {
+        match self {
+            RowIds::Rule { offset, years } => RowIds::rule(*offset, years, at),
+            RowIds::Listed(ids) => ids[at],
+        }
+    }
+
+    /// Row `at` gets `id`.
+    fn push(&mut self, at: usize, id: RowId) {
+        if let RowIds::Rule { offset, years } = self {
+            if RowIds::rule(*offset, years, at) == id {
+                return;
+            }
+            let listed = (0..at).map(|i| RowIds::rule(*offset, years, i)).collect();
+            *self = RowIds::Listed(listed);
+        }
+        if let RowIds::Listed(ids) = self {
+            ids.push(id);
+        }
+    }
+}
+
+/// The figures of the input, one row each, held as columns: at 10M rows a row costs about 60
 /// bytes here (by the sizes of its fields), where a struct per row with its own strings cost
-/// about 200. Entity, group and currency texts are places in `texts`; flags are kept only for
-/// the rows that have any, in the order they were raised.
+/// about 200. Row ids are a rule, not a column; entity, group and currency texts are places in
+/// `texts`; flags are kept only for the rows that have any, in the order they were raised.
 #[derive(Debug, Clone, Default)]
 pub struct CanonicalRows {
-    pub row_id: Vec<RowId>,
-    pub line: Vec<usize>,
+    row_ids: RowIds,
+    pub line: Vec<u32>,
     pub entity_input: Vec<u32>,
     pub year: Vec<Option<i32>>,
     pub group: Vec<Option<u32>>,
@@ -154,7 +165,8 @@ pub struct RowParts<'a> {
     pub entity_input: u32,
     pub year: Option<i32>,
     pub group: Option<u32>,
-    pub value_input: &'a str,
+    /// None when the caller sets the whole `value_input` column afterwards.
+    pub value_input: Option<&'a str>,
     pub value: Option<f64>,
     pub currency: Option<u32>,
     pub flags: Vec<&'static str>,
@@ -163,7 +175,6 @@ pub struct RowParts<'a> {
 impl CanonicalRows {
     pub fn with_capacity(rows: usize) -> CanonicalRows {
         CanonicalRows {
-            row_id: Vec::with_capacity(rows),
             line: Vec::with_capacity(rows),
             entity_input: Vec::with_capacity(rows),
             year: Vec::with_capacity(rows),
@@ -176,29 +187,60 @@ impl CanonicalRows {
     }
 
     pub fn len(&self) -> usize {
-        self.row_id.len()
+        self.line.len()
     }
 
     pub fn is_empty(&self) -> bool {
-        self.row_id.is_empty()
+        self.line.is_empty()
     }
 
-    pub fn push(&mut self, row: RowParts) {
+    /// The ids rows will be pushed with, from the table's first data row after `offset` data
+    /// rows: one row a data row, or (a wide table) one a year column in `years`, in turn.
+    pub fn expect_ids(&mut self, offset: usize, years: &[i32]) {
+        if self.is_empty() {
+            self.row_ids = RowIds::Rule {
+                offset,
+                years: years.to_vec(),
+            };
+        }
+    }
+
+    /// Row `at`'s id.
+    pub fn row_id(&self, at: usize) -> RowId {
+        self.row_ids.get(at)
+    }
+
+    /// Row `at`'s line, as the table finder counted it.
+    pub fn line(&self, at: usize) -> usize {
+        self.line[at] as usize
+    }
+
+    pub fn push(&mut self, row: RowParts) -> Result<(), TooLarge> {
         let at = self.len();
-        self.row_id.push(row.row_id);
-        self.line.push(row.line);
+        if let Some(text) = row.value_input {
+            self.value_input.push(text)?;
+        }
+        self.row_ids.push(at, row.row_id);
+        // A table's lines are counted in `u32` (`Records`), so a row's line fits.
+        self.line
+            .push(u32::try_from(row.line).map_err(|_| TooLarge)?);
         self.entity_input.push(row.entity_input);
         self.year.push(row.year);
         self.group.push(row.group);
-        self.value_input.push(row.value_input);
         self.value.push(row.value);
         self.currency.push(row.currency);
         self.add_flags(at, row.flags);
+        Ok(())
     }
 
     /// Sets the margin-derived standard error and carried texts of the last row pushed (long
     /// tables, with margins or extra columns), with the flags the margins raised.
-    pub fn finish_last(&mut self, se: Option<f64>, extra: &[&str], flags: Vec<&'static str>) {
+    pub fn finish_last(
+        &mut self,
+        se: Option<f64>,
+        extra: &[&str],
+        flags: Vec<&'static str>,
+    ) -> Result<(), TooLarge> {
         let at = self.len() - 1;
         if self.se.len() < at {
             self.se.resize(at, None);
@@ -208,9 +250,10 @@ impl CanonicalRows {
             self.extra.resize_with(extra.len(), TextColumn::default);
         }
         for (column, text) in self.extra.iter_mut().zip(extra) {
-            column.push(text);
+            column.push(text)?;
         }
         self.add_flags(at, flags);
+        Ok(())
     }
 
     fn add_flags(&mut self, at: usize, flags: Vec<&'static str>) {
@@ -272,11 +315,12 @@ mod tests {
                 entity_input,
                 year: Some(2020),
                 group: None,
-                value_input,
+                value_input: Some(value_input),
                 value: value_input.parse().ok(),
                 currency: None,
                 flags,
-            });
+            })
+            .unwrap();
         };
         parts(1, "1.5", vec![]);
         parts(2, "", vec!["missing_value"]);
@@ -285,9 +329,52 @@ mod tests {
         assert_eq!(rows.len(), 2);
         assert_eq!((rows.entity_text(1), rows.texts.len()), ("France", 1));
         assert_eq!(rows.value_input.iter().collect::<Vec<_>>(), vec!["1.5", ""]);
+        assert_eq!(rows.row_id(1).to_string(), "2");
         assert_eq!(rows.flags(0), &["unresolved"]);
         assert_eq!(rows.flags(1), &["missing_value", "aggregate"]);
         assert_eq!((rows.se(1), rows.extra(1, 0)), (None, ""));
+    }
+
+    #[test]
+    fn row_ids_follow_the_rule_until_a_row_breaks_it() {
+        let push = |rows: &mut CanonicalRows, data_row, year_column| {
+            let entity_input = rows.texts.place("Chile");
+            rows.push(RowParts {
+                row_id: RowId {
+                    data_row,
+                    year_column,
+                },
+                line: data_row + 1,
+                entity_input,
+                year: year_column,
+                group: None,
+                value_input: Some(""),
+                value: None,
+                currency: None,
+                flags: vec![],
+            })
+            .unwrap();
+        };
+        let ids = |rows: &CanonicalRows| -> Vec<String> {
+            (0..rows.len())
+                .map(|i| rows.row_id(i).to_string())
+                .collect()
+        };
+        // A wide table of two year columns, after 10 data rows.
+        let mut rows = CanonicalRows::default();
+        rows.expect_ids(10, &[2019, 2020]);
+        for (data_row, year) in [(11, 2019), (11, 2020), (12, 2019), (12, 2020)] {
+            push(&mut rows, data_row, Some(year));
+        }
+        assert!(matches!(rows.row_ids, RowIds::Rule { .. }));
+        assert_eq!(ids(&rows), vec!["11:2019", "11:2020", "12:2019", "12:2020"]);
+        // A row the rule does not give: the ids become a list, the same ones.
+        push(&mut rows, 20, None);
+        assert!(matches!(rows.row_ids, RowIds::Listed(_)));
+        assert_eq!(
+            ids(&rows),
+            vec!["11:2019", "11:2020", "12:2019", "12:2020", "20"]
+        );
     }
 
     #[test]
@@ -304,11 +391,12 @@ mod tests {
                 entity_input,
                 year: None,
                 group: None,
-                value_input: "3",
+                value_input: Some("3"),
                 value: Some(3.0),
                 currency: None,
                 flags: vec![],
-            });
+            })
+            .unwrap();
             rows.finish_last(
                 se,
                 &["claimed", "note"],
@@ -317,7 +405,8 @@ mod tests {
                 } else {
                     vec![]
                 },
-            );
+            )
+            .unwrap();
         }
         assert_eq!((rows.se(0), rows.se(1)), (Some(0.5), None));
         assert_eq!(

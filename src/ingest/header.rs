@@ -21,7 +21,7 @@ pub struct FindOptions {
 }
 
 /// Records searched for the header, and records looked at below each candidate.
-const HEADER_SEARCH: usize = 1000;
+pub(super) const HEADER_SEARCH: usize = 1000;
 const BLOCK_WINDOW: usize = 200;
 
 /// What a cell holds, as far as finding the table is concerned.
@@ -58,6 +58,14 @@ pub(super) struct Raw {
 }
 
 impl Raw {
+    pub(super) fn spot(&self) -> crate::ingest::body::Spot {
+        crate::ingest::body::Spot {
+            line: self.line,
+            start: self.start,
+            end: self.end,
+        }
+    }
+
     pub(super) fn filled(&self) -> usize {
         self.record.iter().filter(|c| !c.trim().is_empty()).count()
     }

@@ -453,7 +453,7 @@ fn share_resolving(
     let cells: Vec<&str> = table
         .records
         .iter()
-        .map(|r| r.cells[column].trim())
+        .map(|r| r.cells.at(column).trim())
         .filter(|c| !c.is_empty())
         .take(100)
         .collect();

@@ -125,7 +125,7 @@ pub fn ingest(
     // Formulas are never evaluated: a row whose sheet row holds one says so.
     if !formula_rows.is_empty() {
         for at in 0..rows.len() {
-            if formula_rows.contains(&rows.line[at]) {
+            if formula_rows.contains(&rows.line(at)) {
                 rows.flag(at, flags::FORMULA_CELL);
             }
         }
@@ -289,7 +289,7 @@ fn varying_dimensions(table: &table::TextTable, roles: &layout::Roles) -> Vec<us
             .copied()
             .filter(|&d| d != roles.entity)
             .filter(|&d| {
-                let first = table.records.first().map(|r| r.cells[d].trim());
+                let first = table.records.first().map(|r| r.cells.at(d).trim());
                 table
                     .records
                     .iter()
@@ -407,7 +407,7 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
             )
         })?;
     // Read as it is: no formula guard on an input.
-    crate::format::render_csv(&frame, crate::format::Rounding::Full, false)
+    crate::csv_writer::render_csv(&frame, crate::format::Rounding::Full, false)
 }
 
 /// Warnings about the reading: lines set aside (never read as rows), and a semicolon table
@@ -489,13 +489,15 @@ mod tests {
             IngestOptions::default(),
         )
         .unwrap();
-        let ids: Vec<String> = out.rows.row_id.iter().map(ToString::to_string).collect();
+        let ids: Vec<String> = (0..out.rows.len())
+            .map(|i| out.rows.row_id(i).to_string())
+            .collect();
         assert_eq!(ids, vec!["1:2019", "1:2020", "2:2019", "2:2020"]);
         assert_eq!(out.rows.value[0], Some(1200.0));
         assert_eq!(out.rows.value[1], None);
         assert_eq!(out.rows.flags(1), &["missing_value"]);
         assert_eq!(out.rows.flags(2), &["footnote"]);
-        assert_eq!(out.rows.line[3], 3);
+        assert_eq!(out.rows.line(3), 3);
         assert_eq!(out.rows.value_input.get(2), "3*");
     }
 

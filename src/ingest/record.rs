@@ -1,18 +1,248 @@
-//! One record's cells, held compactly: the cells' text end to end in one string and where each
-//! cell ends. The table finder keeps every record of a file in memory while it looks for the
-//! table, so a record costs two exact-size allocations here (the csv crate's record costs three
-//! growable ones and its position, about three times the memory on a long table).
+//! The records of a table, held as columns, and one record's cells while the finder looks for
+//! the table. The finder reads the text one record at a time: the records above the header
+//! and a few below it are held as compact `Cells` (two allocations a record) while the header
+//! is chosen; every record of the table then goes into `Records`, one text buffer per column,
+//! which costs no allocation a record (at 10M records the records held one by one took about
+//! 1 GB, and twice that many allocations).
 
 use std::ops::Index;
 
-/// A record of the table with the line it starts on.
-#[derive(Debug, Clone)]
-pub struct TextRecord {
+/// Texts end to end in one string, with where each ends: a column of short texts without an
+/// allocation per cell (four bytes a cell besides its text).
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct TextColumn {
+    text: String,
+    ends: Vec<u32>,
+}
+
+impl TextColumn {
+    pub fn with_capacity(cells: usize) -> TextColumn {
+        TextColumn {
+            text: String::new(),
+            ends: Vec::with_capacity(cells),
+        }
+    }
+
+    /// Adds a cell; refused once the column's text would pass 4 GiB.
+    pub fn push(&mut self, cell: &str) -> Result<(), TooLarge> {
+        let end = u32::try_from(self.text.len() + cell.len()).map_err(|_| TooLarge)?;
+        self.text.push_str(cell);
+        self.ends.push(end);
+        Ok(())
+    }
+
+    pub fn len(&self) -> usize {
+        self.ends.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.ends.is_empty()
+    }
+
+    pub fn get(&self, i: usize) -> &str {
+        let start = match i {
+            0 => 0,
+            _ => self.ends[i - 1] as usize,
+        };
+        &self.text[start..self.ends[i] as usize]
+    }
+
+    pub fn iter(&self) -> impl Iterator<Item = &str> + '_ {
+        (0..self.len()).map(move |i| self.get(i))
+    }
+}
+
+/// The records of a found table, as columns of text: record `row`'s cell `column` is
+/// `columns[column].get(row)`.
+#[derive(Debug, Clone, Default)]
+pub struct Records {
+    columns: Vec<TextColumn>,
+    lines: Vec<u32>,
+    /// The records cut out of a runaway quote (`--lenient`), in order.
+    unbalanced: Vec<usize>,
+}
+
+/// One record of `Records`: the line it starts on, its cells, and whether it was cut out of a
+/// runaway quote (its cells are then as written).
+#[derive(Debug, Clone, Copy)]
+pub struct TextRecord<'a> {
     pub line: usize,
-    /// The cells, indexable as `&str` (held compactly, not one allocation per cell).
-    pub cells: Cells,
-    /// The line was cut out of a runaway quote (`--lenient`): its cells are as written.
+    pub cells: RecordCells<'a>,
     pub unbalanced_quote: bool,
+}
+
+/// The cells of one record of `Records`, indexable as `&str`.
+#[derive(Clone, Copy)]
+pub struct RecordCells<'a> {
+    records: &'a Records,
+    row: usize,
+}
+
+impl<'a> RecordCells<'a> {
+    pub fn len(&self) -> usize {
+        self.records.columns.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.records.columns.is_empty()
+    }
+
+    pub fn get(&self, i: usize) -> Option<&'a str> {
+        self.records.columns.get(i).map(|c| c.get(self.row))
+    }
+
+    /// Cell `i`, borrowed from the records (not from this view).
+    pub fn at(&self, i: usize) -> &'a str {
+        self.records.columns[i].get(self.row)
+    }
+
+    pub fn iter(&self) -> impl DoubleEndedIterator<Item = &'a str> + ExactSizeIterator + 'a {
+        let (records, row) = (self.records, self.row);
+        records.columns.iter().map(move |c| c.get(row))
+    }
+}
+
+impl Index<usize> for RecordCells<'_> {
+    type Output = str;
+
+    fn index(&self, i: usize) -> &str {
+        self.records.columns[i].get(self.row)
+    }
+}
+
+impl std::fmt::Debug for RecordCells<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_list().entries(self.iter()).finish()
+    }
+}
+
+/// A table's text is more than a column's buffer can address (4 GiB in one column).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TooLarge;
+
+impl TooLarge {
+    /// The error a user sees, about `file`.
+    pub fn error(self, file: &str) -> crate::error::Error {
+        crate::error::Error::bad_input(
+            crate::error::Location::file(file),
+            "one column of the table holds more than 4 GiB of text (or the table has more than 4 billion lines)",
+            "a table whose columns hold at most 4 GiB of text each",
+            "split the table into smaller files, or read a csv or tsv file in pieces with --streaming",
+        )
+    }
+}
+
+impl Records {
+    /// No records, in `width` columns.
+    pub fn new(width: usize) -> Records {
+        Records {
+            columns: vec![TextColumn::default(); width],
+            ..Records::default()
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.lines.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.lines.is_empty()
+    }
+
+    pub fn width(&self) -> usize {
+        self.columns.len()
+    }
+
+    /// Adds a record of `width` cells (missing cells at its end are empty, extra ones dropped).
+    pub fn push<'c>(
+        &mut self,
+        line: usize,
+        cells: impl IntoIterator<Item = &'c str>,
+        unbalanced_quote: bool,
+    ) -> Result<(), TooLarge> {
+        let line = u32::try_from(line).map_err(|_| TooLarge)?;
+        let mut cells = cells.into_iter();
+        for column in &mut self.columns {
+            column.push(cells.next().unwrap_or(""))?;
+        }
+        if unbalanced_quote {
+            self.unbalanced.push(self.lines.len());
+        }
+        self.lines.push(line);
+        Ok(())
+    }
+
+    pub fn get(&self, row: usize) -> TextRecord<'_> {
+        TextRecord {
+            line: self.lines[row] as usize,
+            cells: RecordCells { records: self, row },
+            unbalanced_quote: self.unbalanced.binary_search(&row).is_ok(),
+        }
+    }
+
+    pub fn first(&self) -> Option<TextRecord<'_>> {
+        (!self.is_empty()).then(|| self.get(0))
+    }
+
+    pub fn iter(&self) -> impl ExactSizeIterator<Item = TextRecord<'_>> + '_ {
+        (0..self.len()).map(move |row| self.get(row))
+    }
+
+    /// How many records were cut out of a runaway quote.
+    pub fn unbalanced_count(&self) -> usize {
+        self.unbalanced.len()
+    }
+
+    /// The columns from `width` on are dropped.
+    pub fn truncate_columns(&mut self, width: usize) {
+        self.columns.truncate(width);
+    }
+
+    /// Column `column`'s cells, taken out (the records have no such text afterwards: call it
+    /// only once every record has been read).
+    pub fn take_column(&mut self, column: usize) -> TextColumn {
+        std::mem::take(&mut self.columns[column])
+    }
+}
+
+impl<'a> IntoIterator for &'a Records {
+    type Item = TextRecord<'a>;
+    type IntoIter = Box<dyn ExactSizeIterator<Item = TextRecord<'a>> + 'a>;
+
+    fn into_iter(self) -> Self::IntoIter {
+        Box::new(self.iter())
+    }
+}
+
+/// A record's cells as text, however they are held: the csv reader's record as it is read,
+/// or `Cells` once kept.
+pub trait Fields {
+    fn count(&self) -> usize;
+    fn field(&self, i: usize) -> Option<&str>;
+
+    fn fields(&self) -> impl DoubleEndedIterator<Item = &str> + ExactSizeIterator {
+        (0..self.count()).map(move |i| self.field(i).unwrap_or(""))
+    }
+}
+
+impl Fields for csv::StringRecord {
+    fn count(&self) -> usize {
+        self.len()
+    }
+
+    fn field(&self, i: usize) -> Option<&str> {
+        self.get(i)
+    }
+}
+
+impl Fields for Cells {
+    fn count(&self) -> usize {
+        self.len()
+    }
+
+    fn field(&self, i: usize) -> Option<&str> {
+        self.get(i)
+    }
 }
 
 /// The cells of one record, indexable as `&str`.
@@ -23,6 +253,11 @@ pub struct Cells {
 }
 
 impl Cells {
+    /// The cells of any record, kept.
+    pub fn of(record: &impl Fields) -> Cells {
+        record.fields().collect()
+    }
+
     /// The cells of a record read by the csv reader from UTF-8 text. `None` when the record is
     /// not UTF-8 (it cannot be, cut from a `&str` at ASCII delimiters) or is 4 GiB or longer.
     pub fn from_byte_record(record: &csv::ByteRecord) -> Option<Cells> {
@@ -115,6 +350,27 @@ impl std::fmt::Debug for Cells {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn records_read_back_by_row_and_column_and_columns_can_be_taken() {
+        let mut records = Records::new(3);
+        records.push(2, ["a", "1", "x"], false).unwrap();
+        records.push(4, ["b", "2"], true).unwrap();
+        records.push(5, ["c", "3", "z", "ignored"], false).unwrap();
+        assert_eq!((records.len(), records.width()), (3, 3));
+        let second = records.get(1);
+        assert_eq!((second.line, second.unbalanced_quote), (4, true));
+        assert_eq!(second.cells.iter().collect::<Vec<_>>(), vec!["b", "2", ""]);
+        assert_eq!(&records.get(2).cells[2], "z");
+        assert_eq!(records.unbalanced_count(), 1);
+        assert!(!records.first().unwrap().unbalanced_quote);
+        let lines: Vec<usize> = records.iter().map(|r| r.line).collect();
+        assert_eq!(lines, vec![2, 4, 5]);
+        let taken = records.take_column(1);
+        assert_eq!(taken.iter().collect::<Vec<_>>(), vec!["1", "2", "3"]);
+        records.truncate_columns(1);
+        assert_eq!(records.get(0).cells.len(), 1);
+    }
 
     #[test]
     fn cells_read_back_as_the_csv_reader_split_them() {

@@ -27,11 +27,11 @@ pub(super) struct RowPlan<'a> {
 }
 
 /// The canonical rows of `records` (the records of `table`, taken out of it), in their order.
-/// Each record is dropped once read, so that the rows reuse its memory rather than fresh pages
-/// (at 10M rows the records hold about 1 GB, by their sizes).
+/// In a long table the figures' column becomes the rows' `value_input` as it is, without a
+/// copy.
 pub(super) fn read_rows(
     table: &table::TextTable,
-    records: Vec<table::TextRecord>,
+    mut records: table::Records,
     plan: &RowPlan,
 ) -> Result<CanonicalRows> {
     let RowPlan {
@@ -57,9 +57,10 @@ pub(super) fn read_rows(
         Shape::Wide { year_columns } => year_columns.len(),
     };
     let mut rows = CanonicalRows::with_capacity(records.len() * rows_per_record);
+    rows.expect_ids(options.row_offset, &wide_years(&roles.shape));
     let with_margins = margin_count > 0 || roles.reserved.len() > margin_count;
-    for (index, record) in records.into_iter().enumerate() {
-        let record = &record;
+    for index in 0..records.len() {
+        let record = &records.get(index);
         let data_row = index + 1 + options.row_offset;
         let entity_input = rows.texts.place(record_entity(record, roles, sdmx));
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
@@ -95,6 +96,7 @@ pub(super) fn read_rows(
                         cell: &record.cells[*value],
                         column: &table.headers[*value],
                         multiplier,
+                        moved: true,
                     },
                     currency_cell,
                     row_flags,
@@ -121,6 +123,7 @@ pub(super) fn read_rows(
                             cell: &record.cells[column],
                             column: &table.headers[column],
                             multiplier,
+                            moved: false,
                         },
                         currency_cell,
                         marks.flags(record),
@@ -129,12 +132,27 @@ pub(super) fn read_rows(
             }
         }
     }
+    if let Shape::Long { value, .. } = &roles.shape {
+        rows.value_input = records.take_column(*value);
+    }
     Ok(rows)
+}
+
+/// The years of a wide table's year columns, in order (none for a long table).
+fn wide_years(shape: &Shape) -> Vec<i32> {
+    match shape {
+        Shape::Long { .. } => Vec::new(),
+        Shape::Wide { year_columns } => year_columns.iter().map(|&(_, y)| y).collect(),
+    }
 }
 
 /// The entity text of a record: its entity cell, or the fallback column's where that is
 /// empty; of an SDMX-CSV 2.0 cell labelled `AUS: Australia`, the code.
-fn record_entity<'r>(record: &'r table::TextRecord, roles: &layout::Roles, sdmx: bool) -> &'r str {
+fn record_entity<'r>(
+    record: &'r table::TextRecord<'_>,
+    roles: &layout::Roles,
+    sdmx: bool,
+) -> &'r str {
     match roles.entity_fallback {
         Some(name) if record.cells[roles.entity].trim().is_empty() => &record.cells[name],
         _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]),
@@ -145,7 +163,7 @@ fn record_entity<'r>(record: &'r table::TextRecord, roles: &layout::Roles, sdmx:
 /// A record's group: the group column's text, or the varying dimensions of a statistics
 /// office's table joined with commas.
 fn record_group<'r>(
-    record: &'r table::TextRecord,
+    record: &'r table::TextRecord<'_>,
     roles: &layout::Roles,
     auto_group: &[usize],
 ) -> Option<std::borrow::Cow<'r, str>> {
@@ -172,7 +190,7 @@ fn record_group<'r>(
 fn push_margins(
     rows: &mut CanonicalRows,
     value: Option<f64>,
-    record: &table::TextRecord,
+    record: &table::TextRecord<'_>,
     table: &table::TextTable,
     plan: &RowPlan,
     multiplier: Option<Decimal>,
@@ -198,7 +216,8 @@ fn push_margins(
         .iter()
         .map(|&i| &record.cells[i])
         .collect();
-    rows.finish_last(se, &extra, flags);
+    rows.finish_last(se, &extra, flags)
+        .map_err(|e| e.error(plan.file))?;
     Ok(())
 }
 
@@ -212,11 +231,13 @@ struct Place {
 }
 
 /// A figure's cell, its column and the multiplier of its row (`--value-multiplier` times a
-/// unit-multiplier column's power of ten).
+/// unit-multiplier column's power of ten); `moved` when the figures' column becomes the rows'
+/// `value_input` whole, after the last row (a long table).
 struct Figure<'a> {
     cell: &'a str,
     column: &'a str,
     multiplier: Option<Decimal>,
+    moved: bool,
 }
 
 /// What a record says about its figures beyond the value: a footnote column (a data portal's
@@ -287,7 +308,7 @@ impl RecordMarks {
         notes
     }
 
-    fn flags(&self, record: &table::TextRecord) -> Vec<&'static str> {
+    fn flags(&self, record: &table::TextRecord<'_>) -> Vec<&'static str> {
         let mut out = Vec::new();
         if record.unbalanced_quote {
             out.push(flags::UNBALANCED_QUOTE);
@@ -306,7 +327,7 @@ impl RecordMarks {
     /// column, exactly.
     pub(crate) fn multiplier(
         &self,
-        record: &table::TextRecord,
+        record: &table::TextRecord<'_>,
         given: Option<Decimal>,
         file: &str,
     ) -> Result<Option<Decimal>> {
@@ -360,6 +381,7 @@ impl RowReader<'_> {
             cell,
             column,
             multiplier,
+            ..
         } = figure;
         let value = match number::parse_cell(cell, self.options.number_style) {
             Ok(Cell::Number {
@@ -424,11 +446,12 @@ impl RowReader<'_> {
             entity_input: place.entity_input,
             year: place.year,
             group: place.group,
-            value_input: cell,
+            value_input: (!figure.moved).then_some(cell),
             value,
             currency,
             flags: row_flags,
-        });
+        })
+        .map_err(|e| e.error(self.file))?;
         Ok(value)
     }
 

@@ -258,7 +258,7 @@ fn stated_kind(t: &TextTable) -> Stated {
         let mut values: Vec<&str> = t
             .records
             .iter()
-            .map(|r| r.cells[c].trim())
+            .map(|r| r.cells.at(c).trim())
             .filter(|v| !v.is_empty())
             .collect();
         values.sort();

@@ -68,7 +68,7 @@ struct Observed {
 /// none when the value is missing; a period that is not a year, a value that is not a number
 /// and a factor that is not positive are errors at the record's line.
 fn observation(
-    record: &crate::ingest::table::TextRecord,
+    record: &crate::ingest::table::TextRecord<'_>,
     columns: &Observed,
     text_table: &table::TextTable,
     file: &str,
@@ -203,7 +203,7 @@ pub fn load_sdmx(
             }
         };
         let Some((year, factor)) = observation(
-            record,
+            &record,
             &Observed {
                 time,
                 value,

@@ -156,9 +156,9 @@ fn load_plain(
             .join(",");
         let series_id = origins.series_id(&series);
         let power = marks
-            .multiplier(record, None, file)?
+            .multiplier(&record, None, file)?
             .map_or(1.0, crate::cells::number::to_f64);
-        for (year, column) in year_cells(text_table, &roles, record, file)? {
+        for (year, column) in year_cells(text_table, &roles, &record, file)? {
             let header = &text_table.headers[column];
             let cell = &record.cells[column];
             let Some(value) = factor_cell(cell, resource, file, record.line, header)? else {
@@ -235,7 +235,7 @@ fn plain_roles(
 fn year_cells(
     text_table: &table::TextTable,
     roles: &layout::Roles,
-    record: &table::TextRecord,
+    record: &table::TextRecord<'_>,
     file: &str,
 ) -> Result<Vec<(i32, usize)>> {
     Ok(match &roles.shape {

@@ -9,8 +9,9 @@ pub mod html;
 pub mod methods;
 pub mod summary;
 
+pub use crate::csv_writer::{render_csv, write_csv};
 use crate::error::{Error, Result};
-pub use crate::format::{self, render_csv, write_csv};
+pub use crate::format;
 use crate::pipeline::RunSummary;
 pub use crate::staging::{persist_atomically, temp_beside, write_atomically, Staging};
 use format::{column_json, column_texts, Rounding};
@@ -122,8 +123,7 @@ pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> R
     render_csv(&narrow, rounding, guard)
 }
 
-/// The column that carries a run's notice in its data files.
-pub const NOTICE_COLUMN: &str = "data_notice";
+pub use crate::output::NOTICE_COLUMN;
 
 /// The frame with the notice as its first column, on every row.
 pub fn with_notice_column(frame: &DataFrame, notice: &str) -> Result<DataFrame> {

@@ -83,10 +83,10 @@ proptest! {
         let (resolver, references) = demo_references();
         let text = table(&rows);
         let out = run_adjust(text.as_bytes(), "generated.csv", &settings(&["deflate", "ppp"]), &resolver, Some(&references)).unwrap();
-        prop_assert_eq!(out.frame.height(), rows.len());
-        let values = floats(&out.frame, "value_adjusted");
-        let ranks = ints(&out.frame, "rank_adjusted");
-        let years: Vec<Option<i32>> = out.frame.column("year").unwrap().i32().unwrap().iter().collect();
+        prop_assert_eq!(out.table.text_frame().unwrap().height(), rows.len());
+        let values = floats(&out.table.text_frame().unwrap(), "value_adjusted");
+        let ranks = ints(&out.table.text_frame().unwrap(), "rank_adjusted");
+        let years: Vec<Option<i32>> = out.table.text_frame().unwrap().column("year").unwrap().i32().unwrap().iter().collect();
         let mut checked = 0;
         for i in 0..rows.len() {
             let Some(rank) = ranks[i] else { continue };
@@ -104,9 +104,9 @@ proptest! {
     fn an_exact_factor_divides_back_out(rows in row_strategy()) {
         let (resolver, references) = demo_references();
         let out = run_adjust(table(&rows).as_bytes(), "g.csv", &settings(&["ppp"]), &resolver, Some(&references)).unwrap();
-        let value = floats(&out.frame, "value");
-        let adjusted = floats(&out.frame, "value_intl");
-        let ppp = floats(&out.frame, "ppp_used");
+        let value = floats(&out.table.text_frame().unwrap(), "value");
+        let adjusted = floats(&out.table.text_frame().unwrap(), "value_intl");
+        let ppp = floats(&out.table.text_frame().unwrap(), "ppp_used");
         let mut checked = 0;
         for i in 0..rows.len() {
             if let (Some(v), Some(a), Some(p)) = (value[i], adjusted[i], ppp[i]) {
@@ -127,7 +127,7 @@ proptest! {
         grown[pick].2 = Some(values[pick] + growth);
         let run = |r: &[(usize, i32, Option<f64>)]| {
             let out = run_adjust(table(r).as_bytes(), "g.csv", &settings(&["ppp"]), &resolver, Some(&references)).unwrap();
-            ints(&out.frame, "rank_adjusted")
+            ints(&out.table.text_frame().unwrap(), "rank_adjusted")
         };
         let (before, after) = (run(&rows), run(&grown));
         // One row per entity (at most seven), all with factors: both runs rank the pick.

@@ -1,0 +1,387 @@
+//! The adjusted table as it is written: the engine's columns (figures, factors, stages, ranks)
+//! in a polars frame, and beside it the texts of each row (its id, the entity as given and as
+//! resolved, the group, the figure as given, the currency) and its flags, each text held once
+//! and written into a cell only when a file is written. Held as polars text columns, those
+//! texts cost about 2 GB of fresh memory at 10M rows (sixteen bytes a cell, and more for long
+//! names); here the entities are held once, the groups and currencies once per distinct text,
+//! and the flags once per distinct combination.
+//!
+//! The csv writer renders the texts straight into its buffers (`CellTable`); every other
+//! output (Parquet, json, the terminal and Markdown tables, the report, the audit) takes
+//! `text_frame`, the same cells as polars text columns. Both go through `RowTexts::push`, so
+//! a cell's text has one definition.
+
+use crate::csv_writer::{CellSource, CellTable};
+use crate::error::{Error, Result};
+use crate::flags::{FlagColumn, FlagColumnBuilder, FlagCounts, LateFlags};
+use crate::format::Rounding;
+use crate::ingest::CanonicalRows;
+use crate::resolve::{self, EntityColumns};
+use polars::prelude::*;
+use std::sync::Arc;
+
+/// The column that carries a run's notice (the demo's INVENTED DATA) in its data files.
+pub const NOTICE_COLUMN: &str = "data_notice";
+
+/// An output column that is written from the rows' texts, not held in the frame.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum TextKind {
+    RowId,
+    EntityInput,
+    EntityCode,
+    EntityName,
+    EntityKind,
+    Group,
+    ValueInput,
+    Currency,
+}
+
+const TEXT_KINDS: [(&str, TextKind); 8] = [
+    ("row_id", TextKind::RowId),
+    ("entity_input", TextKind::EntityInput),
+    ("entity_code", TextKind::EntityCode),
+    ("entity_name", TextKind::EntityName),
+    ("entity_kind", TextKind::EntityKind),
+    ("group", TextKind::Group),
+    ("value_input", TextKind::ValueInput),
+    ("currency", TextKind::Currency),
+];
+
+impl TextKind {
+    /// The text column named `name`, if it is one.
+    pub fn of(name: &str) -> Option<TextKind> {
+        TEXT_KINDS
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, kind)| *kind)
+    }
+
+    pub fn name(self) -> &'static str {
+        TEXT_KINDS
+            .iter()
+            .find(|(_, kind)| *kind == self)
+            .map_or("", |(name, _)| name)
+    }
+}
+
+/// The texts of every row, in row order: what ingest read (through `CanonicalRows`, whose
+/// year and figure columns have gone into the frame), the entities they resolved to, and
+/// each row's factor key with the flags its factors raised.
+pub struct RowTexts {
+    rows: CanonicalRows,
+    entities: EntityColumns,
+    /// Each row's entity-year (a place in `key_flags`), or none (no entity or no year).
+    keys: Vec<Option<u32>>,
+    /// The flags of each entity-year's factors (missing, from another year), joined with `;`.
+    key_flags: Vec<Option<String>>,
+}
+
+impl RowTexts {
+    pub fn new(
+        rows: CanonicalRows,
+        entities: EntityColumns,
+        keys: Vec<Option<u32>>,
+        key_flags: Vec<Option<String>>,
+    ) -> RowTexts {
+        RowTexts {
+            rows,
+            entities,
+            keys,
+            key_flags,
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.keys.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.keys.is_empty()
+    }
+
+    /// Appends row `row`'s text of `kind` to `out`; false where the cell is empty (null).
+    pub fn push(&self, kind: TextKind, row: usize, out: &mut String) -> bool {
+        let entity = || self.entities.of(row);
+        let text = match kind {
+            TextKind::RowId => {
+                let id = self.rows.row_id(row);
+                out.push_str(itoa::Buffer::new().format(id.data_row));
+                if let Some(year) = id.year_column {
+                    out.push(':');
+                    out.push_str(itoa::Buffer::new().format(year));
+                }
+                return true;
+            }
+            TextKind::EntityInput => Some(self.rows.entity_text(row)),
+            TextKind::EntityCode => entity().map(|e| e.code.as_str()),
+            TextKind::EntityName => entity().map(|e| e.name.as_str()),
+            TextKind::EntityKind => entity().map(|e| e.kind.as_str()),
+            TextKind::Group => self.rows.group_text(row),
+            TextKind::ValueInput => Some(self.rows.value_input.get(row)),
+            TextKind::Currency => resolve::row_currency(&self.rows, row, entity()),
+        };
+        match text {
+            Some(text) => {
+                out.push_str(text);
+                true
+            }
+            None => false,
+        }
+    }
+
+    /// The column of `kind`, as polars text (null where the cell is empty).
+    pub fn column(&self, kind: TextKind) -> Column {
+        let mut builder = StringChunkedBuilder::new(kind.name().into(), self.len());
+        let mut text = String::new();
+        for row in 0..self.len() {
+            text.clear();
+            if self.push(kind, row, &mut text) {
+                builder.append_value(&text);
+            } else {
+                builder.append_null();
+            }
+        }
+        builder.finish().into_column()
+    }
+
+    /// The factor flags of row `row`'s entity-year, and that entity-year's place.
+    fn factor_flags(&self, row: usize) -> (Option<u32>, Option<&str>) {
+        let key = self.keys[row];
+        (key, key.and_then(|k| self.key_flags[k as usize].as_deref()))
+    }
+
+    /// The flags raised before ranking, as a text column named `name` (null where none): the
+    /// row's own (reading, entity, currency), then its factors'. A streamed piece carries it
+    /// to the write, where the late flags join it.
+    pub fn early_flags_column(&self, name: &str) -> Column {
+        let mut builder = StringChunkedBuilder::new(name.into(), self.len());
+        let mut text = String::new();
+        for row in 0..self.len() {
+            text.clear();
+            let (_, factor) = self.factor_flags(row);
+            for part in self.rows.flags(row).iter().copied().chain(factor) {
+                if !text.is_empty() {
+                    text.push(';');
+                }
+                text.push_str(part);
+            }
+            if text.is_empty() {
+                builder.append_null();
+            } else {
+                builder.append_value(&text);
+            }
+        }
+        builder.finish().into_column()
+    }
+
+    /// Every row's flags: its early flags, then the late ones `late` gives for it.
+    pub fn flags(&self, late: impl Fn(usize) -> LateFlags) -> FlagColumn {
+        let mut builder = FlagColumnBuilder::new(self.len(), self.key_flags.len());
+        for row in 0..self.len() {
+            let (key, factor) = self.factor_flags(row);
+            let own = self.rows.flags(row);
+            if own.is_empty() {
+                builder.push_shared(key, factor, late(row));
+            } else {
+                builder.push_own(own.iter().copied().chain(factor), late(row));
+            }
+        }
+        builder.finish()
+    }
+}
+
+/// One output column: a column of the frame, a text of the rows, the flags, or the notice.
+#[derive(Debug, Clone, PartialEq)]
+enum OutColumn {
+    Frame(String),
+    Text(TextKind),
+    Flags,
+    Notice(String),
+}
+
+impl OutColumn {
+    fn name(&self) -> &str {
+        match self {
+            OutColumn::Frame(name) => name,
+            OutColumn::Text(kind) => kind.name(),
+            OutColumn::Flags => "flags",
+            OutColumn::Notice(_) => NOTICE_COLUMN,
+        }
+    }
+}
+
+/// The output table: its columns in the documented order, each from the frame or rendered
+/// from the rows' texts (see the module documentation).
+#[derive(Clone)]
+pub struct OutputTable {
+    frame: DataFrame,
+    texts: Option<Arc<RowTexts>>,
+    flags: Option<Arc<FlagColumn>>,
+    columns: Vec<OutColumn>,
+}
+
+impl OutputTable {
+    /// A table whose columns `names` come from `frame`, the texts of `texts` and `flags`.
+    pub fn compact(
+        frame: DataFrame,
+        texts: RowTexts,
+        flags: Option<FlagColumn>,
+        names: &[String],
+    ) -> OutputTable {
+        let columns = names
+            .iter()
+            .map(|name| match (TextKind::of(name), name.as_str()) {
+                (Some(kind), _) => OutColumn::Text(kind),
+                (None, "flags") if flags.is_some() => OutColumn::Flags,
+                _ => OutColumn::Frame(name.clone()),
+            })
+            .collect();
+        OutputTable {
+            frame,
+            texts: Some(Arc::new(texts)),
+            flags: flags.map(Arc::new),
+            columns,
+        }
+    }
+
+    /// A table of the columns of `frame`, as they are.
+    pub fn plain(frame: DataFrame) -> OutputTable {
+        let columns = frame
+            .get_column_names()
+            .iter()
+            .map(|n| OutColumn::Frame(n.to_string()))
+            .collect();
+        OutputTable {
+            frame,
+            texts: None,
+            flags: None,
+            columns,
+        }
+    }
+
+    pub fn height(&self) -> usize {
+        self.frame.height()
+    }
+
+    pub fn width(&self) -> usize {
+        self.columns.len()
+    }
+
+    pub fn column_names(&self) -> Vec<String> {
+        self.columns.iter().map(|c| c.name().to_string()).collect()
+    }
+
+    /// The rows flagged and the flags by kind.
+    pub fn flag_counts(&self) -> Result<FlagCounts> {
+        match &self.flags {
+            Some(flags) => Ok(flags.counts()),
+            None => FlagCounts::of(&self.frame),
+        }
+    }
+
+    /// The table with the notice as its first column, on every row.
+    pub fn with_notice(&self, notice: &str) -> OutputTable {
+        let mut marked = self.clone();
+        marked
+            .columns
+            .insert(0, OutColumn::Notice(notice.to_string()));
+        marked
+    }
+
+    /// The table with only the columns `names`, in that order.
+    pub fn select(&self, names: &[String]) -> Result<OutputTable> {
+        let columns = names
+            .iter()
+            .map(|name| {
+                self.columns
+                    .iter()
+                    .find(|c| c.name() == name)
+                    .cloned()
+                    .ok_or_else(|| {
+                        Error::engine("selecting the output columns")(polars_err!(
+                            ColumnNotFound: "{name}"
+                        ))
+                    })
+            })
+            .collect::<Result<Vec<_>>>()?;
+        Ok(OutputTable {
+            columns,
+            ..self.clone()
+        })
+    }
+
+    /// Every output column as a polars column, the texts as text (null where empty).
+    pub fn text_frame(&self) -> Result<DataFrame> {
+        let height = self.height();
+        let columns = self
+            .columns
+            .iter()
+            .map(|column| {
+                Ok(match column {
+                    OutColumn::Frame(name) => self
+                        .frame
+                        .column(name)
+                        .map_err(Error::engine("writing the output columns"))?
+                        .clone(),
+                    OutColumn::Text(kind) => self.texts()?.column(*kind),
+                    OutColumn::Flags => self.flag_column()?.to_column("flags"),
+                    OutColumn::Notice(notice) => {
+                        Column::new(NOTICE_COLUMN.into(), vec![notice.as_str(); height])
+                    }
+                })
+            })
+            .collect::<Result<Vec<Column>>>()?;
+        DataFrame::new(height, columns).map_err(Error::engine("writing the output columns"))
+    }
+
+    fn texts(&self) -> Result<&RowTexts> {
+        self.texts
+            .as_deref()
+            .ok_or_else(|| missing("the rows' texts"))
+    }
+
+    fn flag_column(&self) -> Result<&FlagColumn> {
+        self.flags.as_deref().ok_or_else(|| missing("the flags"))
+    }
+}
+
+fn missing(what: &str) -> Error {
+    Error::engine("writing the output columns")(polars_err!(ComputeError: "{what} are not held"))
+}
+
+impl CellTable for OutputTable {
+    fn frame(&self) -> &DataFrame {
+        &self.frame
+    }
+
+    fn names(&self) -> Vec<String> {
+        self.column_names()
+    }
+
+    fn cells<'a>(
+        &'a self,
+        at: usize,
+        slice: &'a DataFrame,
+        rows: std::ops::Range<usize>,
+        rounding: Rounding,
+    ) -> CellSource<'a> {
+        let mut row = rows.start;
+        match (&self.columns[at], &self.texts, &self.flags) {
+            (OutColumn::Text(kind), Some(texts), _) => {
+                let kind = *kind;
+                CellSource::Rendered(Box::new(move |out| {
+                    texts.push(kind, row, out);
+                    row += 1;
+                }))
+            }
+            (OutColumn::Flags, _, Some(flags)) => CellSource::Rendered(Box::new(move |out| {
+                out.push_str(flags.text(row));
+                row += 1;
+            })),
+            (OutColumn::Notice(notice), _, _) => {
+                CellSource::Rendered(Box::new(move |out| out.push_str(notice)))
+            }
+            (column, _, _) => CellSource::new(slice, column.name(), rounding),
+        }
+    }
+}
