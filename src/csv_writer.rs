@@ -3,6 +3,7 @@
 //! renders some of its columns only when written. Cells are formatted by `format`'s rules;
 //! quoting is the csv crate's, and slices of rows are formatted on polars' threads.
 
+use crate::cells::text_column::TextColumn;
 use crate::error::{Error, Result};
 use crate::format::{column_texts, format_number, runs_as_formula, Rounding};
 use crate::shortest::push_shortest;
@@ -93,6 +94,23 @@ impl<'a> CellSource<'a> {
             push_quoted(out, &field);
         }
     }
+}
+
+/// The cells of column `name` of `frame` as the csv writer writes them (unquoted), each once:
+/// a column of few distinct rows (a factor per entity-year) is formatted here and copied into
+/// every row that takes it.
+pub fn cell_texts(frame: &DataFrame, name: &str, rounding: Rounding) -> Result<TextColumn> {
+    let mut cells = CellSource::new(frame, name, rounding);
+    let mut texts = TextColumn::with_capacity(frame.height());
+    let mut cell = String::new();
+    for _ in 0..frame.height() {
+        cell.clear();
+        cells.push_next(rounding, false, &mut cell);
+        texts
+            .push(&cell)
+            .map_err(|e| e.error("the formatted reference factors"))?;
+    }
+    Ok(texts)
 }
 
 /// Whether a csv field must be quoted: it holds the delimiter, a quote or a line break (the csv

@@ -9,7 +9,7 @@ use crate::error::{Error, Result};
 use crate::flags;
 use crate::ingest;
 use crate::model::PipelineSettings;
-use crate::output::RowTexts;
+use crate::output::{self, EntityYears, RowTexts};
 use crate::reference::{Kind, References};
 use crate::resolve::{self, EntityColumns, InputBasis};
 use polars::prelude::*;
@@ -251,21 +251,19 @@ pub(crate) fn attach_factors(
             year_offset: settings.factor_year_offset,
         },
     )?;
-    let places: IdxCa = canonical
-        .keys
-        .of_row
-        .iter()
-        .map(|k| k.map(|k| k as IdxSize))
-        .collect();
+    let years = EntityYears {
+        of_row: canonical.keys.of_row,
+        factors: DataFrame::new(keys.len(), lookup.columns)
+            .map_err(Error::engine("attaching the reference factors"))?,
+        flags: lookup.flags,
+    };
+    let places = years.places();
     let mut frame = canonical.frame;
-    for column in &lookup.columns {
-        let gathered = column
-            .take(&places)
-            .map_err(Error::engine("attaching the reference factors"))?;
+    for column in years.factors.columns() {
         frame
-            .with_column(gathered)
+            .with_column(output::gather_by_rows(column, &places)?)
             .map_err(Error::engine("attaching the reference factors"))?;
     }
-    let texts = RowTexts::new(rows, entities, canonical.keys.of_row, lookup.flags);
+    let texts = RowTexts::new(rows, entities, years);
     Ok((frame, texts, missing_tables.into_iter().collect()))
 }

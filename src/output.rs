@@ -11,14 +11,15 @@
 //! `text_frame`, the same cells as polars text columns. Both go through `RowTexts::push`, so
 //! a cell's text has one definition.
 
-use crate::csv_writer::{CellSource, CellTable};
+use crate::cells::text_column::TextColumn;
+use crate::csv_writer::{self, CellSource, CellTable};
 use crate::error::{Error, Result};
 use crate::flags::{FlagColumn, FlagColumnBuilder, FlagCounts, LateFlags};
 use crate::format::Rounding;
 use crate::ingest::CanonicalRows;
 use crate::resolve::{self, EntityColumns};
 use polars::prelude::*;
-use std::sync::Arc;
+use std::sync::{Arc, Mutex};
 
 /// The column that carries a run's notice (the demo's INVENTED DATA) in its data files.
 pub const NOTICE_COLUMN: &str = "data_notice";
@@ -66,29 +67,93 @@ impl TextKind {
 
 /// The texts of every row, in row order: what ingest read (through `CanonicalRows`, whose
 /// year and figure columns have gone into the frame), the entities they resolved to, and
-/// each row's factor key with the flags its factors raised.
+/// each row's entity-year with its factors and the flags they raised.
 pub struct RowTexts {
     rows: CanonicalRows,
     entities: EntityColumns,
-    /// Each row's entity-year (a place in `key_flags`), or none (no entity or no year).
+    /// Each row's entity-year (a row of `factors`), or none (no entity or no year).
     keys: Vec<Option<u32>>,
+    /// The factors of each entity-year (`attach::lookup_frame`): written into each row that
+    /// takes them, each formatted once.
+    factors: DataFrame,
     /// The flags of each entity-year's factors (missing, from another year), joined with `;`.
     key_flags: Vec<Option<String>>,
+    /// The factors' cells as written, per rounding asked for (formatted on first use).
+    factor_texts: Mutex<Vec<(Rounding, Arc<Vec<TextColumn>>)>>,
+}
+
+/// The rows' entity-years: each row's place among them (none: no entity or no year), and
+/// each one's factors and flags.
+pub struct EntityYears {
+    pub of_row: Vec<Option<u32>>,
+    pub factors: DataFrame,
+    pub flags: Vec<Option<String>>,
+}
+
+impl EntityYears {
+    /// Each row's place, as polars gathers by it.
+    pub fn places(&self) -> IdxCa {
+        places(&self.of_row)
+    }
+}
+
+fn places(of_row: &[Option<u32>]) -> IdxCa {
+    of_row.iter().map(|k| k.map(|k| k as IdxSize)).collect()
+}
+
+/// A factor column (one row an entity-year) spread over the rows by their entity-years.
+pub fn gather_by_rows(factor: &Column, places: &IdxCa) -> Result<Column> {
+    factor
+        .take(places)
+        .map_err(Error::engine("attaching the reference factors"))
 }
 
 impl RowTexts {
-    pub fn new(
-        rows: CanonicalRows,
-        entities: EntityColumns,
-        keys: Vec<Option<u32>>,
-        key_flags: Vec<Option<String>>,
-    ) -> RowTexts {
+    pub fn new(rows: CanonicalRows, entities: EntityColumns, years: EntityYears) -> RowTexts {
         RowTexts {
             rows,
             entities,
-            keys,
-            key_flags,
+            keys: years.of_row,
+            factors: years.factors,
+            key_flags: years.flags,
+            factor_texts: Mutex::new(Vec::new()),
         }
+    }
+
+    /// Whether output column `name` is written from the rows' texts or their entity-years'
+    /// factors (the frame need not hold it).
+    pub fn renders(&self, name: &str) -> bool {
+        TextKind::of(name).is_some() || self.factor_at(name).is_some()
+    }
+
+    /// Whether `name` is a factor column written from the entity-years.
+    fn factor_at(&self, name: &str) -> Option<usize> {
+        self.factors.get_column_index(name)
+    }
+
+    /// Factor column `at`, spread over the rows.
+    fn factor_column(&self, at: usize) -> Result<Column> {
+        gather_by_rows(&self.factors.columns()[at], &places(&self.keys))
+    }
+
+    /// Every factor column's cells as written with `rounding`, one an entity-year.
+    fn factor_texts(&self, rounding: Rounding) -> Result<Arc<Vec<TextColumn>>> {
+        let mut cache = self
+            .factor_texts
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
+        if let Some((_, texts)) = cache.iter().find(|(r, _)| *r == rounding) {
+            return Ok(texts.clone());
+        }
+        let texts: Vec<TextColumn> = self
+            .factors
+            .get_column_names()
+            .iter()
+            .map(|name| csv_writer::cell_texts(&self.factors, name, rounding))
+            .collect::<Result<_>>()?;
+        let texts = Arc::new(texts);
+        cache.push((rounding, texts.clone()));
+        Ok(texts)
     }
 
     pub fn len(&self) -> usize {
@@ -195,6 +260,8 @@ impl RowTexts {
 enum OutColumn {
     Frame(String),
     Text(TextKind),
+    /// A factor column, written from the entity-years (its place among them, and its name).
+    Factor(usize, String),
     Flags,
     Notice(String),
 }
@@ -202,7 +269,7 @@ enum OutColumn {
 impl OutColumn {
     fn name(&self) -> &str {
         match self {
-            OutColumn::Frame(name) => name,
+            OutColumn::Frame(name) | OutColumn::Factor(_, name) => name,
             OutColumn::Text(kind) => kind.name(),
             OutColumn::Flags => "flags",
             OutColumn::Notice(_) => NOTICE_COLUMN,
@@ -233,7 +300,10 @@ impl OutputTable {
             .map(|name| match (TextKind::of(name), name.as_str()) {
                 (Some(kind), _) => OutColumn::Text(kind),
                 (None, "flags") if flags.is_some() => OutColumn::Flags,
-                _ => OutColumn::Frame(name.clone()),
+                _ => match texts.factor_at(name) {
+                    Some(at) => OutColumn::Factor(at, name.clone()),
+                    None => OutColumn::Frame(name.clone()),
+                },
             })
             .collect();
         OutputTable {
@@ -324,6 +394,7 @@ impl OutputTable {
                         .map_err(Error::engine("writing the output columns"))?
                         .clone(),
                     OutColumn::Text(kind) => self.texts()?.column(*kind),
+                    OutColumn::Factor(at, _) => self.texts()?.factor_column(*at)?,
                     OutColumn::Flags => self.flag_column()?.to_column("flags"),
                     OutColumn::Notice(notice) => {
                         Column::new(NOTICE_COLUMN.into(), vec![notice.as_str(); height])
@@ -371,6 +442,20 @@ impl CellTable for OutputTable {
                 let kind = *kind;
                 CellSource::Rendered(Box::new(move |out| {
                     texts.push(kind, row, out);
+                    row += 1;
+                }))
+            }
+            (OutColumn::Factor(at, _), Some(texts), _) => {
+                // Formatted once an entity-year; a failure to format (a column of 4 GiB) is
+                // not possible for numbers, and writes nothing.
+                let Ok(factor_texts) = texts.factor_texts(rounding) else {
+                    return CellSource::Other(vec![String::new(); rows.len()].into_iter());
+                };
+                let at = *at;
+                CellSource::Rendered(Box::new(move |out| {
+                    if let Some(key) = texts.keys[row] {
+                        out.push_str(factor_texts[at].get(key as usize));
+                    }
                     row += 1;
                 }))
             }

@@ -12,7 +12,7 @@ use crate::flags::{self, FlagCounts, LateFlags};
 use crate::frame::{self, FrameStart};
 use crate::ingest;
 pub use crate::model::{PipelineSettings, RunSummary};
-use crate::output::{OutputTable, RowTexts, TextKind};
+use crate::output::{OutputTable, RowTexts};
 use crate::rank;
 use crate::reference::References;
 use crate::resolve::{self, ResolveOptions};
@@ -59,11 +59,12 @@ pub fn run_adjust(
     let baseline_missing = prepared.baseline_missing();
     let lf = with_ranks(prepared.lf, settings, baseline_missing)?;
     let order = output_columns(&prepared.head_columns, settings);
-    // The frame holds every output column but the texts and the flags, which are rendered
-    // from the rows (`output::RowTexts`); the two columns the late flags need come along.
+    // The frame holds every output column but the texts, the factors and the flags, which are
+    // rendered from the rows and their entity-years (`output::RowTexts`); the two columns the
+    // late flags need come along.
     let mut selection: Vec<Expr> = order
         .iter()
-        .filter(|c| TextKind::of(c).is_none() && *c != "flags")
+        .filter(|c| !prepared.texts.renders(c) && *c != "flags")
         .map(|c| col(c.as_str()))
         .collect();
     selection.extend([col("_several"), col("_mixed")]);

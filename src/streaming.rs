@@ -22,7 +22,7 @@ use crate::error::{Error, Result};
 use crate::flags::{FlagColumn, FlagCounts};
 use crate::ingest::encoding::EncodingChoice;
 use crate::ingest::table;
-use crate::output::{OutputTable, RowTexts, TextKind};
+use crate::output::{OutputTable, RowTexts};
 use crate::pipeline::{self, PipelineSettings};
 use crate::reference::References;
 use crate::report::{self, Format};
@@ -317,7 +317,7 @@ fn piece_frame(
     let keep: Vec<Expr> = head
         .iter()
         .map(String::as_str)
-        .filter(|c| TextKind::of(c).is_none())
+        .filter(|c| !texts.renders(c))
         .chain(private)
         .map(col)
         .collect();

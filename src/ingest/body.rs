@@ -132,8 +132,9 @@ impl<'a> Body<'a> {
     /// a ragged line are errors at their line.
     pub(super) fn take(&mut self, spot: Spot, record: &impl Fields) -> Result<()> {
         let width = self.headers.len();
+        let plain = record.plain(self.delimiter);
         self.empty_lines.extend(self.expected..spot.line);
-        self.expected = spot.line + 1 + breaks_in(record);
+        self.expected = spot.line + 1 + if plain { 0 } else { breaks_in(record) };
         if filled(record) == 0 {
             self.empty_lines.push(spot.line);
             return Ok(());
@@ -146,7 +147,11 @@ impl<'a> Body<'a> {
                 "split the file into one file per table, or delete the second header and check that the rows below it are in the same columns",
             ));
         }
-        if let Some(opened) = runaway_quote(spot.line, record, width, self.delimiter) {
+        let runaway = match plain {
+            true => None,
+            false => runaway_quote(spot.line, record, width, self.delimiter),
+        };
+        if let Some(opened) = runaway {
             if !self.lenient {
                 return Err(Error::bad_input(
                     Location::line(self.file, spot.line),
@@ -283,35 +288,38 @@ fn starts_footnotes(record: &impl Fields) -> bool {
         .fields()
         .map(str::trim)
         .find(|c| !c.is_empty())
-        .is_some_and(|c| c.to_lowercase().starts_with("footnote"))
+        .is_some_and(|c| starts_lowercased_with(c, "footnote"))
+}
+
+/// Whether `text` lowercased starts with `prefix` (itself lowercase), without lowercasing a
+/// copy: no character outside ASCII lowercases to the ASCII letters of the prefixes used here,
+/// and their other characters (`†`, `©` ...) have no case.
+fn starts_lowercased_with(text: &str, prefix: &str) -> bool {
+    text.as_bytes()
+        .get(..prefix.len())
+        .is_some_and(|head| head.eq_ignore_ascii_case(prefix.as_bytes()))
 }
 
 /// A line below the table that is a note: one filled cell of words, or words that open with a
 /// note marker (`Source:`, `Note`, `*`), holding no figure but years.
 fn is_note(record: &impl Fields, delimiter: u8) -> bool {
     // A cell that runs over several lines with delimiters in it is a stray quote, not a note.
-    if record
-        .fields()
-        .any(|c| c.contains('\n') && c.as_bytes().contains(&delimiter))
+    if !record.plain(delimiter)
+        && record
+            .fields()
+            .any(|c| c.contains('\n') && c.as_bytes().contains(&delimiter))
     {
         return false;
     }
-    let filled: Vec<&str> = record
-        .fields()
-        .map(str::trim)
-        .filter(|c| !c.is_empty())
-        .collect();
-    let Some(first) = filled.first() else {
+    let mut filled = record.fields().map(str::trim).filter(|c| !c.is_empty());
+    let Some(first) = filled.next() else {
         return true;
     };
-    let words = |c: &&str| {
-        c.chars()
-            .any(|ch| ch.is_alphabetic() || "*†‡§#¹²³(".contains(ch))
-    };
-    if filled.len() == 1 {
-        return words(first);
+    if filled.next().is_none() {
+        return first
+            .chars()
+            .any(|ch| ch.is_alphabetic() || "*†‡§#¹²³(".contains(ch));
     }
-    let lower = first.to_lowercase();
     let marker = [
         "source",
         "note",
@@ -330,7 +338,7 @@ fn is_note(record: &impl Fields, delimiter: u8) -> bool {
         "copyright",
     ]
     .iter()
-    .any(|m| lower.starts_with(m));
+    .any(|m| starts_lowercased_with(first, m));
     marker && record.fields().all(|c| classify(c) != CellClass::Number)
 }
 
@@ -405,6 +413,26 @@ mod tests {
         let header = key(&["ΧΏΡΑ", "Élément"]);
         assert!(repeats_header(&record(&["χώρα", "ÉLÉMENT"]), &header));
         assert!(!repeats_header(&record(&["χώρα", "element"]), &header));
+    }
+
+    #[test]
+    fn markers_are_matched_as_the_lowercased_text_would_match_them() {
+        for (text, prefix) in [
+            ("Source: x", "source"),
+            ("SOURCE", "source"),
+            ("Sourc", "source"),
+            ("† provisional", "†"),
+            ("©2024", "©"),
+            ("Ümlaut", "u"),
+            ("FOOTNOTE 1", "footnote"),
+            ("", "note"),
+        ] {
+            assert_eq!(
+                starts_lowercased_with(text, prefix),
+                text.to_lowercase().starts_with(prefix),
+                "{text:?} {prefix:?}"
+            );
+        }
     }
 
     #[test]

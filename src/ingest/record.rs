@@ -5,52 +5,8 @@
 //! which costs no allocation a record (at 10M records the records held one by one took about
 //! 1 GB, and twice that many allocations).
 
+pub use crate::cells::text_column::{TextColumn, TooLarge};
 use std::ops::Index;
-
-/// Texts end to end in one string, with where each ends: a column of short texts without an
-/// allocation per cell (four bytes a cell besides its text).
-#[derive(Debug, Clone, Default, PartialEq, Eq)]
-pub struct TextColumn {
-    text: String,
-    ends: Vec<u32>,
-}
-
-impl TextColumn {
-    pub fn with_capacity(cells: usize) -> TextColumn {
-        TextColumn {
-            text: String::new(),
-            ends: Vec::with_capacity(cells),
-        }
-    }
-
-    /// Adds a cell; refused once the column's text would pass 4 GiB.
-    pub fn push(&mut self, cell: &str) -> Result<(), TooLarge> {
-        let end = u32::try_from(self.text.len() + cell.len()).map_err(|_| TooLarge)?;
-        self.text.push_str(cell);
-        self.ends.push(end);
-        Ok(())
-    }
-
-    pub fn len(&self) -> usize {
-        self.ends.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.ends.is_empty()
-    }
-
-    pub fn get(&self, i: usize) -> &str {
-        let start = match i {
-            0 => 0,
-            _ => self.ends[i - 1] as usize,
-        };
-        &self.text[start..self.ends[i] as usize]
-    }
-
-    pub fn iter(&self) -> impl Iterator<Item = &str> + '_ {
-        (0..self.len()).map(move |i| self.get(i))
-    }
-}
 
 /// The records of a found table, as columns of text: record `row`'s cell `column` is
 /// `columns[column].get(row)`.
@@ -113,22 +69,6 @@ impl Index<usize> for RecordCells<'_> {
 impl std::fmt::Debug for RecordCells<'_> {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.debug_list().entries(self.iter()).finish()
-    }
-}
-
-/// A table's text is more than a column's buffer can address (4 GiB in one column).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct TooLarge;
-
-impl TooLarge {
-    /// The error a user sees, about `file`.
-    pub fn error(self, file: &str) -> crate::error::Error {
-        crate::error::Error::bad_input(
-            crate::error::Location::file(file),
-            "one column of the table holds more than 4 GiB of text (or the table has more than 4 billion lines)",
-            "a table whose columns hold at most 4 GiB of text each",
-            "split the table into smaller files, or read a csv or tsv file in pieces with --streaming",
-        )
     }
 }
 
@@ -223,6 +163,13 @@ pub trait Fields {
     fn fields(&self) -> impl DoubleEndedIterator<Item = &str> + ExactSizeIterator {
         (0..self.count()).map(move |i| self.field(i).unwrap_or(""))
     }
+
+    /// Whether no cell holds a line break or `delimiter` (only a quoted cell can): such a
+    /// record spans one line and cannot be a runaway quote.
+    fn plain(&self, delimiter: u8) -> bool {
+        self.fields()
+            .all(|c| memchr::memchr2(b'\n', delimiter, c.as_bytes()).is_none())
+    }
 }
 
 impl Fields for csv::StringRecord {
@@ -232,6 +179,10 @@ impl Fields for csv::StringRecord {
 
     fn field(&self, i: usize) -> Option<&str> {
         self.get(i)
+    }
+
+    fn plain(&self, delimiter: u8) -> bool {
+        memchr::memchr2(b'\n', delimiter, self.as_byte_record().as_slice()).is_none()
     }
 }
 

@@ -59,10 +59,17 @@ pub(super) fn read_rows(
     let mut rows = CanonicalRows::with_capacity(records.len() * rows_per_record);
     rows.expect_ids(options.row_offset, &wide_years(&roles.shape));
     let with_margins = margin_count > 0 || roles.reserved.len() > margin_count;
+    let mut last_entity: Option<(&str, u32)> = None;
     for index in 0..records.len() {
         let record = &records.get(index);
         let data_row = index + 1 + options.row_offset;
-        let entity_input = rows.texts.place(record_entity(record, roles, sdmx));
+        // Rows of one entity often follow each other: its place is looked up once a run.
+        let entity_text = record_entity(record, roles, sdmx);
+        let entity_input = match last_entity {
+            Some((text, place)) if text == entity_text => place,
+            _ => rows.texts.place(entity_text),
+        };
+        last_entity = Some((entity_text, entity_input));
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
         let group = record_group(record, roles, auto_group).map(|g| rows.texts.place(&g));
         let currency_cell = roles
@@ -148,15 +155,11 @@ fn wide_years(shape: &Shape) -> Vec<i32> {
 
 /// The entity text of a record: its entity cell, or the fallback column's where that is
 /// empty; of an SDMX-CSV 2.0 cell labelled `AUS: Australia`, the code.
-fn record_entity<'r>(
-    record: &'r table::TextRecord<'_>,
-    roles: &layout::Roles,
-    sdmx: bool,
-) -> &'r str {
+fn record_entity<'a>(record: &table::TextRecord<'a>, roles: &layout::Roles, sdmx: bool) -> &'a str {
     match roles.entity_fallback {
-        Some(name) if record.cells[roles.entity].trim().is_empty() => &record.cells[name],
-        _ if sdmx => layout::sdmx_code(&record.cells[roles.entity]),
-        _ => &record.cells[roles.entity],
+        Some(name) if record.cells.at(roles.entity).trim().is_empty() => record.cells.at(name),
+        _ if sdmx => layout::sdmx_code(record.cells.at(roles.entity)),
+        _ => record.cells.at(roles.entity),
     }
 }
 
