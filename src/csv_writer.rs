@@ -205,10 +205,12 @@ fn slice_csv(
     width: usize,
     rounding: Rounding,
     guard: bool,
-) -> Vec<u8> {
+    mut out: String,
+) -> String {
     let height = rows.len();
     let slice = table.frame().slice(rows.start as i64, height);
-    let mut out = String::with_capacity(height * (width * 12 + 1));
+    out.clear();
+    out.reserve(height * (width * 12 + 1));
     let mut columns: Vec<CellSource> = (0..width)
         .map(|at| table.cells(at, &slice, rows.clone(), rounding))
         .collect();
@@ -226,7 +228,30 @@ fn slice_csv(
         }
         out.push('\n');
     }
-    out.into_bytes()
+    out
+}
+
+/// The formatted slices' buffers, handed back once written and reused for the next slices:
+/// each new buffer is fresh memory the kernel zeroes (2.5 MB a slice of the benchmark's
+/// output), which cost as much as the copy into the file on this machine.
+#[derive(Default)]
+struct Buffers(std::sync::Mutex<Vec<String>>);
+
+impl Buffers {
+    fn take(&self) -> String {
+        self.0
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner)
+            .pop()
+            .unwrap_or_default()
+    }
+
+    fn give_back(&self, batch: Vec<String>) {
+        self.0
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner)
+            .extend(batch);
+    }
 }
 
 /// Writes the frame as csv (with or without the header line) to `out`. Slices of
@@ -251,14 +276,21 @@ pub fn write_csv(
         writer.write_record(&names).map_err(csv_error)?;
         writer.flush().map_err(write_error)?;
     }
-    let width = names.len();
+    let format = Format {
+        table,
+        width: names.len(),
+        rounding,
+        guard,
+        buffers: Buffers::default(),
+    };
+    let format = &format;
     let pool = &polars_core::runtime::THREAD_POOL;
     if pool.current_thread_index().is_some() {
         // On one of the pool's threads (a batch job): a writer waiting here for the pool to
         // format would hold a thread the formatting needs, so format and write in turn.
         let mut failed = None;
-        format_batches(table, width, rounding, guard, |batch| {
-            failed = write_batch(&mut *out, batch).err();
+        format.batches(|batch| {
+            failed = format.write(&mut *out, batch).err();
             failed.is_none()
         });
         return match failed {
@@ -266,59 +298,71 @@ pub fn write_csv(
             None => out.flush().map_err(write_error),
         };
     }
-    let (batches, written) = std::sync::mpsc::sync_channel::<Vec<Vec<u8>>>(1);
+    let (batches, written) = std::sync::mpsc::sync_channel::<Vec<String>>(1);
     std::thread::scope(|scope| {
         // The sender moves into the formatter: the channel closes when it has sent the last,
         // and the formatter stops at its next send once the receiver is gone (a failed write).
-        scope.spawn(move || {
-            format_batches(table, width, rounding, guard, |batch| {
-                batches.send(batch).is_ok()
-            })
-        });
+        scope.spawn(move || format.batches(|batch| batches.send(batch).is_ok()));
         written
             .into_iter()
-            .try_for_each(|batch| write_batch(&mut *out, batch))
+            .try_for_each(|batch| format.write(&mut *out, batch))
     })?;
     out.flush().map_err(write_error)
 }
 
-fn write_batch(out: &mut dyn std::io::Write, batch: Vec<Vec<u8>>) -> Result<()> {
-    batch
-        .iter()
-        .try_for_each(|text| out.write_all(text).map_err(write_error))
-}
-
-/// Formats the frame's rows in batches of one slice per pool thread and hands each batch, in
-/// order, to `take`; stops when `take` says no (the writer has gone).
-fn format_batches(
-    table: &dyn CellTable,
+/// What the slices of one csv are formatted with.
+struct Format<'a> {
+    table: &'a dyn CellTable,
     width: usize,
     rounding: Rounding,
     guard: bool,
-    mut take: impl FnMut(Vec<Vec<u8>>) -> bool,
-) {
-    use rayon::prelude::*;
-    let pool = &polars_core::runtime::THREAD_POOL;
-    let height = table.frame().height();
-    let batch = CSV_SLICE_ROWS * pool.current_num_threads().max(1);
-    let mut start = 0;
-    while start < height {
-        let starts: Vec<usize> = (start..height.min(start + batch))
-            .step_by(CSV_SLICE_ROWS)
-            .collect();
-        let texts: Vec<Vec<u8>> = pool.install(|| {
-            starts
-                .par_iter()
-                .map(|&s| {
-                    let rows = s..height.min(s + CSV_SLICE_ROWS);
-                    slice_csv(table, rows, width, rounding, guard)
-                })
-                .collect()
-        });
-        if !take(texts) {
-            return;
+    buffers: Buffers,
+}
+
+impl Format<'_> {
+    /// Writes a batch of formatted slices, in order, and hands their buffers back.
+    fn write(&self, out: &mut dyn std::io::Write, batch: Vec<String>) -> Result<()> {
+        batch
+            .iter()
+            .try_for_each(|text| out.write_all(text.as_bytes()).map_err(write_error))?;
+        self.buffers.give_back(batch);
+        Ok(())
+    }
+
+    /// Formats the table's rows in batches of one slice per pool thread and hands each
+    /// batch, in order, to `take`; stops when `take` says no (the writer has gone).
+    fn batches(&self, mut take: impl FnMut(Vec<String>) -> bool) {
+        use rayon::prelude::*;
+        let pool = &polars_core::runtime::THREAD_POOL;
+        let height = self.table.frame().height();
+        let batch = CSV_SLICE_ROWS * pool.current_num_threads().max(1);
+        let mut start = 0;
+        while start < height {
+            let starts: Vec<usize> = (start..height.min(start + batch))
+                .step_by(CSV_SLICE_ROWS)
+                .collect();
+            let texts: Vec<String> = pool.install(|| {
+                starts
+                    .par_iter()
+                    .map(|&s| {
+                        let rows = s..height.min(s + CSV_SLICE_ROWS);
+                        let (width, rounding, guard) = (self.width, self.rounding, self.guard);
+                        slice_csv(
+                            self.table,
+                            rows,
+                            width,
+                            rounding,
+                            guard,
+                            self.buffers.take(),
+                        )
+                    })
+                    .collect()
+            });
+            if !take(texts) {
+                return;
+            }
+            start += batch;
         }
-        start += batch;
     }
 }
 
@@ -398,19 +442,28 @@ mod tests {
         assert_eq!(here.iter().filter(|&&b| b == b'\n').count(), rows + 1);
         // The formatter stops at the first batch the writer refuses (the channel's send fails
         // once the writer has gone), and otherwise hands over every batch, in order.
+        let format = Format {
+            table: &frame,
+            width: 1,
+            rounding: Rounding::Full,
+            guard: false,
+            buffers: Buffers::default(),
+        };
         let mut offered = 0;
-        format_batches(&frame, 1, Rounding::Full, false, |_| {
+        format.batches(|_| {
             offered += 1;
             false
         });
         assert_eq!(offered, 1);
         let mut batches = Vec::new();
-        format_batches(&frame, 1, Rounding::Full, false, |batch| {
+        format.batches(|batch| {
             batches.push(batch.concat());
+            // Buffers handed back are reused, cleared, for the next slices.
+            format.buffers.give_back(batch);
             true
         });
         assert_eq!(batches.len(), rows.div_ceil(CSV_SLICE_ROWS * threads));
-        assert_eq!(batches.concat(), here["value\n".len()..]);
+        assert_eq!(batches.concat().as_bytes(), &here["value\n".len()..]);
     }
 
     #[test]
@@ -436,18 +489,18 @@ mod tests {
             .flat_map(|a| tricky.iter().map(move |b| (a, b)))
         {
             let frame = df!("a" => [*a], "b" => [*b]).unwrap();
-            let ours = slice_csv(&frame, 0..1, 2, Rounding::Full, false);
+            let ours = slice_csv(&frame, 0..1, 2, Rounding::Full, false, "stale".into());
             let mut theirs = csv_writer(Vec::new());
             theirs.write_record([a, b]).unwrap();
-            assert_eq!(ours, theirs.into_inner().unwrap(), "{a:?} {b:?}");
+            assert_eq!(ours.as_bytes(), theirs.into_inner().unwrap(), "{a:?} {b:?}");
         }
         // One column: an empty cell is `""`, as the crate writes it.
         for cell in tricky {
             let frame = df!("a" => [cell]).unwrap();
-            let ours = slice_csv(&frame, 0..1, 1, Rounding::Full, false);
+            let ours = slice_csv(&frame, 0..1, 1, Rounding::Full, false, String::new());
             let mut theirs = csv_writer(Vec::new());
             theirs.write_record([cell]).unwrap();
-            assert_eq!(ours, theirs.into_inner().unwrap(), "{cell:?}");
+            assert_eq!(ours.as_bytes(), theirs.into_inner().unwrap(), "{cell:?}");
         }
     }
 }

@@ -259,7 +259,13 @@ pub(crate) fn attach_factors(
     };
     let places = years.places();
     let mut frame = canonical.frame;
-    for column in years.factors.columns() {
+    // The plan computes with the factors and their margins; their years are only written.
+    for column in years
+        .factors
+        .columns()
+        .iter()
+        .filter(|c| c.dtype().is_float())
+    {
         frame
             .with_column(output::gather_by_rows(column, &places)?)
             .map_err(Error::engine("attaching the reference factors"))?;

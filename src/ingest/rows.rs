@@ -59,17 +59,11 @@ pub(super) fn read_rows(
     let mut rows = CanonicalRows::with_capacity(records.len() * rows_per_record);
     rows.expect_ids(options.row_offset, &wide_years(&roles.shape));
     let with_margins = margin_count > 0 || roles.reserved.len() > margin_count;
-    let mut last_entity: Option<(&str, u32)> = None;
+    let mut last_entity = RunPlace::default();
     for index in 0..records.len() {
         let record = &records.get(index);
         let data_row = index + 1 + options.row_offset;
-        // Rows of one entity often follow each other: its place is looked up once a run.
-        let entity_text = record_entity(record, roles, sdmx);
-        let entity_input = match last_entity {
-            Some((text, place)) if text == entity_text => place,
-            _ => rows.texts.place(entity_text),
-        };
-        last_entity = Some((entity_text, entity_input));
+        let entity_input = last_entity.place(&mut rows.texts, record_entity(record, roles, sdmx));
         let multiplier = marks.multiplier(record, options.value_multiplier, file)?;
         let group = record_group(record, roles, auto_group).map(|g| rows.texts.place(&g));
         let currency_cell = roles
@@ -143,6 +137,25 @@ pub(super) fn read_rows(
         rows.value_input = records.take_column(*value);
     }
     Ok(rows)
+}
+
+/// A text's place, looked up once a run: rows of one entity often follow each other.
+#[derive(Default)]
+struct RunPlace<'a> {
+    last: Option<(&'a str, u32)>,
+}
+
+impl<'a> RunPlace<'a> {
+    fn place(&mut self, texts: &mut super::Texts, text: &'a str) -> u32 {
+        match self.last {
+            Some((last, place)) if last == text => place,
+            _ => {
+                let place = texts.place(text);
+                self.last = Some((text, place));
+                place
+            }
+        }
+    }
 }
 
 /// The years of a wide table's year columns, in order (none for a long table).
