@@ -216,18 +216,31 @@ fn carried_columns(rows: &ingest::CanonicalRows, extras: usize) -> Vec<Column> {
     columns
 }
 
-/// The frame with the factors the needs ask for, gathered by each row's entity-year; the
-/// rows' texts with each entity-year's factor flags; and the kinds of table that optional
-/// needs lack (their columns stay empty: `pipeline::Prepared::missing_tables`).
+/// The factors a run asks for: the tracks' needs (some optional: the baseline's), and the
+/// columns derived from them (a step's `extra_columns`, such as the price level index).
+pub(crate) struct Factors<'a> {
+    pub needs: &'a BTreeSet<FactorNeed>,
+    pub optional: &'a BTreeSet<FactorNeed>,
+    pub derived: Vec<Expr>,
+}
+
+/// The frame with the factors (and their margins) the needs ask for, gathered by each row's
+/// entity-year; the rows' texts with each entity-year's factors, derived columns (computed
+/// once an entity-year, not once a row) and flags; and the kinds of table that optional needs
+/// lack (their columns stay empty: `pipeline::Prepared::missing_tables`).
 pub(crate) fn attach_factors(
     canonical: CanonicalFrame,
     rows: ingest::CanonicalRows,
     entities: EntityColumns,
-    needs: &BTreeSet<FactorNeed>,
-    optional: &BTreeSet<FactorNeed>,
+    factors: &Factors,
     references: Option<&References>,
     settings: &PipelineSettings,
 ) -> Result<(DataFrame, RowTexts, Vec<Kind>)> {
+    let Factors {
+        needs,
+        optional,
+        derived,
+    } = factors;
     let missing_tables: BTreeSet<Kind> = optional
         .iter()
         .filter(|need| references.and_then(|r| r.get(need.kind)).is_none())
@@ -251,20 +264,27 @@ pub(crate) fn attach_factors(
             year_offset: settings.factor_year_offset,
         },
     )?;
+    let computed: Vec<String> = needs
+        .iter()
+        .flat_map(|need| [need.used_column(), need.se_column()])
+        .collect();
+    let factors = DataFrame::new(keys.len(), lookup.columns)
+        .and_then(|f| f.lazy().with_columns(derived.clone()).collect())
+        .map_err(Error::engine("attaching the reference factors"))?;
     let years = EntityYears {
         of_row: canonical.keys.of_row,
-        factors: DataFrame::new(keys.len(), lookup.columns)
-            .map_err(Error::engine("attaching the reference factors"))?,
+        factors,
         flags: lookup.flags,
     };
     let places = years.places();
     let mut frame = canonical.frame;
-    // The plan computes with the factors and their margins; their years are only written.
+    // The plan computes with the factors and their margins; their years and the derived
+    // columns are only written.
     for column in years
         .factors
         .columns()
         .iter()
-        .filter(|c| c.dtype().is_float())
+        .filter(|c| computed.iter().any(|n| n == c.name().as_str()))
     {
         frame
             .with_column(output::gather_by_rows(column, &places)?)

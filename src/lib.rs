@@ -53,6 +53,7 @@ pub mod shortest;
 pub mod source;
 pub mod staging;
 pub mod streaming;
+pub mod trace;
 pub mod tracks;
 pub mod uncertainty;
 pub mod units;

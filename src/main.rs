@@ -15,6 +15,7 @@ fn allow_large_pages() {
 }
 
 fn main() -> ExitCode {
+    levelfield::trace::phase("start");
     levelfield::source::on_large_input(allow_large_pages);
     let cli = match levelfield::cli::parse_from(std::env::args_os()) {
         Ok(cli) => cli,

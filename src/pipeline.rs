@@ -37,6 +37,13 @@ pub(crate) fn converts_currency(steps: &[&'static dyn Step]) -> bool {
         .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
 }
 
+/// The column of each figure's unit for the mixed-currency rule (`_unit`), or none when the
+/// steps bring every figure to one unit or the figures are not money.
+pub(crate) fn units_differ(settings: &PipelineSettings) -> Option<Expr> {
+    let one_unit = converts_currency(&settings.steps) || figures_are_not_money(settings);
+    (!one_unit).then(|| col("_unit"))
+}
+
 /// Survey shares (margins from sample sizes), counts of people (`--proportion`) and figures
 /// stated as `--currency-code XXX` are not money: they rank together whatever the country.
 pub(crate) fn figures_are_not_money(settings: &PipelineSettings) -> bool {
@@ -72,6 +79,7 @@ pub fn run_adjust(
         .select(selection)
         .collect()
         .map_err(Error::engine("adjusting and ranking"))?;
+    crate::trace::phase("adjusted and ranked");
     if frame.height() != rows_in {
         return Err(Error::engine("checking that no row was lost")(polars_err!(
             ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
@@ -90,6 +98,7 @@ pub fn run_adjust(
         None => table,
     };
     let counts = table.flag_counts()?;
+    crate::trace::phase("flagged");
     let mut summary = summarize(
         counts,
         &prepared.ingested.file,
@@ -181,6 +190,7 @@ pub(crate) fn prepare(
             base_currency: &base_currency,
         },
     )?;
+    crate::trace::phase("entities resolved");
     let check_currency = converts_currency(&settings.steps);
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
@@ -197,6 +207,7 @@ pub(crate) fn prepare(
         },
     )?;
     let (any_base, carried_names) = (canonical.any_base, canonical.carried_names.clone());
+    crate::trace::phase("frame built");
 
     // Both tracks, built as expressions; the factors they name are collected in `needs`.
     let start_unit = if whole_table_in_base {
@@ -208,6 +219,7 @@ pub(crate) fn prepare(
         batches,
         stage_columns,
         extra_columns,
+        extra_exprs,
         needs,
         optional,
         deflator_used,
@@ -223,8 +235,18 @@ pub(crate) fn prepare(
     )?;
 
     let (frame, texts, missing_tables) = frame::attach_factors(
-        canonical, rows, entities, &needs, &optional, references, settings,
+        canonical,
+        rows,
+        entities,
+        &frame::Factors {
+            needs: &needs,
+            optional: &optional,
+            derived: extra_exprs,
+        },
+        references,
+        settings,
     )?;
+    crate::trace::phase("factors attached");
     let mut lf = frame.lazy();
     for batch in batches {
         lf = lf.with_columns(batch);
@@ -301,7 +323,7 @@ pub(crate) fn with_ranks(
     // One integer column for (group, year), and whether each row shares its series and year
     // with another: `resolve::ranking_keys`.
     let partition = [col("_partition")];
-    let mixed = rank::mixed_units(col("_unit"), col("_rank_eligible"), &partition)
+    let mixed = rank::mixed_units(units_differ(settings), col("_rank_eligible"), &partition)
         .map_err(Error::engine("ranking"))?;
     let ranks = rank::rank_columns(
         settings.order,

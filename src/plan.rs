@@ -90,6 +90,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         )
     } else {
         let (bytes, label) = read_input(input, args.columns.max_input_mb)?;
+        crate::trace::phase("input read");
         (bytes, label, None)
     };
     let outputs: Vec<&Path> = [
@@ -114,6 +115,7 @@ pub fn resolve_adjust(args: &AdjustArgs) -> Result<AdjustPlan> {
         Some(dir) => Some(load_refs(dir, &mut resolver)?),
         None => None,
     };
+    crate::trace::phase("references loaded");
     let settings = settings_of(args, steps, references.as_ref())?;
     if streaming.is_some() {
         crate::streaming::check(

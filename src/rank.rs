@@ -141,9 +141,13 @@ pub fn several_series(pairs: &[u32], years: &[Option<i32>], pair_count: usize) -
 const DENSE_SERIES_LIMIT: usize = 1 << 26;
 
 /// `_mixed`: the row's ranking group (partition) holds eligible figures in more than one unit
-/// (`unit`: a currency, or null when the steps bring every figure to one unit). Figures in
+/// (`unit`: a currency; none when the steps bring every figure to one unit). Figures in
 /// different currencies are never ranked against each other.
-pub fn mixed_units(unit: Expr, eligible: Expr, partition: &[Expr]) -> PolarsResult<Expr> {
+pub fn mixed_units(unit: Option<Expr>, eligible: Expr, partition: &[Expr]) -> PolarsResult<Expr> {
+    // One common unit: nothing to compare (the window over every row would find no unit).
+    let Some(unit) = unit else {
+        return Ok(lit(false).alias("_mixed"));
+    };
     let counted = when(eligible)
         .then(unit)
         .otherwise(null_of(DataType::String));

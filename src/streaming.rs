@@ -606,7 +606,7 @@ fn ranks_once(
         .with_column(Column::new("_several".into(), several))
         .map_err(Error::engine("ranking"))?;
     let mixed = crate::rank::mixed_units(
-        col("_u").cast(DataType::String),
+        pipeline::units_differ(settings).map(|_| col("_u").cast(DataType::String)),
         col("_rank_eligible"),
         &[col("_g"), col("year")],
     )

@@ -18,8 +18,10 @@ pub struct TrackPlan {
     pub batches: Vec<Vec<Expr>>,
     /// Stage columns in the order written (value_lcu first when present).
     pub stage_columns: Vec<String>,
-    /// Derived factor columns (price_level_index, cpi_ratio).
+    /// Derived factor columns (price_level_index, cpi_ratio), by name and as expressions over
+    /// the factors: computed once an entity-year (`frame::attach_factors`), not once a row.
     pub extra_columns: Vec<String>,
+    pub extra_exprs: Vec<Expr>,
     pub needs: BTreeSet<FactorNeed>,
     /// Needs of the baseline track and of derived columns only: a catalog without their table
     /// still gives the adjusted values (those columns stay empty).
@@ -44,6 +46,7 @@ pub fn plan_tracks(settings: &PipelineSettings, start: &TrackStart) -> Result<Tr
         batches: Vec::new(),
         stage_columns: Vec::new(),
         extra_columns: Vec::new(),
+        extra_exprs: Vec::new(),
         needs: BTreeSet::new(),
         optional: BTreeSet::new(),
         deflator_used: None,
@@ -169,15 +172,14 @@ fn run_track(
             None => None,
         };
         if track == Track::Adjusted {
-            let mut batch = vec![next.alias(step.column())];
+            plan.batches.push(vec![next.alias(step.column())]);
             let mut derived = context(settings, track, &mut derived_needs);
             for extra in step.extra_columns(&before, &mut derived) {
                 if let Expr::Alias(_, name) = &extra {
                     plan.extra_columns.push(name.to_string());
                 }
-                batch.push(extra);
+                plan.extra_exprs.push(extra);
             }
-            plan.batches.push(batch);
             plan.stage_columns.push(step.column().to_string());
             current = col(step.column());
         } else {

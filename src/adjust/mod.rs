@@ -224,7 +224,9 @@ pub trait Step: Sync {
     fn explain(&self, settings: &StepSettings) -> String;
     /// The next value expression and state.
     fn apply(&self, value: Expr, state: &mut TrackState, ctx: &mut StepContext) -> Result<Expr>;
-    /// Extra columns the step writes on the adjusted track (factors derived from others).
+    /// Extra columns the step writes on the adjusted track: factors derived from others, built
+    /// from `ctx.factor` columns only, for they are computed once an entity-year, not once a
+    /// row (`frame::attach_factors`).
     fn extra_columns(&self, _state_before: &TrackState, _ctx: &mut StepContext) -> Vec<Expr> {
         Vec::new()
     }

@@ -80,7 +80,9 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     if plan.streaming.is_none() {
         stage_outputs(plan, &output, &note, &mut staging)?;
     }
+    crate::trace::phase("outputs written");
     let written = staging.commit()?;
+    crate::trace::phase("outputs in place");
     print_summary(plan, &output, &written);
     Ok(output)
 }

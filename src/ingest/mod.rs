@@ -76,6 +76,7 @@ pub fn ingest(
             line_offset: options.line_offset,
         },
     )?;
+    crate::trace::phase("table found");
     let roles = layout::assign_roles(&table, &role_flags, file, resolver)?;
     reserved_need_a_long_table(&role_flags, &roles)?;
 
@@ -122,6 +123,7 @@ pub fn ingest(
             margin_count,
         },
     )?;
+    crate::trace::phase("rows read");
     // Formulas are never evaluated: a row whose sheet row holds one says so.
     if !formula_rows.is_empty() {
         for at in 0..rows.len() {
