@@ -34,6 +34,8 @@ pub(crate) struct CanonicalFrame {
     pub keys: RowKeys,
     /// Whether any row is a figure in the base currency.
     pub any_base: bool,
+    /// How many ranking partitions the `_partition` column numbers.
+    pub partitions: usize,
 }
 
 /// Each row's entity-year as a place in `list` (none: no entity or no year).
@@ -157,7 +159,9 @@ pub(crate) fn canonical_frame(
     );
     rows.value = Vec::new();
     columns.push(Column::new("_several".into(), keys_of_ranking.several));
-    columns.push(Column::new("_partition".into(), keys_of_ranking.partition));
+    let (partition, partitions) =
+        crate::rank::partition_numbers(keys_of_ranking.partition.into_iter());
+    columns.push(Column::new("_partition".into(), partition));
     columns.push(match units {
         Some(units) => Column::new("_unit".into(), units),
         None => Column::full_null("_unit".into(), rows_in, &DataType::String),
@@ -189,6 +193,7 @@ pub(crate) fn canonical_frame(
             carried_names,
             keys,
             any_base,
+            partitions,
         },
         rows,
     ))

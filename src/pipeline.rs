@@ -64,30 +64,45 @@ pub fn run_adjust(
     let prepared = prepare(bytes, input_label, settings, resolver, references, None)?;
     let rows_in = prepared.rows_in;
     let baseline_missing = prepared.baseline_missing();
-    let lf = with_ranks(prepared.lf, settings, baseline_missing)?;
     let order = output_columns(&prepared.head_columns, settings);
     // The frame holds every output column but the texts, the factors and the flags, which are
-    // rendered from the rows and their entity-years (`output::RowTexts`); the two columns the
-    // late flags need come along.
+    // rendered from the rows and their entity-years (`output::RowTexts`), and the ranks,
+    // computed next; what the ranks and the late flags need comes along.
     let mut selection: Vec<Expr> = order
         .iter()
-        .filter(|c| !prepared.texts.renders(c) && *c != "flags")
+        .filter(|c| {
+            !prepared.texts.renders(c) && *c != "flags" && !RANK_COLUMNS.contains(&c.as_str())
+        })
         .map(|c| col(c.as_str()))
         .collect();
-    selection.extend([col("_several"), col("_mixed")]);
-    let mut frame = lf
+    selection.extend([
+        col("_several"),
+        col("_mixed"),
+        col("_rank_eligible"),
+        col("_partition"),
+    ]);
+    let mut frame = prepared
+        .lf
+        .with_column(mixed_expr(settings)?)
         .select(selection)
         .collect()
-        .map_err(Error::engine("adjusting and ranking"))?;
-    crate::trace::phase("adjusted and ranked");
+        .map_err(Error::engine("adjusting"))?;
+    crate::trace::phase("adjusted");
     if frame.height() != rows_in {
         return Err(Error::engine("checking that no row was lost")(polars_err!(
             ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
         )));
     }
+    add_ranks(
+        &mut frame,
+        prepared.partitions,
+        settings.order,
+        baseline_missing,
+    )?;
+    crate::trace::phase("ranked");
     let flags =
         late_flags(&frame, baseline_missing).map(|late| prepared.texts.flags(|row| late[row]))?;
-    for private in ["_several", "_mixed"] {
+    for private in ["_several", "_mixed", "_rank_eligible", "_partition"] {
         frame
             .drop_in_place(private)
             .map_err(Error::engine("adjusting and ranking"))?;
@@ -154,6 +169,9 @@ pub(crate) struct Prepared {
     pub ingested: ingest::Ingested,
     pub texts: RowTexts,
     pub rows_in: usize,
+    /// How many ranking partitions (group and year) the rows fall into: `_partition`
+    /// numbers them from 0.
+    pub partitions: usize,
     /// The output columns up to `value_adjusted` (and the margin columns), in order.
     pub head_columns: Vec<String>,
     pub baseline_steps: Vec<&'static dyn Step>,
@@ -207,6 +225,7 @@ pub(crate) fn prepare(
         },
     )?;
     let (any_base, carried_names) = (canonical.any_base, canonical.carried_names.clone());
+    let partitions = canonical.partitions;
     crate::trace::phase("frame built");
 
     // Both tracks, built as expressions; the factors they name are collected in `needs`.
@@ -263,6 +282,7 @@ pub(crate) fn prepare(
         ingested,
         texts,
         rows_in,
+        partitions,
         head_columns: head,
         baseline_steps,
         deflator_used,
@@ -313,31 +333,43 @@ fn head_columns(
     head
 }
 
-/// Ranks per group and year, the shift, and the two late flags that come from the ranking
-/// groups (`_several`, `_mixed`).
-pub(crate) fn with_ranks(
-    lf: LazyFrame,
-    settings: &PipelineSettings,
-    baseline_missing: bool,
-) -> Result<LazyFrame> {
-    // One integer column for (group, year), and whether each row shares its series and year
-    // with another: `resolve::ranking_keys`.
-    let partition = [col("_partition")];
-    let mixed = rank::mixed_units(units_differ(settings), col("_rank_eligible"), &partition)
-        .map_err(Error::engine("ranking"))?;
-    let ranks = rank::rank_columns(
-        settings.order,
-        col("_rank_eligible")
-            .and(col("_several").not())
-            .and(col("_mixed").not()),
-        &partition,
-        baseline_missing,
+/// The ranks, their shift, and the columns they are written under.
+const RANK_COLUMNS: [&str; 3] = ["rank_baseline", "rank_adjusted", "rank_shift"];
+
+/// `_mixed`: whether the row's group and year hold figures in several units (the rows
+/// ranked together are numbered by `_partition`: `resolve::ranking_keys`).
+pub(crate) fn mixed_expr(settings: &PipelineSettings) -> Result<Expr> {
+    rank::mixed_units(
+        units_differ(settings),
+        col("_rank_eligible"),
+        &[col("_partition")],
     )
-    .map_err(Error::engine("ranking"))?;
-    Ok(lf
-        .with_column(mixed)
-        .with_columns(ranks)
-        .with_column(rank::shift_column()))
+    .map_err(Error::engine("ranking"))
+}
+
+/// Ranks per group and year (`_partition`, numbered below `partitions`) and their shift,
+/// added to `frame`.
+pub(crate) fn add_ranks(
+    frame: &mut DataFrame,
+    partitions: usize,
+    order: rank::Order,
+    baseline_missing: bool,
+) -> Result<()> {
+    let numbers = frame
+        .column("_partition")
+        .and_then(|c| c.u32().map(|ca| ca.rechunk().into_owned()))
+        .map_err(Error::engine("ranking"))?;
+    let numbers: Vec<u32> = numbers.into_no_null_iter().collect();
+    let [baseline, adjusted] =
+        rank::rank_columns(frame, &numbers, partitions, order, baseline_missing)
+            .map_err(Error::engine("ranking"))?;
+    let shift = rank::shift_of(&baseline, &adjusted).map_err(Error::engine("ranking"))?;
+    for column in [baseline, adjusted, shift] {
+        frame
+            .with_column(column)
+            .map_err(Error::engine("ranking"))?;
+    }
+    Ok(())
 }
 
 /// The standard cautions, and those the run's settings call for.

@@ -432,7 +432,6 @@ fn write_pieces(
             .map_err(Error::engine("flagging a piece"))?;
         let frame = frame
             .lazy()
-            .with_column(crate::rank::shift_column())
             .select(selection)
             .collect()
             .map_err(Error::engine("flagging a piece"))?;
@@ -594,7 +593,8 @@ fn first_piece(
     })
 }
 
-/// Ranks, once, over the narrow columns of every piece.
+/// Ranks, their shift and the late flags' columns, once, over the narrow columns of every
+/// piece, by the in-memory run's rules (`pipeline::add_ranks`).
 fn ranks_once(
     narrow: Vec<DataFrame>,
     settings: &PipelineSettings,
@@ -602,23 +602,47 @@ fn ranks_once(
 ) -> Result<DataFrame> {
     let mut narrow = concat_frames(narrow)?;
     let several = several_of(&narrow)?;
-    narrow
-        .with_column(Column::new("_several".into(), several))
-        .map_err(Error::engine("ranking"))?;
-    let mixed = crate::rank::mixed_units(
-        pipeline::units_differ(settings).map(|_| col("_u").cast(DataType::String)),
-        col("_rank_eligible"),
-        &[col("_g"), col("year")],
-    )
-    .map_err(Error::engine("ranking"))?;
-    let mut rank_columns = rank_exprs(settings, baseline_missing)?;
-    rank_columns.extend([col("_several"), col("_mixed")]);
-    narrow
+    let (partition, partitions) = partitions_of(&narrow)?;
+    for column in [
+        Column::new("_several".into(), several),
+        Column::new("_partition".into(), partition),
+    ] {
+        narrow
+            .with_column(column)
+            .map_err(Error::engine("ranking"))?;
+    }
+    let mut ranked = narrow
         .lazy()
-        .with_column(mixed)
-        .select(rank_columns)
+        .with_column(col("_u").cast(DataType::String).alias("_unit"))
+        .with_column(pipeline::mixed_expr(settings)?)
         .collect()
+        .map_err(Error::engine("ranking"))?;
+    pipeline::add_ranks(&mut ranked, partitions, settings.order, baseline_missing)?;
+    ranked
+        .select([
+            "rank_baseline",
+            "rank_adjusted",
+            "rank_shift",
+            "_several",
+            "_mixed",
+        ])
         .map_err(Error::engine("ranking"))
+}
+
+/// Each row's ranking partition (its group and year), numbered from 0, and how many.
+fn partitions_of(narrow: &DataFrame) -> Result<(Vec<u32>, usize)> {
+    let groups = narrow
+        .column("_g")
+        .and_then(|c| c.u32().cloned())
+        .map_err(Error::engine("ranking"))?;
+    let years = narrow
+        .column("year")
+        .and_then(|c| c.i32().cloned())
+        .map_err(Error::engine("ranking"))?;
+    let keys = groups.iter().zip(years.iter()).map(|(g, y)| {
+        (u64::from(g.unwrap_or(u32::MAX)) << 33) | y.map_or(1 << 32, |y| u64::from(y as u32))
+    });
+    Ok(crate::rank::partition_numbers(keys))
 }
 
 /// Whether each row shares its entity, group and year with another (`rank::several_series`),
@@ -724,17 +748,6 @@ fn rank_inputs(
         ])
         .collect()
         .map_err(Error::engine("collecting what ranks need"))
-}
-
-/// The in-memory run's rank expressions, over the narrow columns (the group as a number).
-fn rank_exprs(settings: &PipelineSettings, baseline_missing: bool) -> Result<Vec<Expr>> {
-    crate::rank::rank_columns(
-        settings.order,
-        col("_several").not().and(col("_mixed").not()),
-        &[col("_g"), col("year")],
-        baseline_missing,
-    )
-    .map_err(Error::engine("ranking"))
 }
 
 fn concat_frames(frames: Vec<DataFrame>) -> Result<DataFrame> {
