@@ -178,8 +178,11 @@ pub fn html_escape(text: &str) -> String {
 /// `@`, a tab or a carriage return, and is not a number or a missing-value mark (`-12`, `+3`
 /// and `-` are left as they are).
 pub fn runs_as_formula(text: &str) -> bool {
-    text.starts_with(['=', '+', '-', '@', '\t', '\r'])
-        && crate::cells::number::parse_cell(text, Default::default()).is_err()
+    // The marks are ASCII: the first byte decides (a character of several bytes is none).
+    matches!(
+        text.as_bytes().first(),
+        Some(b'=' | b'+' | b'-' | b'@' | b'\t' | b'\r')
+    ) && crate::cells::number::parse_cell(text, Default::default()).is_err()
 }
 
 /// A float column's cells (all null when the column is absent).

@@ -95,30 +95,60 @@ pub fn competition_ranks(
     count: usize,
     order: Order,
 ) -> Int64Chunked {
+    use rayon::prelude::*;
     let values: Vec<Option<f64>> = values.iter().collect();
     let groups = ByPartition::new(|row| values[row].is_some(), partitions, count);
-    let mut ranks: Vec<Option<i64>> = vec![None; values.len()];
-    let mut run: Vec<(f64, u32)> = Vec::new();
+    // Each partition's ranks in the order of `groups.rows`, the partitions on the pool's
+    // threads, each into its own part of `in_order`.
+    let mut in_order = vec![0i64; groups.rows.len()];
+    let mut parts: Vec<(&[u32], &mut [i64])> = Vec::with_capacity(count);
+    let mut rest = in_order.as_mut_slice();
     for p in 0..count {
-        run.clear();
-        run.extend(
-            groups.rows[groups.starts[p]..groups.starts[p + 1]]
-                .iter()
-                .map(|&row| (values[row as usize].unwrap_or(f64::NAN), row)),
-        );
-        run.sort_unstable_by(|a, b| match order {
-            Order::Desc => total_cmp(b.0, a.0),
-            Order::Asc => total_cmp(a.0, b.0),
-        });
-        let mut rank = 1;
-        for (k, &(value, row)) in run.iter().enumerate() {
-            if k > 0 && total_cmp(value, run[k - 1].0) != std::cmp::Ordering::Equal {
-                rank = k as i64 + 1;
-            }
-            ranks[row as usize] = Some(rank);
-        }
+        let rows = &groups.rows[groups.starts[p]..groups.starts[p + 1]];
+        let (part, tail) = rest.split_at_mut(rows.len());
+        parts.push((rows, part));
+        rest = tail;
+    }
+    polars_core::runtime::THREAD_POOL.install(|| {
+        parts
+            .into_par_iter()
+            .for_each_init(Vec::new, |run, (rows, out)| {
+                rank_partition(&values, rows, order, run, out);
+            })
+    });
+    let mut ranks: Vec<Option<i64>> = vec![None; values.len()];
+    for (&row, &rank) in groups.rows.iter().zip(&in_order) {
+        ranks[row as usize] = Some(rank);
     }
     Int64Chunked::from_iter_options("rank".into(), ranks.into_iter())
+}
+
+/// The ranks of one partition's `rows` (each with a value), into `out` in the same order;
+/// `run` is a reused buffer.
+fn rank_partition(
+    values: &[Option<f64>],
+    rows: &[u32],
+    order: Order,
+    run: &mut Vec<(f64, u32)>,
+    out: &mut [i64],
+) {
+    run.clear();
+    run.extend(
+        rows.iter()
+            .enumerate()
+            .map(|(k, &row)| (values[row as usize].unwrap_or(f64::NAN), k as u32)),
+    );
+    run.sort_unstable_by(|a, b| match order {
+        Order::Desc => total_cmp(b.0, a.0),
+        Order::Asc => total_cmp(a.0, b.0),
+    });
+    let mut rank = 1;
+    for (k, &(value, at)) in run.iter().enumerate() {
+        if k > 0 && total_cmp(value, run[k - 1].0) != std::cmp::Ordering::Equal {
+            rank = k as i64 + 1;
+        }
+        out[at as usize] = rank;
+    }
 }
 
 /// `rank_baseline` and `rank_adjusted` of a frame holding `value_baseline`, `value_adjusted`
