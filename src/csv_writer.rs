@@ -12,7 +12,7 @@ use polars::prelude::*;
 /// A column's cells, appended one at a time to a slice's buffer: the csv writer's path, which
 /// allocates nothing per cell for numbers and text. Gives the same text as `column_texts`.
 pub enum CellSource<'a> {
-    Float(Box<dyn Iterator<Item = Option<f64>> + 'a>),
+    Float(FloatCells<'a>),
     Int(Box<dyn Iterator<Item = Option<i64>> + 'a>),
     Text(Box<dyn Iterator<Item = Option<&'a str>> + 'a>),
     /// Text written by the table itself, one cell per call, into the buffer it is given
@@ -29,7 +29,11 @@ impl<'a> CellSource<'a> {
         let series = column.as_materialized_series();
         match series.dtype() {
             DataType::Float64 => match series.f64() {
-                Ok(ca) => CellSource::Float(Box::new(ca.iter())),
+                Ok(ca) => CellSource::Float(FloatCells {
+                    arrays: ca.downcast_iter().collect(),
+                    array: 0,
+                    at: 0,
+                }),
                 Err(_) => CellSource::Other(column_texts(frame, name, rounding, false).into_iter()),
             },
             DataType::Int64 => match series.i64() {
@@ -48,12 +52,19 @@ impl<'a> CellSource<'a> {
         }
     }
 
-    /// Appends the next cell's text to `out` (`guard`: see `write_csv`).
-    fn push_next(&mut self, rounding: Rounding, guard: bool, out: &mut String) {
+    /// Appends the next cell's text to `out` (`guard`: see `write_csv`); `row` holds the
+    /// row's numbers written so far.
+    fn push_next(
+        &mut self,
+        rounding: Rounding,
+        guard: bool,
+        out: &mut String,
+        row: &mut RowNumbers,
+    ) {
         match self {
-            CellSource::Float(cells) => match cells.next().flatten() {
+            CellSource::Float(cells) => match cells.next() {
                 Some(x) if rounding == Rounding::Full && x.is_finite() => {
-                    push_shortest(out, if x == 0.0 { 0.0 } else { x });
+                    row.push_shortest(out, if x == 0.0 { 0.0 } else { x });
                 }
                 Some(x) => out.push_str(&format_number(x, rounding, false)),
                 None => {}
@@ -83,15 +94,76 @@ impl<'a> CellSource<'a> {
 
     /// Appends the next cell to `out` as a csv field. Numbers never need quotes; other text
     /// is quoted as the csv crate quotes it (see `needs_quotes`).
-    fn push_csv_field(&mut self, rounding: Rounding, guard: bool, out: &mut String) {
+    fn push_csv_field(
+        &mut self,
+        rounding: Rounding,
+        guard: bool,
+        out: &mut String,
+        row: &mut RowNumbers,
+    ) {
         if matches!(self, CellSource::Float(_) | CellSource::Int(_)) {
-            return self.push_next(rounding, guard, out);
+            return self.push_next(rounding, guard, out, row);
         }
         let start = out.len();
-        self.push_next(rounding, guard, out);
+        self.push_next(rounding, guard, out, row);
         if needs_quotes(&out[start..]) {
             let field = out.split_off(start);
             push_quoted(out, &field);
+        }
+    }
+}
+
+/// A float column's cells over a slice, read straight from its arrays (none for a null).
+pub struct FloatCells<'a> {
+    arrays: Vec<&'a <Float64Type as PolarsDataType>::Array>,
+    array: usize,
+    at: usize,
+}
+
+impl FloatCells<'_> {
+    fn next(&mut self) -> Option<f64> {
+        loop {
+            let values = self.arrays.get(self.array)?;
+            if self.at < values.len() {
+                let at = self.at;
+                self.at += 1;
+                return StaticArray::get(*values, at);
+            }
+            self.array += 1;
+            self.at = 0;
+        }
+    }
+}
+
+/// The last few numbers written in a row, and where their text is in the buffer: a row often
+/// writes the same number twice (the adjusted value is the last stage's; the figure in local
+/// currency is the figure), and its text is then copied instead of formatted again.
+#[derive(Default)]
+struct RowNumbers {
+    written: [(u64, usize, usize); 4],
+    len: usize,
+}
+
+impl RowNumbers {
+    fn start_row(&mut self) {
+        self.len = 0;
+    }
+
+    /// Appends `x`'s shortest text (`push_shortest`), copied from earlier in the row when the
+    /// row wrote the same number.
+    fn push_shortest(&mut self, out: &mut String, x: f64) {
+        let bits = x.to_bits();
+        let known = self.written[..self.len.min(4)]
+            .iter()
+            .find(|(b, _, _)| *b == bits);
+        match known {
+            Some(&(_, start, end)) => out.extend_from_within(start..end),
+            None => {
+                let start = out.len();
+                push_shortest(out, x);
+                self.written[self.len % 4] = (bits, start, out.len());
+                self.len += 1;
+            }
         }
     }
 }
@@ -103,9 +175,11 @@ pub fn cell_texts(frame: &DataFrame, name: &str, rounding: Rounding) -> Result<T
     let mut cells = CellSource::new(frame, name, rounding);
     let mut texts = TextColumn::with_capacity(frame.height());
     let mut cell = String::new();
+    let mut row = RowNumbers::default();
     for _ in 0..frame.height() {
         cell.clear();
-        cells.push_next(rounding, false, &mut cell);
+        row.start_row();
+        cells.push_next(rounding, false, &mut cell, &mut row);
         texts
             .push(&cell)
             .map_err(|e| e.error("the formatted reference factors"))?;
@@ -214,13 +288,15 @@ fn slice_csv(
     let mut columns: Vec<CellSource> = (0..width)
         .map(|at| table.cells(at, &slice, rows.clone(), rounding))
         .collect();
+    let mut row = RowNumbers::default();
     for _ in 0..height {
         let row_start = out.len();
+        row.start_row();
         for (i, column) in columns.iter_mut().enumerate() {
             if i > 0 {
                 out.push(',');
             }
-            column.push_csv_field(rounding, guard, &mut out);
+            column.push_csv_field(rounding, guard, &mut out, &mut row);
         }
         // A row of one empty cell is written `""`, so that it is not a blank line.
         if out.len() == row_start {

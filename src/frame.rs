@@ -166,9 +166,12 @@ pub(crate) fn canonical_frame(
         Some(units) => Column::new("_unit".into(), units),
         None => Column::full_null("_unit".into(), rows_in, &DataType::String),
     });
+    // Held per row only where some figure is not in its entity's own currency: a column of
+    // one text is one value for polars.
+    let all_local = |b: &[&str]| b.iter().all(|&t| t == InputBasis::Local.as_str());
     columns.push(match basis {
-        Some(basis) => Column::new("_basis".into(), basis),
-        None => Column::new_scalar(
+        Some(basis) if !all_local(&basis) => Column::new("_basis".into(), basis),
+        _ => Column::new_scalar(
             "_basis".into(),
             Scalar::from(PlSmallStr::from_static(InputBasis::Local.as_str())),
             rows_in,

@@ -96,8 +96,11 @@ pub fn competition_ranks(
     order: Order,
 ) -> Int64Chunked {
     use rayon::prelude::*;
-    let values: Vec<Option<f64>> = values.iter().collect();
-    let groups = ByPartition::new(|row| values[row].is_some(), partitions, count);
+    // Read in place (one chunk), not copied.
+    let values = values.rechunk();
+    let array = values.downcast_iter().next();
+    let value_at = |row: usize| array.and_then(|a| StaticArray::get(a, row));
+    let groups = ByPartition::new(|row| value_at(row).is_some(), partitions, count);
     // Each partition's ranks in the order of `groups.rows`, the partitions on the pool's
     // threads, each into its own part of `in_order`.
     let mut in_order = vec![0i64; groups.rows.len()];
@@ -113,20 +116,25 @@ pub fn competition_ranks(
         parts
             .into_par_iter()
             .for_each_init(Vec::new, |run, (rows, out)| {
-                rank_partition(&values, rows, order, run, out);
+                rank_partition(&value_at, rows, order, run, out);
             })
     });
-    let mut ranks: Vec<Option<i64>> = vec![None; values.len()];
+    let mut ranks = vec![0i64; values.len()];
+    let mut ranked = vec![false; values.len()];
     for (&row, &rank) in groups.rows.iter().zip(&in_order) {
-        ranks[row as usize] = Some(rank);
+        ranks[row as usize] = rank;
+        ranked[row as usize] = true;
     }
-    Int64Chunked::from_iter_options("rank".into(), ranks.into_iter())
+    Int64Chunked::from_iter_options(
+        "rank".into(),
+        ranks.iter().zip(&ranked).map(|(&r, &is)| is.then_some(r)),
+    )
 }
 
 /// The ranks of one partition's `rows` (each with a value), into `out` in the same order;
 /// `run` is a reused buffer.
 fn rank_partition(
-    values: &[Option<f64>],
+    value_at: &(impl Fn(usize) -> Option<f64> + Sync),
     rows: &[u32],
     order: Order,
     run: &mut Vec<(f64, u32)>,
@@ -136,7 +144,7 @@ fn rank_partition(
     run.extend(
         rows.iter()
             .enumerate()
-            .map(|(k, &row)| (values[row as usize].unwrap_or(f64::NAN), k as u32)),
+            .map(|(k, &row)| (value_at(row as usize).unwrap_or(f64::NAN), k as u32)),
     );
     run.sort_unstable_by(|a, b| match order {
         Order::Desc => total_cmp(b.0, a.0),
