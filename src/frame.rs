@@ -69,8 +69,7 @@ fn row_facts(
     // The unit each figure ends in, for the mixed-currency rule: one common unit (none) when
     // a step converts currencies (or makes a ratio), else the figure's currency, or, for an
     // entity whose currency is unknown, a unit of its own.
-    let converts = crate::pipeline::converts_currency(&settings.steps)
-        || crate::pipeline::figures_are_not_money(settings);
+    let converts = settings.one_unit();
     let mut units: Option<Vec<Option<String>>> = (!converts).then(|| Vec::with_capacity(rows_in));
     let mut places: PlHashMap<(u32, i32), u32> = PlHashMap::default();
     let mut keys = RowKeys {

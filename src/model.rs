@@ -28,6 +28,33 @@ pub struct PipelineSettings {
     pub factor_year_offset: Option<(crate::reference::Kind, i32)>,
 }
 
+impl PipelineSettings {
+    /// Whether the steps bring every figure to one unit (a currency conversion, or a ratio of
+    /// income); without one, figures in different currencies must not be ranked together. The
+    /// same steps make each figure's currency matter: a figure in a foreign currency cannot be
+    /// converted with its country's factors.
+    pub fn converts_currency(&self) -> bool {
+        self.steps
+            .iter()
+            .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
+    }
+
+    /// Survey shares (margins from sample sizes), counts of people (`--proportion`) and figures
+    /// stated as `--currency-code XXX` are not money: they rank together whatever the country.
+    pub fn figures_are_not_money(&self) -> bool {
+        matches!(
+            self.ingest.margins,
+            crate::ingest::margins::MarginSpec::SampleSize { .. }
+        ) || self.step_settings.proportion
+            || self.ingest.currency_code.as_deref() == Some("XXX")
+    }
+
+    /// Whether every figure ends in one unit (the mixed-currency rule has nothing to compare).
+    pub fn one_unit(&self) -> bool {
+        self.converts_currency() || self.figures_are_not_money()
+    }
+}
+
 impl std::fmt::Debug for dyn Step {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.write_str(self.name())

@@ -27,31 +27,10 @@ pub struct AdjustOutput {
     pub summary: RunSummary,
 }
 
-/// Whether the steps bring every figure to one unit (a currency conversion, or a ratio of
-/// income); without one, figures in different currencies must not be ranked together. The
-/// same steps make each figure's currency matter: a figure in a foreign currency cannot be
-/// converted with its country's factors.
-pub(crate) fn converts_currency(steps: &[&'static dyn Step]) -> bool {
-    steps
-        .iter()
-        .any(|s| matches!(s.name(), "market" | "ppp" | "per-income"))
-}
-
 /// The column of each figure's unit for the mixed-currency rule (`_unit`), or none when the
 /// steps bring every figure to one unit or the figures are not money.
 pub(crate) fn units_differ(settings: &PipelineSettings) -> Option<Expr> {
-    let one_unit = converts_currency(&settings.steps) || figures_are_not_money(settings);
-    (!one_unit).then(|| col("_unit"))
-}
-
-/// Survey shares (margins from sample sizes), counts of people (`--proportion`) and figures
-/// stated as `--currency-code XXX` are not money: they rank together whatever the country.
-pub(crate) fn figures_are_not_money(settings: &PipelineSettings) -> bool {
-    matches!(
-        settings.ingest.margins,
-        crate::ingest::margins::MarginSpec::SampleSize { .. }
-    ) || settings.step_settings.proportion
-        || settings.ingest.currency_code.as_deref() == Some("XXX")
+    (!settings.one_unit()).then(|| col("_unit"))
 }
 
 pub fn run_adjust(
@@ -209,7 +188,7 @@ pub(crate) fn prepare(
         },
     )?;
     crate::trace::phase("entities resolved");
-    let check_currency = converts_currency(&settings.steps);
+    let check_currency = settings.converts_currency();
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());
     let rows_in = ingested.rows.len();
@@ -517,7 +496,7 @@ pub(crate) fn summarize(
     let names: Vec<&str> = settings.steps.iter().map(|s| s.name()).collect();
     let baseline_names: Vec<&str> = baseline_steps.iter().map(|s| s.name()).collect();
     let input_currency = crate::units::InputCurrency {
-        code: if figures_are_not_money(settings) {
+        code: if settings.figures_are_not_money() {
             Some("XXX".into())
         } else {
             settings.ingest.currency_code.clone()
@@ -539,7 +518,7 @@ pub(crate) fn summarize(
     let mut notes = reading_notes;
     if settings.ingest.currency_code.is_none()
         && settings.ingest.roles.currency.is_none()
-        && converts_currency(&settings.steps)
+        && settings.converts_currency()
     {
         notes.push("currency: no --currency or --currency-code given, so each figure is taken to be in its entity's own currency (the unit of its reference tables)".into());
     }

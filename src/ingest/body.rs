@@ -6,7 +6,7 @@
 use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
 use crate::ingest::delimiter::delimiter_name;
-use crate::ingest::header::{classify, CellClass, Raw};
+use crate::ingest::header::{classify, CellClass, Raw, Spot};
 use crate::ingest::record::{Fields, Records};
 
 /// Where a record below the header goes.
@@ -88,14 +88,6 @@ pub(super) struct Body<'a> {
     /// TSV), split into that many cells as the record is kept.
     dimensions: Option<usize>,
     pub(super) records: Records,
-}
-
-/// A record being read: its line and where it lies in the text.
-#[derive(Debug, Clone, Copy)]
-pub(super) struct Spot {
-    pub(super) line: usize,
-    pub(super) start: usize,
-    pub(super) end: usize,
 }
 
 impl<'a> Body<'a> {

@@ -48,6 +48,14 @@ pub(super) fn classify(cell: &str) -> CellClass {
     }
 }
 
+/// A record being read: its line and where it lies in the text.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct Spot {
+    pub(super) line: usize,
+    pub(super) start: usize,
+    pub(super) end: usize,
+}
+
 /// One parsed record before the table is known.
 pub(super) struct Raw {
     pub(super) line: usize,
@@ -58,8 +66,8 @@ pub(super) struct Raw {
 }
 
 impl Raw {
-    pub(super) fn spot(&self) -> crate::ingest::body::Spot {
-        crate::ingest::body::Spot {
+    pub(super) fn spot(&self) -> Spot {
+        Spot {
             line: self.line,
             start: self.start,
             end: self.end,

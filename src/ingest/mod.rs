@@ -12,6 +12,7 @@ pub mod encoding;
 mod header;
 pub mod layout;
 pub mod margins;
+mod reader;
 pub mod record;
 mod rows;
 pub use canonical::{CanonicalRows, IngestOptions, RowId, TextColumn, Texts};
