@@ -138,19 +138,6 @@ impl FlagColumn {
         counts
     }
 
-    /// The flags of rows whose early flags are held as text (a streamed piece's), with the
-    /// late flags `late` gives for each row.
-    pub fn of_texts<'a>(
-        early: impl ExactSizeIterator<Item = Option<&'a str>>,
-        late: impl Fn(usize) -> LateFlags,
-    ) -> FlagColumn {
-        let mut builder = FlagColumnBuilder::new(early.len(), 0);
-        for (row, text) in early.enumerate() {
-            builder.push_own(text.into_iter(), late(row));
-        }
-        builder.finish()
-    }
-
     /// The column as text, named `name`.
     pub fn to_column(&self, name: &str) -> Column {
         StringChunked::from_iter_values(name.into(), (0..self.len()).map(|i| self.text(i)))

@@ -68,6 +68,7 @@ impl TextKind {
 /// The texts of every row, in row order: what ingest read (through `CanonicalRows`, whose
 /// year and figure columns have gone into the frame), the entities they resolved to, and
 /// each row's entity-year with its factors and the flags they raised.
+#[derive(Default)]
 pub struct RowTexts {
     rows: CanonicalRows,
     entities: EntityColumns,
@@ -213,30 +214,6 @@ impl RowTexts {
     fn factor_flags(&self, row: usize) -> (Option<u32>, Option<&str>) {
         let key = self.keys[row];
         (key, key.and_then(|k| self.key_flags[k as usize].as_deref()))
-    }
-
-    /// The flags raised before ranking, as a text column named `name` (null where none): the
-    /// row's own (reading, entity, currency), then its factors'. A streamed piece carries it
-    /// to the write, where the late flags join it.
-    pub fn early_flags_column(&self, name: &str) -> Column {
-        let mut builder = StringChunkedBuilder::new(name.into(), self.len());
-        let mut text = String::new();
-        for row in 0..self.len() {
-            text.clear();
-            let (_, factor) = self.factor_flags(row);
-            for part in self.rows.flags(row).iter().copied().chain(factor) {
-                if !text.is_empty() {
-                    text.push(';');
-                }
-                text.push_str(part);
-            }
-            if text.is_empty() {
-                builder.append_null();
-            } else {
-                builder.append_value(&text);
-            }
-        }
-        builder.finish().into_column()
     }
 
     /// Every row's flags: its early flags, then the late ones `late` gives for it.

@@ -40,53 +40,9 @@ pub fn run_adjust(
     resolver: &Resolver,
     references: Option<&References>,
 ) -> Result<AdjustOutput> {
-    let prepared = prepare(bytes, input_label, settings, resolver, references, None)?;
+    let mut prepared = prepare(bytes, input_label, settings, resolver, references, None)?;
     let rows_in = prepared.rows_in;
-    let baseline_missing = prepared.baseline_missing();
-    let order = output_columns(&prepared.head_columns, settings);
-    // The frame holds every output column but the texts, the factors and the flags, which are
-    // rendered from the rows and their entity-years (`output::RowTexts`), and the ranks,
-    // computed next; what the ranks and the late flags need comes along.
-    let mut selection: Vec<Expr> = order
-        .iter()
-        .filter(|c| {
-            !prepared.texts.renders(c) && *c != "flags" && !RANK_COLUMNS.contains(&c.as_str())
-        })
-        .map(|c| col(c.as_str()))
-        .collect();
-    selection.extend([
-        col("_several"),
-        col("_mixed"),
-        col("_rank_eligible"),
-        col("_partition"),
-    ]);
-    let mut frame = prepared
-        .lf
-        .with_column(mixed_expr(settings)?)
-        .select(selection)
-        .collect()
-        .map_err(Error::engine("adjusting"))?;
-    crate::trace::phase("adjusted");
-    if frame.height() != rows_in {
-        return Err(Error::engine("checking that no row was lost")(polars_err!(
-            ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
-        )));
-    }
-    add_ranks(
-        &mut frame,
-        prepared.partitions,
-        settings.order,
-        baseline_missing,
-    )?;
-    crate::trace::phase("ranked");
-    let flags =
-        late_flags(&frame, baseline_missing).map(|late| prepared.texts.flags(|row| late[row]))?;
-    for private in ["_several", "_mixed", "_rank_eligible", "_partition"] {
-        frame
-            .drop_in_place(private)
-            .map_err(Error::engine("adjusting and ranking"))?;
-    }
-    let table = OutputTable::compact(frame, prepared.texts, Some(flags), &order);
+    let table = finish(&mut prepared, settings, None)?;
     let table = match &settings.intervals {
         Some(intervals) => OutputTable::plain(finish_intervals(table.text_frame()?, intervals)?),
         None => table,
@@ -314,6 +270,69 @@ fn head_columns(
 
 /// The ranks, their shift, and the columns they are written under.
 const RANK_COLUMNS: [&str; 3] = ["rank_baseline", "rank_adjusted", "rank_shift"];
+
+/// The output table of a prepared run: its plan collected with the columns the output needs,
+/// its ranks and flags. The ranks are computed here over its own rows, or `given`: a streamed
+/// piece's slice of the whole file's ranks, with `_several` and `_mixed`
+/// (`streaming::ranks_once`). The rows' texts are taken out of `prepared`.
+pub(crate) fn finish(
+    prepared: &mut Prepared,
+    settings: &PipelineSettings,
+    given: Option<DataFrame>,
+) -> Result<OutputTable> {
+    let baseline_missing = prepared.baseline_missing();
+    let order = output_columns(&prepared.head_columns, settings);
+    // The frame holds every output column but the texts, the factors and the flags, which are
+    // rendered from the rows and their entity-years (`output::RowTexts`), and the ranks;
+    // what the ranks and the late flags need comes along.
+    let mut selection: Vec<Expr> = order
+        .iter()
+        .filter(|c| {
+            !prepared.texts.renders(c) && *c != "flags" && !RANK_COLUMNS.contains(&c.as_str())
+        })
+        .map(|c| col(c.as_str()))
+        .collect();
+    let mut lf = std::mem::take(&mut prepared.lf);
+    if given.is_none() {
+        selection.extend(["_several", "_mixed", "_rank_eligible", "_partition"].map(col));
+        lf = lf.with_column(mixed_expr(settings)?);
+    }
+    let mut frame = lf
+        .select(selection)
+        .collect()
+        .map_err(Error::engine("adjusting"))?;
+    crate::trace::phase("adjusted");
+    if frame.height() != prepared.rows_in {
+        return Err(Error::engine("checking that no row was lost")(polars_err!(
+            ComputeError: "{} rows in, {} rows out", prepared.rows_in, frame.height()
+        )));
+    }
+    match given {
+        Some(ranks) => {
+            frame
+                .hstack_mut(ranks.columns())
+                .map_err(Error::engine("ranking"))?;
+        }
+        None => add_ranks(
+            &mut frame,
+            prepared.partitions,
+            settings.order,
+            baseline_missing,
+        )?,
+    }
+    crate::trace::phase("ranked");
+    let flags =
+        late_flags(&frame, baseline_missing).map(|late| prepared.texts.flags(|row| late[row]))?;
+    for private in ["_several", "_mixed", "_rank_eligible", "_partition"] {
+        if frame.get_column_index(private).is_some() {
+            frame
+                .drop_in_place(private)
+                .map_err(Error::engine("ranking"))?;
+        }
+    }
+    let texts = std::mem::take(&mut prepared.texts);
+    Ok(OutputTable::compact(frame, texts, Some(flags), &order))
+}
 
 /// `_mixed`: whether the row's group and year hold figures in several units (the rows
 /// ranked together are numbered by `_partition`: `resolve::ranking_keys`).

@@ -19,10 +19,10 @@
 
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
-use crate::flags::{FlagColumn, FlagCounts};
+use crate::flags::FlagCounts;
 use crate::ingest::encoding::EncodingChoice;
 use crate::ingest::table;
-use crate::output::{OutputTable, RowTexts};
+use crate::output::{OutputTable, TextKind};
 use crate::pipeline::{self, PipelineSettings};
 use crate::reference::References;
 use crate::report::{self, Format};
@@ -94,12 +94,6 @@ struct FirstPiece {
     data_lines: usize,
 }
 
-/// A piece's rows spilled to disk, and where its rows start.
-struct Spilled {
-    path: PathBuf,
-    rows: usize,
-}
-
 /// The output columns and the steps, as the first piece planned them.
 struct Columns {
     head: Vec<String>,
@@ -149,21 +143,20 @@ fn run(
         .output_path
         .ok_or_else(|| Error::usage("--streaming writes csv to a file", "pass -o FILE.csv"))?;
     let pieces = open_pieces(plan.input_label, stream, settings)?;
-    let spill_dir = spill_folder(output)?;
-    let spilling = match spill_pieces(plan, pieces, settings, spill_dir.path())? {
-        Ok(spilling) => spilling,
+    let read = match read_rank_inputs(plan, pieces, settings)? {
+        Ok(read) => read,
         Err(Restart) => return Ok(Err(Restart)),
     };
-    let Spilling {
+    let FirstPass {
         first: Some(first),
         shape: Some(columns),
-        spilled,
         narrow,
         later_notes,
         rows_before,
         ord,
+        pieces,
         ..
-    } = spilling
+    } = read
     else {
         return Err(Error::bad_input(
             crate::error::Location::file(plan.input_label),
@@ -178,18 +171,20 @@ fn run(
     let ranks = ranks_once(narrow, settings, baseline_missing)?;
     let rows_in = ord as usize;
 
-    // The pieces again, in order, with their ranks, into the output.
+    // The pieces again, in order, each finished with its slice of the ranks, into the output.
     let all = pipeline::output_columns(&columns.head, settings);
     let order = plan.columns.pick(&all)?;
     let column_note = plan.columns.describe(order.len(), all.len());
-    let selection: Vec<Expr> = order.iter().map(|c| col(c.as_str())).collect();
-    let (counts, rows_out) = write_pieces(
+    let write = WritePass {
         plan,
+        settings,
+        first: &first,
+        ranks: &ranks,
+        order: (order.len() < all.len()).then_some(order.as_slice()),
+    };
+    let (counts, rows_out) = write.run(
+        open_pieces(plan.input_label, stream, settings)?,
         output,
-        &spilled,
-        &ranks,
-        &selection,
-        baseline_missing,
         staging,
     )?;
     if rows_out != rows_in {
@@ -204,7 +199,7 @@ fn run(
         settings,
         &first,
         Tally {
-            pieces: spilled.len(),
+            pieces,
             data_lines: rows_before,
             rows_in,
             rows_out,
@@ -219,36 +214,73 @@ fn run(
     }))
 }
 
-/// What the first pass over the pieces leaves: each piece's rows spilled to disk, the narrow
-/// columns the ranks need, and what the first piece decided.
+/// What the first pass over the pieces leaves: the narrow columns the ranks need, and what the
+/// first piece decided.
 #[derive(Default)]
-struct Spilling {
+struct FirstPass {
     first: Option<FirstPiece>,
     shape: Option<Columns>,
-    spilled: Vec<Spilled>,
     narrow: Vec<DataFrame>,
     /// Group, entity and unit texts as small numbers, shared by every piece's narrow columns.
-    groups: HashMap<String, u32>,
-    entities: HashMap<String, u32>,
-    units: HashMap<String, u32>,
+    ids: NarrowIds,
     lines_before: usize,
     rows_before: usize,
     ord: u64,
+    pieces: usize,
     /// Later pieces' notes of rows set aside (the first piece's notes are in `first`).
     later_notes: Vec<String>,
 }
 
-/// The first pass: every piece prepared like an in-memory table, its rows spilled to
-/// `spill_dir`, its rank inputs kept; `Restart` when a piece holds base-currency rows that the
-/// first piece's columns did not plan for.
-fn spill_pieces(
+/// Texts numbered for the narrow columns, the same number for the same text in every piece.
+#[derive(Default)]
+struct NarrowIds {
+    groups: HashMap<String, u32>,
+    entities: HashMap<String, u32>,
+    units: HashMap<String, u32>,
+}
+
+impl NarrowIds {
+    fn id(ids: &mut HashMap<String, u32>, text: &str) -> u32 {
+        if let Some(&id) = ids.get(text) {
+            return id;
+        }
+        let next = ids.len() as u32;
+        ids.insert(text.to_string(), next);
+        next
+    }
+}
+
+/// A piece read with what the first piece decided (`first`, none for the first piece itself).
+fn prepare_piece(
+    plan: &StreamRun<'_>,
+    settings: &PipelineSettings,
+    first: Option<&FirstPiece>,
+    bytes: Vec<u8>,
+    start: &PieceStart,
+) -> Result<pipeline::Prepared> {
+    match first {
+        None => pipeline::prepare(
+            &bytes,
+            plan.input_label,
+            settings,
+            plan.resolver,
+            plan.references,
+            Some(start.ord),
+        ),
+        Some(f) => prepare_later_piece(plan, f, bytes, start),
+    }
+}
+
+/// The first pass: every piece prepared like an in-memory table and its rank inputs kept;
+/// `Restart` when a piece holds base-currency rows that the first piece's columns did not
+/// plan for.
+fn read_rank_inputs(
     plan: &StreamRun<'_>,
     mut pieces: Pieces<std::fs::File>,
     settings: &PipelineSettings,
-    spill_dir: &Path,
-) -> Result<std::result::Result<Spilling, Restart>> {
+) -> Result<std::result::Result<FirstPass, Restart>> {
     let label = plan.input_label;
-    let mut state = Spilling::default();
+    let mut state = FirstPass::default();
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
         let start = PieceStart {
@@ -256,17 +288,7 @@ fn spill_pieces(
             rows_before: state.rows_before,
             ord: state.ord,
         };
-        let prepared = match &state.first {
-            None => pipeline::prepare(
-                &bytes,
-                label,
-                settings,
-                plan.resolver,
-                plan.references,
-                Some(start.ord),
-            )?,
-            Some(f) => prepare_later_piece(plan, f, bytes, &start)?,
-        };
+        let prepared = prepare_piece(plan, settings, state.first.as_ref(), bytes, &start)?;
         if prepared.any_base && !settings.assume_base_rows {
             return Ok(Err(Restart));
         }
@@ -281,66 +303,84 @@ fn spill_pieces(
                     .cloned(),
             ),
         }
-        let columns = state.shape.get_or_insert_with(|| Columns {
+        state.shape.get_or_insert_with(|| Columns {
             head: prepared.head_columns.clone(),
             baseline_steps: prepared.baseline_steps.clone(),
             deflator_used: prepared.deflator_used,
             missing_tables: prepared.missing_tables.clone(),
         });
         let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
-        let frame = piece_frame(prepared.lf, prepared.texts, rows, &columns.head)?;
-        state.narrow.push(rank_inputs(
-            &frame,
-            &mut state.groups,
-            &mut state.entities,
-            &mut state.units,
-        )?);
-        let path = spill_dir.join(format!("piece-{:05}.parquet", state.spilled.len()));
-        write_spill(&path, frame)?;
-        state.spilled.push(Spilled { path, rows });
+        state.narrow.push(rank_inputs(prepared, &mut state.ids)?);
         state.lines_before += breaks;
         state.rows_before += data_lines;
         state.ord += rows as u64;
+        state.pieces += 1;
     }
     Ok(Ok(state))
 }
 
-/// A piece's output columns (its texts written out) and the private ones the ranks and flags
-/// need, computed; an error if a row went missing.
-fn piece_frame(
-    lf: LazyFrame,
-    texts: RowTexts,
-    rows_in: usize,
-    head: &[String],
-) -> Result<DataFrame> {
-    let private = ["_ord", "_rank_eligible", "_unit"];
-    let keep: Vec<Expr> = head
-        .iter()
-        .map(String::as_str)
-        .filter(|c| !texts.renders(c))
-        .chain(private)
-        .map(col)
-        .collect();
-    let frame = lf
-        .select(keep)
-        .collect()
-        .map_err(Error::engine("adjusting a piece of the table"))?;
-    if frame.height() != rows_in {
-        return Err(Error::engine("checking that no row was lost")(polars_err!(
-            ComputeError: "{} rows in, {} rows out", rows_in, frame.height()
-        )));
+/// The second pass: the pieces read again as the first pass read them, each finished like an
+/// in-memory table with its slice of the whole file's ranks, and written in order.
+struct WritePass<'a> {
+    plan: &'a StreamRun<'a>,
+    settings: &'a PipelineSettings,
+    first: &'a FirstPiece,
+    ranks: &'a DataFrame,
+    /// The output columns asked for, when not every one (`--write-columns`).
+    order: Option<&'a [String]>,
+}
+
+impl WritePass<'_> {
+    /// Writes every piece into one csv staged at `output`; the flag counts and rows written.
+    fn run(
+        &self,
+        mut pieces: Pieces<std::fs::File>,
+        output: &Path,
+        staging: &mut report::Staging,
+    ) -> Result<(FlagCounts, usize)> {
+        let temp = report::temp_beside(output)?;
+        let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
+        let mut counts = FlagCounts::default();
+        let mut start = PieceStart {
+            lines_before: 0,
+            rows_before: 0,
+            ord: 0,
+        };
+        let label = self.plan.input_label;
+        let mut piece = 0;
+        while let Some(bytes) = pieces.next_piece(label)? {
+            let breaks = table::count_line_breaks(&bytes);
+            let first = (piece > 0).then_some(self.first);
+            let mut prepared = prepare_piece(self.plan, self.settings, first, bytes, &start)?;
+            let rows = prepared.rows_in;
+            let ranks = self.ranks.slice(start.ord as i64, rows);
+            let table = pipeline::finish(&mut prepared, self.settings, Some(ranks))?;
+            let table = match self.order {
+                Some(order) => table.select(order)?,
+                None => table,
+            };
+            counts.add(table.flag_counts()?);
+            report::write_csv(
+                &table,
+                self.plan.rounding,
+                piece == 0,
+                self.plan.guard_formulas,
+                &mut buffered,
+            )?;
+            start.lines_before += breaks;
+            start.rows_before += prepared.ingested.data_lines;
+            start.ord += rows as u64;
+            piece += 1;
+        }
+        buffered
+            .flush()
+            .map_err(|e| Error::io(output.display(), "write the output", e))?;
+        let temp = buffered
+            .into_inner()
+            .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
+        staging.file(temp, output);
+        Ok((counts, start.ord as usize))
     }
-    let early = texts.early_flags_column("_early_flags");
-    let names: Vec<String> = head
-        .iter()
-        .cloned()
-        .chain(private.map(String::from))
-        .collect();
-    let mut frame = OutputTable::compact(frame, texts, None, &names).text_frame()?;
-    frame
-        .with_column(early)
-        .map_err(Error::engine("adjusting a piece of the table"))?;
-    Ok(frame)
 }
 
 /// What the pieces added up to.
@@ -397,65 +437,6 @@ fn streamed_summary(
     summary
 }
 
-/// The spilled pieces again, in order, each with its slice of the ranks and its flags, into
-/// one csv staged at `output`; the flag counts and the rows written.
-#[allow(clippy::too_many_arguments)]
-fn write_pieces(
-    plan: &StreamRun<'_>,
-    output: &Path,
-    spilled: &[Spilled],
-    ranks: &DataFrame,
-    selection: &[Expr],
-    baseline_missing: bool,
-    staging: &mut report::Staging,
-) -> Result<(FlagCounts, usize)> {
-    let temp = report::temp_beside(output)?;
-    let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-    let mut counts = FlagCounts::default();
-    let mut offset = 0i64;
-    let mut rows_out = 0usize;
-    for (i, piece) in spilled.iter().enumerate() {
-        let mut frame = read_spill(&piece.path)?;
-        let piece_ranks = ranks.slice(offset, piece.rows);
-        offset += piece.rows as i64;
-        frame
-            .hstack_mut(piece_ranks.columns())
-            .map_err(Error::engine("joining ranks to a piece"))?;
-        let late = pipeline::late_flags(&frame, baseline_missing)?;
-        let early = frame
-            .column("_early_flags")
-            .and_then(|c| c.str().cloned())
-            .map_err(Error::engine("flagging a piece"))?;
-        let flags = FlagColumn::of_texts(early.iter(), |row| late[row]);
-        frame
-            .with_column(flags.to_column("flags"))
-            .map_err(Error::engine("flagging a piece"))?;
-        let frame = frame
-            .lazy()
-            .select(selection)
-            .collect()
-            .map_err(Error::engine("flagging a piece"))?;
-        rows_out += frame.height();
-        counts.add(flags.counts());
-        report::write_csv(
-            &frame,
-            plan.rounding,
-            i == 0,
-            plan.guard_formulas,
-            &mut buffered,
-        )?;
-        let _ = std::fs::remove_file(&piece.path);
-    }
-    buffered
-        .flush()
-        .map_err(|e| Error::io(output.display(), "write the output", e))?;
-    let temp = buffered
-        .into_inner()
-        .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
-    staging.file(temp, output);
-    Ok((counts, rows_out))
-}
-
 /// The input opened for cutting into pieces, with its delimiter (UTF-16 is refused: its
 /// pieces cannot be cut at byte boundaries found by line breaks).
 fn open_pieces(
@@ -489,23 +470,6 @@ fn open_pieces(
         target: stream.chunk_bytes.max(1),
         finished: false,
     })
-}
-
-/// A temporary folder for the spilled pieces beside the output, removed on exit or signal.
-fn spill_folder(output: &Path) -> Result<tempfile::TempDir> {
-    let folder = match output.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    crate::cleanup::create_registered(
-        || {
-            tempfile::Builder::new()
-                .prefix(".levelfield-pieces-")
-                .tempdir_in(&folder)
-        },
-        tempfile::TempDir::path,
-    )
-    .map_err(|e| Error::io(folder.display(), "create a temporary folder in", e))
 }
 
 /// Where a piece starts in the whole file.
@@ -698,34 +662,9 @@ fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
         .to_string())
 }
 
-/// What ranks need of a piece: the group as a number, the year, and the two values, null where
-/// the row is not ranked.
-fn rank_inputs(
-    frame: &DataFrame,
-    groups: &mut HashMap<String, u32>,
-    entities: &mut HashMap<String, u32>,
-    units: &mut HashMap<String, u32>,
-) -> Result<DataFrame> {
-    let text = |name: &str| {
-        frame
-            .column(name)
-            .and_then(|c| c.str().cloned())
-            .map_err(Error::engine("collecting what ranks need"))
-    };
-    let id = |text: Option<&str>, ids: &mut HashMap<String, u32>| {
-        text.map(|t| {
-            let next = ids.len() as u32;
-            *ids.entry(t.to_string()).or_insert(next)
-        })
-    };
-    let ids: Vec<Option<u32>> = text("group")?.iter().map(|g| id(g, groups)).collect();
-    let (codes, inputs) = (text("entity_code")?, text("entity_input")?);
-    let unit_ids: Vec<Option<u32>> = text("_unit")?.iter().map(|u| id(u, units)).collect();
-    let entity_ids: Vec<Option<u32>> = codes
-        .iter()
-        .zip(inputs.iter())
-        .map(|(code, input)| id(code.or(input), entities))
-        .collect();
+/// What ranks need of a piece: its entity, group and unit as numbers shared by every piece,
+/// its year, eligibility and the two values (null where the row is not eligible).
+fn rank_inputs(mut prepared: pipeline::Prepared, ids: &mut NarrowIds) -> Result<DataFrame> {
     // Only eligibility here: the ranks themselves decide whether a baseline is required.
     let eligible = col("_rank_eligible");
     let masked = |name: &str| {
@@ -734,20 +673,48 @@ fn rank_inputs(
             .otherwise(crate::rank::null_of(DataType::Float64))
             .alias(name)
     };
-    frame
-        .clone()
-        .lazy()
+    let mut frame = std::mem::take(&mut prepared.lf)
         .select([
-            lit(Series::new("_g".into(), ids)).alias("_g"),
-            lit(Series::new("_e".into(), entity_ids)).alias("_e"),
-            lit(Series::new("_u".into(), unit_ids)).alias("_u"),
             col("_rank_eligible"),
             col("year"),
+            col("_unit"),
             masked("value_baseline"),
             masked("value_adjusted"),
         ])
         .collect()
-        .map_err(Error::engine("collecting what ranks need"))
+        .map_err(Error::engine("collecting what ranks need"))?;
+    let texts = &prepared.texts;
+    let mut text = String::new();
+    let mut number = |kind: TextKind, row: usize, ids: &mut HashMap<String, u32>| {
+        text.clear();
+        texts
+            .push(kind, row, &mut text)
+            .then(|| NarrowIds::id(ids, &text))
+    };
+    let (mut groups, mut entities) = (Vec::new(), Vec::new());
+    for row in 0..texts.len() {
+        groups.push(number(TextKind::Group, row, &mut ids.groups));
+        entities.push(
+            number(TextKind::EntityCode, row, &mut ids.entities)
+                .or_else(|| number(TextKind::EntityInput, row, &mut ids.entities)),
+        );
+    }
+    let units: Vec<Option<u32>> = frame
+        .column("_unit")
+        .and_then(|c| c.str().cloned())
+        .map_err(Error::engine("collecting what ranks need"))?
+        .iter()
+        .map(|u| u.map(|u| NarrowIds::id(&mut ids.units, u)))
+        .collect();
+    frame
+        .drop_in_place("_unit")
+        .map_err(Error::engine("collecting what ranks need"))?;
+    for (name, numbers) in [("_g", groups), ("_e", entities), ("_u", units)] {
+        frame
+            .with_column(Column::new(name.into(), numbers))
+            .map_err(Error::engine("collecting what ranks need"))?;
+    }
+    Ok(frame)
 }
 
 fn concat_frames(frames: Vec<DataFrame>) -> Result<DataFrame> {
@@ -759,21 +726,6 @@ fn concat_frames(frames: Vec<DataFrame>) -> Result<DataFrame> {
     }
     all.rechunk_mut();
     Ok(all)
-}
-
-fn write_spill(path: &Path, mut frame: DataFrame) -> Result<()> {
-    let file = std::fs::File::create(path).map_err(|e| Error::io(path.display(), "write", e))?;
-    ParquetWriter::new(file)
-        .finish(&mut frame)
-        .map_err(Error::engine("spilling a piece to disk"))?;
-    Ok(())
-}
-
-fn read_spill(path: &Path) -> Result<DataFrame> {
-    let file = std::fs::File::open(path).map_err(|e| Error::io(path.display(), "read", e))?;
-    ParquetReader::new(file)
-        .finish()
-        .map_err(Error::engine("reading a spilled piece"))
 }
 
 #[cfg(test)]
