@@ -27,12 +27,6 @@ pub struct AdjustOutput {
     pub summary: RunSummary,
 }
 
-/// The column of each figure's unit for the mixed-currency rule (`_unit`), or none when the
-/// steps bring every figure to one unit or the figures are not money.
-pub(crate) fn units_differ(settings: &PipelineSettings) -> Option<Expr> {
-    (!settings.one_unit()).then(|| col("_unit"))
-}
-
 pub fn run_adjust(
     bytes: &[u8],
     input_label: &str,
@@ -292,12 +286,10 @@ pub(crate) fn finish(
         })
         .map(|c| col(c.as_str()))
         .collect();
-    let mut lf = std::mem::take(&mut prepared.lf);
     if given.is_none() {
-        selection.extend(["_several", "_mixed", "_rank_eligible", "_partition"].map(col));
-        lf = lf.with_column(mixed_expr(settings)?);
+        selection.extend(["_several", "_unit", "_rank_eligible", "_partition"].map(col));
     }
-    let mut frame = lf
+    let mut frame = std::mem::take(&mut prepared.lf)
         .select(selection)
         .collect()
         .map_err(Error::engine("adjusting"))?;
@@ -313,17 +305,18 @@ pub(crate) fn finish(
                 .hstack_mut(ranks.columns())
                 .map_err(Error::engine("ranking"))?;
         }
-        None => add_ranks(
-            &mut frame,
-            prepared.partitions,
-            settings.order,
-            baseline_missing,
-        )?,
+        None => add_ranks(&mut frame, prepared.partitions, settings, baseline_missing)?,
     }
     crate::trace::phase("ranked");
     let flags =
         late_flags(&frame, baseline_missing).map(|late| prepared.texts.flags(|row| late[row]))?;
-    for private in ["_several", "_mixed", "_rank_eligible", "_partition"] {
+    for private in [
+        "_several",
+        "_mixed",
+        "_unit",
+        "_rank_eligible",
+        "_partition",
+    ] {
         if frame.get_column_index(private).is_some() {
             frame
                 .drop_in_place(private)
@@ -334,23 +327,13 @@ pub(crate) fn finish(
     Ok(OutputTable::compact(frame, texts, Some(flags), &order))
 }
 
-/// `_mixed`: whether the row's group and year hold figures in several units (the rows
-/// ranked together are numbered by `_partition`: `resolve::ranking_keys`).
-pub(crate) fn mixed_expr(settings: &PipelineSettings) -> Result<Expr> {
-    rank::mixed_units(
-        units_differ(settings),
-        col("_rank_eligible"),
-        &[col("_partition")],
-    )
-    .map_err(Error::engine("ranking"))
-}
-
-/// Ranks per group and year (`_partition`, numbered below `partitions`) and their shift,
-/// added to `frame`.
+/// `_mixed` (whether the row's group and year hold eligible figures in several units, from
+/// `_unit`, `_rank_eligible` and `_partition`), then the ranks per group and year (`_partition`,
+/// numbered below `partitions`) and their shift, added to `frame`.
 pub(crate) fn add_ranks(
     frame: &mut DataFrame,
     partitions: usize,
-    order: rank::Order,
+    settings: &PipelineSettings,
     baseline_missing: bool,
 ) -> Result<()> {
     let numbers = frame
@@ -358,9 +341,21 @@ pub(crate) fn add_ranks(
         .and_then(|c| c.u32().map(|ca| ca.rechunk().into_owned()))
         .map_err(Error::engine("ranking"))?;
     let numbers: Vec<u32> = numbers.into_no_null_iter().collect();
-    let [baseline, adjusted] =
-        rank::rank_columns(frame, &numbers, partitions, order, baseline_missing)
-            .map_err(Error::engine("ranking"))?;
+    let mixed = match settings.one_unit() {
+        true => vec![false; numbers.len()],
+        false => mixed_of(frame, &numbers, partitions)?,
+    };
+    frame
+        .with_column(Column::new("_mixed".into(), mixed))
+        .map_err(Error::engine("ranking"))?;
+    let [baseline, adjusted] = rank::rank_columns(
+        frame,
+        &numbers,
+        partitions,
+        settings.order,
+        baseline_missing,
+    )
+    .map_err(Error::engine("ranking"))?;
     let shift = rank::shift_of(&baseline, &adjusted).map_err(Error::engine("ranking"))?;
     for column in [baseline, adjusted, shift] {
         frame
@@ -368,6 +363,32 @@ pub(crate) fn add_ranks(
             .map_err(Error::engine("ranking"))?;
     }
     Ok(())
+}
+
+/// `rank::mixed_units` of a frame's `_unit` texts (numbered here) and `_rank_eligible`.
+fn mixed_of(frame: &DataFrame, partitions: &[u32], count: usize) -> Result<Vec<bool>> {
+    let units = frame
+        .column("_unit")
+        .and_then(|c| c.str().cloned())
+        .map_err(Error::engine("ranking"))?;
+    let mut numbers: PlHashMap<&str, u32> = PlHashMap::default();
+    let units: Vec<Option<u32>> = units
+        .iter()
+        .map(|u| {
+            u.map(|u| {
+                let next = numbers.len() as u32;
+                *numbers.entry(u).or_insert(next)
+            })
+        })
+        .collect();
+    let eligible: Vec<bool> = frame
+        .column("_rank_eligible")
+        .and_then(|c| c.bool().cloned())
+        .map_err(Error::engine("ranking"))?
+        .iter()
+        .map(|e| e.unwrap_or(false))
+        .collect();
+    Ok(rank::mixed_units(&units, &eligible, partitions, count))
 }
 
 /// The standard cautions, and those the run's settings call for.

@@ -271,24 +271,29 @@ pub fn several_series(pairs: &[u32], years: &[Option<i32>], pair_count: usize) -
 /// Series-and-year cells counted in a dense table (one byte each) up to this many.
 const DENSE_SERIES_LIMIT: usize = 1 << 26;
 
-/// `_mixed`: the row's ranking group (partition) holds eligible figures in more than one unit
-/// (`unit`: a currency; none when the steps bring every figure to one unit). Figures in
-/// different currencies are never ranked against each other.
-pub fn mixed_units(unit: Option<Expr>, eligible: Expr, partition: &[Expr]) -> PolarsResult<Expr> {
-    // One common unit: nothing to compare (the window over every row would find no unit).
-    let Some(unit) = unit else {
-        return Ok(lit(false).alias("_mixed"));
-    };
-    let counted = when(eligible)
-        .then(unit)
-        .otherwise(null_of(DataType::String));
-    Ok(counted
-        .drop_nulls()
-        .n_unique()
-        .over(partition)?
-        .gt(lit(1))
-        .fill_null(lit(false))
-        .alias("_mixed"))
+/// Whether each row's ranking group (`partitions[i]`, a number below `count`) holds eligible
+/// figures in more than one unit (`units[i]`, a currency as a number; none counts as no unit).
+/// Figures in different currencies are never ranked against each other.
+pub fn mixed_units(
+    units: &[Option<u32>],
+    eligible: &[bool],
+    partitions: &[u32],
+    count: usize,
+) -> Vec<bool> {
+    // Each partition's first unit, and whether another one came.
+    let mut first: Vec<Option<u32>> = vec![None; count];
+    let mut mixed = vec![false; count];
+    for ((&unit, &ok), &p) in units.iter().zip(eligible).zip(partitions) {
+        let (Some(unit), true) = (unit, ok) else {
+            continue;
+        };
+        match first[p as usize] {
+            None => first[p as usize] = Some(unit),
+            Some(seen) if seen != unit => mixed[p as usize] = true,
+            Some(_) => {}
+        }
+    }
+    partitions.iter().map(|&p| mixed[p as usize]).collect()
 }
 
 /// `rank_shift` = rank_baseline − rank_adjusted: positive means the row moved up.
@@ -410,6 +415,17 @@ mod tests {
             assert_eq!(ours, theirs, "{order:?}");
             assert!(ours.iter().flatten().count() > n * 9 / 10);
         }
+    }
+
+    #[test]
+    fn a_partition_is_mixed_when_its_eligible_figures_have_two_units() {
+        let units = [Some(1), Some(1), Some(2), Some(1), None, Some(3), Some(4)];
+        let eligible = [true, true, true, true, true, false, true];
+        let partitions = [0, 0, 1, 1, 2, 2, 2];
+        assert_eq!(
+            mixed_units(&units, &eligible, &partitions, 3),
+            vec![false, false, true, true, false, false, false]
+        );
     }
 
     #[test]

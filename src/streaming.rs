@@ -32,7 +32,9 @@ use std::io::{BufRead, BufReader, Write};
 use std::path::{Path, PathBuf};
 
 mod pieces;
+mod ranks;
 use pieces::Pieces;
+use ranks::{Input, RankSpill, Ranks};
 
 /// What a streaming run reads and how big its pieces are.
 #[derive(Debug, Clone)]
@@ -143,14 +145,14 @@ fn run(
         .output_path
         .ok_or_else(|| Error::usage("--streaming writes csv to a file", "pass -o FILE.csv"))?;
     let pieces = open_pieces(plan.input_label, stream, settings)?;
-    let read = match read_rank_inputs(plan, pieces, settings)? {
+    let read = match read_rank_inputs(plan, pieces, settings, RankSpill::new(output)?)? {
         Ok(read) => read,
         Err(Restart) => return Ok(Err(Restart)),
     };
     let FirstPass {
         first: Some(first),
         shape: Some(columns),
-        narrow,
+        spill,
         later_notes,
         rows_before,
         ord,
@@ -166,20 +168,20 @@ fn run(
         ));
     };
 
-    // Ranks, once, over the narrow columns of every piece.
+    // Ranks, once, bucket by bucket of the ranking partitions.
     let baseline_missing = !columns.missing_tables.is_empty();
-    let ranks = ranks_once(narrow, settings, baseline_missing)?;
+    let mut ranks = spill.rank(settings, baseline_missing)?;
     let rows_in = ord as usize;
 
     // The pieces again, in order, each finished with its slice of the ranks, into the output.
     let all = pipeline::output_columns(&columns.head, settings);
     let order = plan.columns.pick(&all)?;
     let column_note = plan.columns.describe(order.len(), all.len());
-    let write = WritePass {
+    let mut write = WritePass {
         plan,
         settings,
         first: &first,
-        ranks: &ranks,
+        ranks: &mut ranks,
         order: (order.len() < all.len()).then_some(order.as_slice()),
     };
     let (counts, rows_out) = write.run(
@@ -214,13 +216,12 @@ fn run(
     }))
 }
 
-/// What the first pass over the pieces leaves: the narrow columns the ranks need, and what the
-/// first piece decided.
-#[derive(Default)]
+/// What the first pass over the pieces leaves: the rank inputs of every row, spilled by
+/// bucket, and what the first piece decided.
 struct FirstPass {
     first: Option<FirstPiece>,
     shape: Option<Columns>,
-    narrow: Vec<DataFrame>,
+    spill: RankSpill,
     /// Group, entity and unit texts as small numbers, shared by every piece's narrow columns.
     ids: NarrowIds,
     lines_before: usize,
@@ -278,9 +279,20 @@ fn read_rank_inputs(
     plan: &StreamRun<'_>,
     mut pieces: Pieces<std::fs::File>,
     settings: &PipelineSettings,
+    spill: RankSpill,
 ) -> Result<std::result::Result<FirstPass, Restart>> {
     let label = plan.input_label;
-    let mut state = FirstPass::default();
+    let mut state = FirstPass {
+        first: None,
+        shape: None,
+        spill,
+        ids: NarrowIds::default(),
+        lines_before: 0,
+        rows_before: 0,
+        ord: 0,
+        pieces: 0,
+        later_notes: Vec::new(),
+    };
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
         let start = PieceStart {
@@ -310,7 +322,7 @@ fn read_rank_inputs(
             missing_tables: prepared.missing_tables.clone(),
         });
         let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
-        state.narrow.push(rank_inputs(prepared, &mut state.ids)?);
+        rank_inputs(prepared, &mut state.ids, state.ord, &mut state.spill)?;
         state.lines_before += breaks;
         state.rows_before += data_lines;
         state.ord += rows as u64;
@@ -325,7 +337,7 @@ struct WritePass<'a> {
     plan: &'a StreamRun<'a>,
     settings: &'a PipelineSettings,
     first: &'a FirstPiece,
-    ranks: &'a DataFrame,
+    ranks: &'a mut Ranks,
     /// The output columns asked for, when not every one (`--write-columns`).
     order: Option<&'a [String]>,
 }
@@ -333,7 +345,7 @@ struct WritePass<'a> {
 impl WritePass<'_> {
     /// Writes every piece into one csv staged at `output`; the flag counts and rows written.
     fn run(
-        &self,
+        &mut self,
         mut pieces: Pieces<std::fs::File>,
         output: &Path,
         staging: &mut report::Staging,
@@ -353,7 +365,7 @@ impl WritePass<'_> {
             let first = (piece > 0).then_some(self.first);
             let mut prepared = prepare_piece(self.plan, self.settings, first, bytes, &start)?;
             let rows = prepared.rows_in;
-            let ranks = self.ranks.slice(start.ord as i64, rows);
+            let ranks = self.ranks.slice(start.ord, rows)?;
             let table = pipeline::finish(&mut prepared, self.settings, Some(ranks))?;
             let table = match self.order {
                 Some(order) => table.select(order)?,
@@ -557,86 +569,6 @@ fn first_piece(
     })
 }
 
-/// Ranks, their shift and the late flags' columns, once, over the narrow columns of every
-/// piece, by the in-memory run's rules (`pipeline::add_ranks`).
-fn ranks_once(
-    narrow: Vec<DataFrame>,
-    settings: &PipelineSettings,
-    baseline_missing: bool,
-) -> Result<DataFrame> {
-    let mut narrow = concat_frames(narrow)?;
-    let several = several_of(&narrow)?;
-    let (partition, partitions) = partitions_of(&narrow)?;
-    for column in [
-        Column::new("_several".into(), several),
-        Column::new("_partition".into(), partition),
-    ] {
-        narrow
-            .with_column(column)
-            .map_err(Error::engine("ranking"))?;
-    }
-    let mut ranked = narrow
-        .lazy()
-        .with_column(col("_u").cast(DataType::String).alias("_unit"))
-        .with_column(pipeline::mixed_expr(settings)?)
-        .collect()
-        .map_err(Error::engine("ranking"))?;
-    pipeline::add_ranks(&mut ranked, partitions, settings.order, baseline_missing)?;
-    ranked
-        .select([
-            "rank_baseline",
-            "rank_adjusted",
-            "rank_shift",
-            "_several",
-            "_mixed",
-        ])
-        .map_err(Error::engine("ranking"))
-}
-
-/// Each row's ranking partition (its group and year), numbered from 0, and how many.
-fn partitions_of(narrow: &DataFrame) -> Result<(Vec<u32>, usize)> {
-    let groups = narrow
-        .column("_g")
-        .and_then(|c| c.u32().cloned())
-        .map_err(Error::engine("ranking"))?;
-    let years = narrow
-        .column("year")
-        .and_then(|c| c.i32().cloned())
-        .map_err(Error::engine("ranking"))?;
-    let keys = groups.iter().zip(years.iter()).map(|(g, y)| {
-        (u64::from(g.unwrap_or(u32::MAX)) << 33) | y.map_or(1 << 32, |y| u64::from(y as u32))
-    });
-    Ok(crate::rank::partition_numbers(keys))
-}
-
-/// Whether each row shares its entity, group and year with another (`rank::several_series`),
-/// from the narrow columns' numbers.
-fn several_of(narrow: &DataFrame) -> Result<Vec<bool>> {
-    let numbers = |name: &str| {
-        narrow
-            .column(name)
-            .and_then(|c| c.u32().cloned())
-            .map_err(Error::engine("ranking"))
-    };
-    let (entities, groups) = (numbers("_e")?, numbers("_g")?);
-    let years: Vec<Option<i32>> = narrow
-        .column("year")
-        .and_then(|c| c.i32().cloned())
-        .map_err(Error::engine("ranking"))?
-        .iter()
-        .collect();
-    let mut pairs: HashMap<(Option<u32>, Option<u32>), u32> = HashMap::new();
-    let series: Vec<u32> = entities
-        .iter()
-        .zip(groups.iter())
-        .map(|pair| {
-            let next = pairs.len() as u32;
-            *pairs.entry(pair).or_insert(next)
-        })
-        .collect();
-    Ok(crate::rank::several_series(&series, &years, pairs.len()))
-}
-
 /// The header as a CSV line in `delimiter`, quoted where needed.
 fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
     let mut writer = csv::WriterBuilder::new()
@@ -662,27 +594,32 @@ fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
         .to_string())
 }
 
-/// What ranks need of a piece: its entity, group and unit as numbers shared by every piece,
-/// its year, eligibility and the two values (null where the row is not eligible).
-fn rank_inputs(mut prepared: pipeline::Prepared, ids: &mut NarrowIds) -> Result<DataFrame> {
-    // Only eligibility here: the ranks themselves decide whether a baseline is required.
-    let eligible = col("_rank_eligible");
-    let masked = |name: &str| {
-        when(eligible.clone())
-            .then(col(name))
-            .otherwise(crate::rank::null_of(DataType::Float64))
-            .alias(name)
-    };
-    let mut frame = std::mem::take(&mut prepared.lf)
+/// What ranks need of a piece's rows (numbered from `ord`): the entity, group and unit as
+/// numbers shared by every piece, the year, the eligibility and the two values (none where the
+/// row is not eligible), appended to `spill`.
+fn rank_inputs(
+    mut prepared: pipeline::Prepared,
+    ids: &mut NarrowIds,
+    ord: u64,
+    spill: &mut RankSpill,
+) -> Result<()> {
+    let engine = || Error::engine("collecting what ranks need");
+    let frame = std::mem::take(&mut prepared.lf)
         .select([
             col("_rank_eligible"),
             col("year"),
             col("_unit"),
-            masked("value_baseline"),
-            masked("value_adjusted"),
+            col("value_baseline"),
+            col("value_adjusted"),
         ])
         .collect()
-        .map_err(Error::engine("collecting what ranks need"))?;
+        .map_err(engine())?;
+    let column = |name: &str| frame.column(name).map_err(engine());
+    let eligible = column("_rank_eligible")?.bool().map_err(engine())?;
+    let years = column("year")?.i32().map_err(engine())?;
+    let units = column("_unit")?.str().map_err(engine())?;
+    let baseline = column("value_baseline")?.f64().map_err(engine())?;
+    let adjusted = column("value_adjusted")?.f64().map_err(engine())?;
     let texts = &prepared.texts;
     let mut text = String::new();
     let mut number = |kind: TextKind, row: usize, ids: &mut HashMap<String, u32>| {
@@ -691,41 +628,22 @@ fn rank_inputs(mut prepared: pipeline::Prepared, ids: &mut NarrowIds) -> Result<
             .push(kind, row, &mut text)
             .then(|| NarrowIds::id(ids, &text))
     };
-    let (mut groups, mut entities) = (Vec::new(), Vec::new());
     for row in 0..texts.len() {
-        groups.push(number(TextKind::Group, row, &mut ids.groups));
-        entities.push(
-            number(TextKind::EntityCode, row, &mut ids.entities)
+        // Only eligibility here: the ranks themselves decide whether a baseline is required.
+        let ok = eligible.get(row).unwrap_or(false);
+        spill.add(&Input {
+            row: ord + row as u64,
+            group: number(TextKind::Group, row, &mut ids.groups),
+            entity: number(TextKind::EntityCode, row, &mut ids.entities)
                 .or_else(|| number(TextKind::EntityInput, row, &mut ids.entities)),
-        );
+            unit: units.get(row).map(|u| NarrowIds::id(&mut ids.units, u)),
+            year: years.get(row),
+            eligible: ok,
+            baseline: baseline.get(row).filter(|_| ok),
+            adjusted: adjusted.get(row).filter(|_| ok),
+        })?;
     }
-    let units: Vec<Option<u32>> = frame
-        .column("_unit")
-        .and_then(|c| c.str().cloned())
-        .map_err(Error::engine("collecting what ranks need"))?
-        .iter()
-        .map(|u| u.map(|u| NarrowIds::id(&mut ids.units, u)))
-        .collect();
-    frame
-        .drop_in_place("_unit")
-        .map_err(Error::engine("collecting what ranks need"))?;
-    for (name, numbers) in [("_g", groups), ("_e", entities), ("_u", units)] {
-        frame
-            .with_column(Column::new(name.into(), numbers))
-            .map_err(Error::engine("collecting what ranks need"))?;
-    }
-    Ok(frame)
-}
-
-fn concat_frames(frames: Vec<DataFrame>) -> Result<DataFrame> {
-    let mut iter = frames.into_iter();
-    let mut all = iter.next().unwrap_or_default();
-    for frame in iter {
-        all.vstack_mut(&frame)
-            .map_err(Error::engine("collecting what ranks need"))?;
-    }
-    all.rechunk_mut();
-    Ok(all)
+    Ok(())
 }
 
 #[cfg(test)]
