@@ -10,10 +10,11 @@ use crate::{error, pipeline, plan, recipe, report, source, streaming};
 /// Runs `adjust` with its arguments (and the recipe they name).
 pub fn run(args: AdjustArgs) -> Result<Outcome> {
     let (args, plan) = recipe::resolve(args)?;
-    execute(&plan)?;
+    let quiet = plan.output.quiet;
+    execute(plan)?;
     if let Some(path) = &args.save_recipe {
         recipe::save_to(&args, path)?;
-        if !plan.output.quiet {
+        if !quiet {
             eprintln!("  wrote the recipe of this run to {}", path.display());
         }
     }
@@ -22,9 +23,14 @@ pub fn run(args: AdjustArgs) -> Result<Outcome> {
 
 /// Runs a resolved adjust plan: pipeline (in memory or in pieces), output, methods note,
 /// report, summary.
-pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
+pub fn execute(mut plan: plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
     // Every output is staged and renamed into place together at the end, when all are done.
     let mut staging = report::Staging::new();
+    let input_sha256 = match &plan.streaming {
+        Some(stream) => source::sha256_of_file(&stream.path)?,
+        None => report::methods::sha256_hex(&plan.input_bytes),
+    };
+    let plan = &mut plan;
     let mut output = match &plan.streaming {
         Some(stream) => {
             let run = streaming::StreamRun {
@@ -39,8 +45,9 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             };
             streaming::execute(&run, stream, &mut staging)?
         }
-        None => pipeline::run_adjust(
-            &plan.input_bytes,
+        // The input's bytes go to the run, which lets them go once they are read.
+        None => pipeline::run_adjust_input(
+            std::mem::take(&mut plan.input_bytes),
             &plan.input_label,
             &plan.settings,
             &plan.resolver,
@@ -69,10 +76,7 @@ pub fn execute(plan: &plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             output.summary.notes.push(note);
         }
     }
-    let input_sha256 = match &plan.streaming {
-        Some(stream) => source::sha256_of_file(&stream.path)?,
-        None => report::methods::sha256_hex(&plan.input_bytes),
-    };
+    let plan = &*plan;
     let note = methods_note(plan, &output, &input_sha256);
     if let Some(path) = &plan.output.methods {
         staging.text(path, &report::methods::render_markdown(&note))?;

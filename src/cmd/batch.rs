@@ -365,7 +365,7 @@ fn run_jobs(jobs: &[Job], output_dir: Option<&Path>, args: &BatchArgs) -> Result
             None => job_plan(job, output_dir, args.allow_outside).and_then(|(_, plan)| {
                 result.input = plan.input_label.clone();
                 result.output = plan.output.path.clone();
-                super::adjust::execute(&plan)
+                super::adjust::execute(plan)
             }),
         };
         match outcome {

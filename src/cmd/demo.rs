@@ -134,7 +134,7 @@ pub fn run(args: &DemoArgs) -> Result<Outcome> {
     if plan.output.format == crate::report::Format::Table {
         super::write_stdout(if args.margins { MARGIN_BANNER } else { BANNER })?;
     }
-    super::adjust::execute(&plan)?;
+    super::adjust::execute(plan)?;
     eprintln!(
         "reproduce with: levelfield demo --extract levelfield-demo && cd levelfield-demo && levelfield adjust {}",
         if args.margins { DEMO_MARGIN_ARGS } else { DEMO_ARGS }.join(" ")
