@@ -11,15 +11,20 @@ resident set size, from GNU time) for each, then the ratios against the targets,
 that the values agree, and that --streaming writes the in-memory output byte for byte.
 Every output file is deleted before its run, so that no run writes over an earlier file
 (a file written over keeps its old pages until it is replaced, and on this machine fresh
-pages cost about as much as the copy into them).
+pages cost about as much as the copy into them), and the disk is synced, so that no run pays
+for the writing back of an earlier run's output.
 
     bash bench/run.sh 1000000 10000000      # sets up the venv, builds, then runs this
 
 Data are generated (SYNTHETIC) into $LEVELFIELD_BENCH_DATA (default /var/tmp/levelfield-bench).
+Every run is repeated in $LEVELFIELD_BENCH_ROUNDS rounds (default 3) and its medians shown;
+$LEVELFIELD_BENCH_SKIP leaves runs out by key (floor, levelfield, streaming, core, pandas,
+polars, polars_full).
 """
 
 import filecmp
 import os
+from statistics import median
 import subprocess
 import sys
 import time
@@ -30,6 +35,7 @@ PY = sys.executable
 BIN = os.environ.get("LEVELFIELD_BIN", os.path.join(REPO, "target", "release", "levelfield"))
 DATA = os.environ.get("LEVELFIELD_BENCH_DATA", "/var/tmp/levelfield-bench")
 SKIP = set(filter(None, os.environ.get("LEVELFIELD_BENCH_SKIP", "").split(",")))
+REPEAT = int(os.environ.get("LEVELFIELD_BENCH_ROUNDS", "3"))
 
 
 def measure(command):
@@ -129,18 +135,25 @@ def main():
             ("hand-written polars (Python)", "polars", [PY, f"{HERE}/hand_polars.py", data, f"{data}/out-polars.csv"]),
             ("hand-written polars, levelfield's 32 columns", "polars_full", [PY, f"{HERE}/hand_polars_full.py", data, f"{data}/out-polars_full.csv"]),
         ]
-        results = {}
-        print(f"## {n:,} rows, input {size_mb:,.0f} MB\n")
+        runs = [r for r in runs if r[1] not in SKIP]
+        timings = {key: [] for _, key, _ in runs}
+        # Every run once a round, the rounds in turn, so that a slow spell of the machine
+        # falls on every run alike; each figure is the median of the rounds.
+        for _ in range(REPEAT):
+            for label, key, command in runs:
+                out = f"{data}/out-{key}.csv"
+                if os.path.exists(out):
+                    os.remove(out)
+                # The previous runs' output written back to disk first, so that no run pays
+                # for another's writes (several GB at 10M rows).
+                os.sync()
+                timings[key].append(measure(command))
+        results = {key: (median(t[0] for t in ts), median(t[1] for t in ts)) for key, ts in timings.items()}
+        print(f"## {n:,} rows, input {size_mb:,.0f} MB ({REPEAT} round(s), medians)\n")
         print("| run | wall s | rows/s | peak MB | peak / input |")
         print("|---|---:|---:|---:|---:|")
-        for label, key, command in runs:
-            if key in SKIP:
-                continue
-            out = f"{data}/out-{key}.csv"
-            if os.path.exists(out):
-                os.remove(out)
-            wall, peak = measure(command)
-            results[key] = (wall, peak)
+        for label, key, _ in runs:
+            wall, peak = results[key]
             print(f"| {label} | {wall:.2f} | {n / wall:,.0f} | {peak:,.0f} | {peak / size_mb:.2f} |", flush=True)
         print()
         ratios(results)

@@ -5,13 +5,13 @@
 //! quotes, and only after a line with two or more filled cells, so no piece ends in what would
 //! look like notes below a table). The first piece is read like any table and fixes the
 //! delimiter, encoding and column roles for the rest; every later piece is given a copy of the
-//! header and keeps its lines' numbers and row ids. Each piece goes through the same
-//! `pipeline::prepare` as an in-memory run; its rows (everything but ranks) are spilled to a
-//! Parquet file in a temporary folder beside the output, and only what ranks need stays in
-//! memory: the group as a number, the year and the two values (null where a row is not ranked),
-//! 24 bytes a row. Ranks are computed once over those columns with the same polars expressions
-//! as in memory; then the pieces are read back in order, given their ranks, shift and flags, and
-//! appended to the CSV output, which is renamed into place only when complete.
+//! header and keeps its lines' numbers and row ids. The file is read twice. In the first pass
+//! each piece goes through the same `pipeline::prepare` as an in-memory run, and only what the
+//! ranks need is kept, 41 bytes a row in bucket files beside the output (`ranks`); the ranks are
+//! then computed bucket by bucket by the in-memory rules. In the second pass each piece is
+//! prepared again, finished with its slice of the ranks by `pipeline::finish` (the in-memory
+//! run's own path) and appended to the csv output, which is renamed into place only when
+//! complete. Memory is a piece and a bucket, never the file.
 //!
 //! Inputs: CSV or TSV files in UTF-8 or Windows-1252 (UTF-16, spreadsheets, Parquet and
 //! standard input are read whole: run them without `--streaming`). Output: csv to `-o FILE`.
