@@ -25,6 +25,15 @@ impl TextColumn {
         Ok(())
     }
 
+    /// Adds every cell of `other` after this column's.
+    pub fn append(&mut self, other: &TextColumn) -> Result<(), TooLarge> {
+        let base = u32::try_from(self.text.len()).map_err(|_| TooLarge)?;
+        u32::try_from(self.text.len() + other.text.len()).map_err(|_| TooLarge)?;
+        self.text.push_str(&other.text);
+        self.ends.extend(other.ends.iter().map(|&e| base + e));
+        Ok(())
+    }
+
     pub fn len(&self) -> usize {
         self.ends.len()
     }

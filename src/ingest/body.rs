@@ -87,6 +87,9 @@ pub(super) struct Body<'a> {
     /// The number of dimension codes each record's first cell joins (a statistics office's
     /// TSV), split into that many cells as the record is kept.
     dimensions: Option<usize>,
+    /// The first fault in the dimensions (the header's names, or a record's count of codes):
+    /// told after every other fault of the table, once the records are read.
+    pub(super) dimension_error: Option<Error>,
     pub(super) records: Records,
 }
 
@@ -116,6 +119,7 @@ impl<'a> Body<'a> {
             expected,
             empty_lines: Vec::new(),
             dimensions,
+            dimension_error: None,
             records: Records::new(width),
         }
     }
@@ -186,7 +190,9 @@ impl<'a> Body<'a> {
                 let first = cells.next().unwrap_or("");
                 let codes: Vec<&str> = first.split(',').map(str::trim).collect();
                 if codes.len() != n {
-                    return Err(self.wrong_codes(line, first, codes.len(), n));
+                    let error = self.wrong_codes(line, first, codes.len(), n);
+                    self.dimension_error.get_or_insert(error);
+                    return Ok(());
                 }
                 self.records
                     .push(line, codes.into_iter().chain(cells), unbalanced_quote)

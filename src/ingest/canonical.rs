@@ -233,6 +233,46 @@ impl CanonicalRows {
         Ok(())
     }
 
+    /// Adds the rows of `other` (read from the records after this one's) after this one's:
+    /// their texts placed among this one's, their row ids kept, their flags with them.
+    pub fn append(&mut self, other: CanonicalRows) -> Result<(), TooLarge> {
+        let base = self.len();
+        let places: Vec<u32> = (0..other.texts.len() as u32)
+            .map(|t| self.texts.place(other.texts.get(t)))
+            .collect();
+        for at in 0..other.len() {
+            self.row_ids.push(base + at, other.row_id(at));
+        }
+        let place = |t: u32| places[t as usize];
+        self.line.extend(&other.line);
+        self.entity_input
+            .extend(other.entity_input.iter().map(|&t| place(t)));
+        self.year.extend(&other.year);
+        self.group.extend(other.group.iter().map(|g| g.map(place)));
+        self.value_input.append(&other.value_input)?;
+        self.value.extend(&other.value);
+        self.currency
+            .extend(other.currency.iter().map(|c| c.map(place)));
+        if !other.se.is_empty() {
+            self.se.resize(base, None);
+            self.se.extend(&other.se);
+        }
+        if self.extra.len() < other.extra.len() {
+            self.extra
+                .resize_with(other.extra.len(), TextColumn::default);
+        }
+        for (column, more) in self.extra.iter_mut().zip(&other.extra) {
+            while column.len() < base {
+                column.push("")?;
+            }
+            column.append(more)?;
+        }
+        for (at, flags) in other.flags {
+            self.flags.insert(base + at, flags);
+        }
+        Ok(())
+    }
+
     /// Sets the margin-derived standard error and carried texts of the last row pushed (long
     /// tables, with margins or extra columns), with the flags the margins raised.
     pub fn finish_last(
@@ -375,6 +415,70 @@ mod tests {
             ids(&rows),
             vec!["11:2019", "11:2020", "12:2019", "12:2020", "20"]
         );
+    }
+
+    #[test]
+    fn rows_appended_equal_the_same_rows_pushed_in_one() {
+        // Rows 0..6 of a long table after 10 data rows: (entity, group, flags, margin).
+        type Row = (
+            &'static str,
+            Option<&'static str>,
+            &'static [&'static str],
+            Option<f64>,
+        );
+        let spec: [Row; 6] = [
+            ("Chile", Some("a"), &[], Some(0.5)),
+            ("Peru", None, &["footnote"], None),
+            ("Chile", Some("b"), &[], Some(1.5)),
+            ("Peru", Some("a"), &[], None),
+            ("Bolivia", Some("c"), &["missing_value"], Some(2.5)),
+            ("Chile", Some("a"), &[], None),
+        ];
+        let read = |range: std::ops::Range<usize>| {
+            let mut rows = CanonicalRows::default();
+            rows.expect_ids(10 + range.start, &[]);
+            for at in range {
+                let (entity, group, flags, se) = spec[at];
+                let entity_input = rows.texts.place(entity);
+                let group = group.map(|g| rows.texts.place(g));
+                rows.push(RowParts {
+                    row_id: RowId {
+                        data_row: 11 + at,
+                        year_column: None,
+                    },
+                    line: 12 + at,
+                    entity_input,
+                    year: Some(2020),
+                    group,
+                    value_input: Some("1"),
+                    value: Some(at as f64),
+                    currency: None,
+                    flags: flags.to_vec(),
+                })
+                .unwrap();
+                // As `rows::push_margins` does for every row of a table with margins.
+                rows.finish_last(se, &[entity], vec![]).unwrap();
+            }
+            rows
+        };
+        let whole = read(0..6);
+        let mut joined = read(0..3);
+        joined.append(read(3..6)).unwrap();
+        assert_eq!(joined.len(), whole.len());
+        assert!(matches!(joined.row_ids, RowIds::Rule { .. }));
+        for at in 0..6 {
+            assert_eq!(joined.row_id(at), whole.row_id(at));
+            assert_eq!(joined.entity_text(at), whole.entity_text(at));
+            assert_eq!(joined.group_text(at), whole.group_text(at));
+            assert_eq!(joined.flags(at), whole.flags(at));
+            assert_eq!(joined.se(at), whole.se(at));
+            assert_eq!(joined.extra(at, 0), whole.extra(at, 0));
+            assert_eq!(joined.value[at], whole.value[at]);
+            assert_eq!(joined.line(at), whole.line(at));
+        }
+        // Each text is held once, in the order the whole read first saw it.
+        assert_eq!(joined.texts.len(), whole.texts.len());
+        assert!((0..whole.texts.len() as u32).all(|t| joined.texts.get(t) == whole.texts.get(t)));
     }
 
     #[test]

@@ -1,6 +1,6 @@
 //! The records of a text, one at a time: the csv crate's reader over the decoded text, each
 //! record with its physical line and byte range, the next one read ahead so the current one's
-//! end is known and the last one recognised. The table finder (`table`) reads every input,
+//! end is known. The table finder (`table`) reads every input,
 //! reference table and sheet through it.
 
 use crate::error::{Error, Location, Result};
@@ -8,8 +8,7 @@ use crate::ingest::header::{Raw, Spot};
 use crate::ingest::record::Cells;
 
 /// The records of a text, one at a time, each with its line and byte range. The record after
-/// the current one is read ahead, so the current one's end is known and the last one is
-/// recognised as such.
+/// the current one is read ahead, so that the current one's end is known.
 pub(super) struct RawReader<'t> {
     text: &'t str,
     from: usize,
@@ -28,7 +27,6 @@ pub(super) struct RawRef<'r> {
     pub(super) line: usize,
     pub(super) start: usize,
     pub(super) end: usize,
-    pub(super) last: bool,
     pub(super) record: &'r csv::StringRecord,
 }
 
@@ -97,7 +95,6 @@ impl<'t> RawReader<'t> {
             line,
             start,
             end: self.ahead_at.map_or(self.text.len(), |(s, _)| s),
-            last: self.ahead_at.is_none(),
             record: &self.current,
         }))
     }

@@ -34,6 +34,48 @@ pub(super) fn read_rows(
     mut records: table::Records,
     plan: &RowPlan,
 ) -> Result<CanonicalRows> {
+    use rayon::prelude::*;
+    // A large table is read on the pool's threads, a range of records each; the ranges' rows
+    // are joined in order, and the first range's error is the first in the file.
+    let pool = &polars_core::runtime::THREAD_POOL;
+    let parts = match records.len() {
+        n if n >= PARALLEL_RECORDS => pool.current_num_threads().max(1),
+        _ => 1,
+    };
+    let step = records.len().div_ceil(parts).max(1);
+    let ranges: Vec<std::ops::Range<usize>> = (0..records.len())
+        .step_by(step)
+        .map(|start| start..records.len().min(start + step))
+        .collect();
+    let read = |range: &std::ops::Range<usize>| read_range(table, &records, range.clone(), plan);
+    let parts: Vec<Result<CanonicalRows>> = match ranges.len() {
+        0 | 1 => vec![read(&(0..records.len()))],
+        _ => pool.install(|| ranges.par_iter().map(read).collect()),
+    };
+    let mut parts = parts.into_iter();
+    let mut rows = parts
+        .next()
+        .unwrap_or_else(|| Ok(CanonicalRows::default()))?;
+    for part in parts {
+        rows.append(part?).map_err(|e| e.error(plan.file))?;
+    }
+    if let Shape::Long { value, .. } = &plan.roles.shape {
+        rows.value_input = records.take_column(*value);
+    }
+    Ok(rows)
+}
+
+/// Records read on several threads from this many on (below it a thread's start costs more
+/// than it saves).
+const PARALLEL_RECORDS: usize = 200_000;
+
+/// The canonical rows of the records in `range`.
+fn read_range(
+    table: &table::TextTable,
+    records: &table::Records,
+    range: std::ops::Range<usize>,
+    plan: &RowPlan,
+) -> Result<CanonicalRows> {
     let RowPlan {
         file,
         options,
@@ -56,11 +98,11 @@ pub(super) fn read_rows(
         Shape::Long { .. } => 1,
         Shape::Wide { year_columns } => year_columns.len(),
     };
-    let mut rows = CanonicalRows::with_capacity(records.len() * rows_per_record);
-    rows.expect_ids(options.row_offset, &wide_years(&roles.shape));
+    let mut rows = CanonicalRows::with_capacity(range.len() * rows_per_record);
+    rows.expect_ids(options.row_offset + range.start, &wide_years(&roles.shape));
     let with_margins = margin_count > 0 || roles.reserved.len() > margin_count;
     let mut last_entity = RunPlace::default();
-    for index in 0..records.len() {
+    for index in range {
         let record = &records.get(index);
         let data_row = index + 1 + options.row_offset;
         let entity_input = last_entity.place(&mut rows.texts, record_entity(record, roles, sdmx));
@@ -132,9 +174,6 @@ pub(super) fn read_rows(
                 }
             }
         }
-    }
-    if let Shape::Long { value, .. } = &roles.shape {
-        rows.value_input = records.take_column(*value);
     }
     Ok(rows)
 }

@@ -119,7 +119,11 @@ pub fn find_table(
         set_aside_above(&prefix[..header_index], header_line, delimiter, options);
     let (header_record, trailing_delimiter) = reading.header_without_empty_tail(header)?;
     let mut headers = clean_headers(&header_record, file, header_line)?;
-    let dimensions = dimension_count(&headers, file, header_line)?;
+    // A fault in the dimension names is told after the table's own faults, as its codes are.
+    let (dimensions, dimension_error) = match dimension_count(&headers, file, header_line) {
+        Ok(n) => (n, None),
+        Err(e) => (None, Some(e)),
+    };
     // The line the next record starts on when no blank line comes between.
     let expected = header_line + 1 + breaks_in(&header.record);
     let mut body = Body::new(
@@ -132,6 +136,7 @@ pub fn find_table(
         expected,
         dimensions,
     );
+    body.dimension_error = dimension_error;
     let below = reading.body(header, &mut body)?;
     skipped.extend(
         below
@@ -272,35 +277,38 @@ impl Reading<'_> {
     }
 
     /// Reads the records below `header` into `body`; gives the records below the table.
+    /// A file with several faults gets the error the whole-file rules give first: a record
+    /// the csv reader cannot read, then a quote still open at the end of the file, then the
+    /// first record of the table that fails its checks, then a statistics office's dimension
+    /// codes (`Body::dimension_error`). So after a record fails, the rest is read only to find
+    /// the last record.
     fn body(&self, header: &Raw, body: &mut Body) -> Result<Vec<Raw>> {
         let mut end = TableEnd::default();
         let mut reader = self.records(header.end);
-        let mut last = Some((header.start, header.line));
+        let mut last = (header.start, header.line);
+        let mut failed: Option<Error> = None;
         while let Some(raw) = reader.next()? {
-            if raw.last {
-                open_at_end(
-                    self.text,
-                    raw.start,
-                    raw.line,
-                    self.file,
-                    self.options.lenient,
-                )?;
-                last = None;
+            last = (raw.start, raw.line);
+            if failed.is_some() {
+                continue;
             }
             let place = end.place(raw.record, self.delimiter);
             if place != Place::Table {
                 end.keep(raw.kept(), place);
                 continue;
             }
-            for held in end.release() {
-                body.take(held.spot(), &held.record)?;
-            }
-            body.take(raw.spot(), raw.record)?;
+            let taken = end
+                .release()
+                .iter()
+                .try_for_each(|held| body.take(held.spot(), &held.record))
+                .and_then(|()| body.take(raw.spot(), raw.record));
+            failed = taken.err();
         }
-        if let Some((start, line)) = last {
-            open_at_end(self.text, start, line, self.file, self.options.lenient)?;
+        open_at_end(self.text, last.0, last.1, self.file, self.options.lenient)?;
+        match (failed, body.dimension_error.take()) {
+            (Some(error), _) | (None, Some(error)) => Err(error),
+            (None, None) => Ok(end.finish()),
         }
-        Ok(end.finish())
     }
 }
 
