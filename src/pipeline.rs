@@ -1,9 +1,10 @@
 //! The `adjust` pipeline: ingest → resolve → frame → attach factors → adjust (both tracks) →
-//! rank → select the output columns. Every stage adds columns and none removes rows: the run
+//! rank → flags → the output table. Every stage adds columns and none removes rows: the run
 //! fails with an internal error if rows in and rows out ever differ.
 //!
-//! Everything after the canonical frame is one polars lazy plan, so large inputs are joined,
-//! adjusted and ranked by the engine, not row by row.
+//! `prepare` is the per-row part (shared with each piece of `--streaming`): the tracks are one
+//! polars lazy plan over the frame, collected once by `finish`, which adds the ranks (computed
+//! over numbers, `rank.rs`) and the flags and hands the rows' texts to the `OutputTable`.
 
 use crate::adjust::{self, Step, Unit};
 use crate::entity::Resolver;
