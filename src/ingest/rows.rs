@@ -47,7 +47,14 @@ pub(super) fn read_rows(
         .step_by(step)
         .map(|start| start..records.len().min(start + step))
         .collect();
-    let read = |range: &std::ops::Range<usize>| read_range(table, &records, range.clone(), plan);
+    // The first range's rows take the others': they are sized for the whole table at once.
+    let read = |range: &std::ops::Range<usize>| {
+        let sized_for = match range.start {
+            0 => records.len(),
+            _ => range.len(),
+        };
+        read_range(table, &records, range.clone(), sized_for, plan)
+    };
     let parts: Vec<Result<CanonicalRows>> = match ranges.len() {
         0 | 1 => vec![read(&(0..records.len()))],
         _ => pool.install(|| ranges.par_iter().map(read).collect()),
@@ -69,11 +76,12 @@ pub(super) fn read_rows(
 /// than it saves).
 const PARALLEL_RECORDS: usize = 200_000;
 
-/// The canonical rows of the records in `range`.
+/// The canonical rows of the records in `range`, sized for the rows of `sized_for` records.
 fn read_range(
     table: &table::TextTable,
     records: &table::Records,
     range: std::ops::Range<usize>,
+    sized_for: usize,
     plan: &RowPlan,
 ) -> Result<CanonicalRows> {
     let RowPlan {
@@ -98,7 +106,7 @@ fn read_range(
         Shape::Long { .. } => 1,
         Shape::Wide { year_columns } => year_columns.len(),
     };
-    let mut rows = CanonicalRows::with_capacity(range.len() * rows_per_record);
+    let mut rows = CanonicalRows::with_capacity(sized_for * rows_per_record);
     rows.expect_ids(options.row_offset + range.start, &wide_years(&roles.shape));
     let with_margins = margin_count > 0 || roles.reserved.len() > margin_count;
     let mut last_entity = RunPlace::default();
