@@ -95,19 +95,25 @@ pub fn competition_ranks(
     count: usize,
     order: Order,
 ) -> Int64Chunked {
+    let values = values.rechunk();
+    let groups = ByPartition::new(|row| values.get(row).is_some(), partitions, count);
+    ranks_in(&groups, &values, order)
+}
+
+/// The ranks of `values` among the rows of `groups` (a row without a value takes none).
+fn ranks_in(groups: &ByPartition, values: &Float64Chunked, order: Order) -> Int64Chunked {
     use rayon::prelude::*;
     // Read in place (one chunk), not copied.
     let values = values.rechunk();
     let array = values.downcast_iter().next();
     let value_at = |row: usize| array.and_then(|a| StaticArray::get(a, row));
-    let groups = ByPartition::new(|row| value_at(row).is_some(), partitions, count);
-    // Each partition's ranks in the order of `groups.rows`, the partitions on the pool's
-    // threads, each into its own part of `in_order`.
-    let mut in_order = vec![0i64; groups.rows.len()];
-    let mut parts: Vec<(&[u32], &mut [i64])> = Vec::with_capacity(count);
+    // Each partition's ranks in the order of `groups.rows` (0: none), the partitions on the
+    // pool's threads, each into its own part of `in_order`.
+    let mut in_order = vec![0u32; groups.rows.len()];
+    let mut parts: Vec<(&[u32], &mut [u32])> = Vec::with_capacity(groups.starts.len());
     let mut rest = in_order.as_mut_slice();
-    for p in 0..count {
-        let rows = &groups.rows[groups.starts[p]..groups.starts[p + 1]];
+    for bounds in groups.starts.windows(2) {
+        let rows = &groups.rows[bounds[0]..bounds[1]];
         let (part, tail) = rest.split_at_mut(rows.len());
         parts.push((rows, part));
         rest = tail;
@@ -119,32 +125,31 @@ pub fn competition_ranks(
                 rank_partition(&value_at, rows, order, run, out);
             })
     });
-    let mut ranks = vec![0i64; values.len()];
-    let mut ranked = vec![false; values.len()];
+    // Each row's rank (0: none), four bytes a row, then the column.
+    let mut of_row = vec![0u32; values.len()];
     for (&row, &rank) in groups.rows.iter().zip(&in_order) {
-        ranks[row as usize] = rank;
-        ranked[row as usize] = true;
+        of_row[row as usize] = rank;
     }
     Int64Chunked::from_iter_options(
         "rank".into(),
-        ranks.iter().zip(&ranked).map(|(&r, &is)| is.then_some(r)),
+        of_row.iter().map(|&r| (r > 0).then(|| i64::from(r))),
     )
 }
 
-/// The ranks of one partition's `rows` (each with a value), into `out` in the same order;
-/// `run` is a reused buffer.
+/// The ranks of one partition's `rows` into `out` in the same order (0 for a row without a
+/// value, which takes no rank); `run` is a reused buffer.
 fn rank_partition(
     value_at: &(impl Fn(usize) -> Option<f64> + Sync),
     rows: &[u32],
     order: Order,
     run: &mut Vec<(f64, u32)>,
-    out: &mut [i64],
+    out: &mut [u32],
 ) {
     run.clear();
     run.extend(
         rows.iter()
             .enumerate()
-            .map(|(k, &row)| (value_at(row as usize).unwrap_or(f64::NAN), k as u32)),
+            .filter_map(|(k, &row)| value_at(row as usize).map(|v| (v, k as u32))),
     );
     run.sort_unstable_by(|a, b| match order {
         Order::Desc => total_cmp(b.0, a.0),
@@ -153,7 +158,7 @@ fn rank_partition(
     let mut rank = 1;
     for (k, &(value, at)) in run.iter().enumerate() {
         if k > 0 && total_cmp(value, run[k - 1].0) != std::cmp::Ordering::Equal {
-            rank = k as i64 + 1;
+            rank = k as u32 + 1;
         }
         out[at as usize] = rank;
     }
@@ -181,12 +186,11 @@ pub fn rank_columns(
         true => rankable,
         false => &rankable & &baseline.is_not_null(),
     };
+    // Both rankings cover the same rows: grouped once.
+    let rankable = rankable.rechunk();
+    let groups = ByPartition::new(|row| rankable.get(row) == Some(true), partitions, count);
     let rank_of = |values: &Float64Chunked, name: &str| -> PolarsResult<Column> {
-        let masked = values.zip_with(
-            &rankable,
-            &Float64Chunked::full_null("".into(), values.len()),
-        )?;
-        Ok(competition_ranks(&masked, partitions, count, order)
+        Ok(ranks_in(&groups, values, order)
             .with_name(name.into())
             .into_column())
     };
