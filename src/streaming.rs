@@ -261,7 +261,7 @@ fn prepare_piece(
 ) -> Result<pipeline::Prepared> {
     match first {
         None => pipeline::prepare(
-            &bytes,
+            bytes.into(),
             plan.input_label,
             settings,
             plan.resolver,
@@ -522,7 +522,7 @@ fn prepare_later_piece(
     piece_settings.ingest.row_offset = start.rows_before;
     let piece = format!("{}\n{text}", first.header_line);
     pipeline::prepare(
-        piece.as_bytes(),
+        piece.into_bytes().into(),
         plan.input_label,
         &piece_settings,
         plan.resolver,
