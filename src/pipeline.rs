@@ -28,27 +28,10 @@ pub struct AdjustOutput {
     pub summary: RunSummary,
 }
 
-pub fn run_adjust(
-    bytes: &[u8],
-    input_label: &str,
-    settings: &PipelineSettings,
-    resolver: &Resolver,
-    references: Option<&References>,
-) -> Result<AdjustOutput> {
-    let prepared = prepare(
-        bytes.into(),
-        input_label,
-        settings,
-        resolver,
-        references,
-        None,
-    )?;
-    complete(prepared, settings, references)
-}
-
-/// `run_adjust` of an input the run owns: its bytes are let go once the table is read.
-pub fn run_adjust_input(
-    bytes: Vec<u8>,
+/// An adjust run of the input `bytes`: borrowed, or owned (`Vec<u8>`), when they are let go
+/// as soon as the table is read.
+pub fn run_adjust<'a>(
+    bytes: impl Into<std::borrow::Cow<'a, [u8]>>,
     input_label: &str,
     settings: &PipelineSettings,
     resolver: &Resolver,

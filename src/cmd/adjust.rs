@@ -46,7 +46,7 @@ pub fn execute(mut plan: plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
             streaming::execute(&run, stream, &mut staging)?
         }
         // The input's bytes go to the run, which lets them go once they are read.
-        None => pipeline::run_adjust_input(
+        None => pipeline::run_adjust(
             std::mem::take(&mut plan.input_bytes),
             &plan.input_label,
             &plan.settings,
