@@ -244,6 +244,10 @@ pub trait CellTable: Sync {
         rows: std::ops::Range<usize>,
         rounding: Rounding,
     ) -> CellSource<'a>;
+    /// Work that can fail, done once before any cell is asked for (`write_csv` calls it).
+    fn ready(&self, _rounding: Rounding) -> Result<()> {
+        Ok(())
+    }
 }
 
 impl CellTable for DataFrame {
@@ -346,6 +350,7 @@ pub fn write_csv(
     guard: bool,
     out: &mut dyn std::io::Write,
 ) -> Result<()> {
+    table.ready(rounding)?;
     let names = table.names();
     if header {
         let mut writer = csv_writer(&mut *out);

@@ -15,11 +15,9 @@ use crate::resolve::{self, EntityColumns, InputBasis};
 use polars::prelude::*;
 use std::collections::BTreeSet;
 
-/// Where the frame's rows start (`_ord`, for the pieces of a streamed file) and how their
-/// currencies are read.
+/// How the frame's currencies are read.
 #[derive(Clone, Copy)]
 pub(crate) struct FrameStart {
-    pub ord_offset: Option<u64>,
     pub check_currency: bool,
     pub whole_table_in_base: bool,
 }
@@ -141,12 +139,6 @@ pub(crate) fn canonical_frame(
     } = row_facts(&mut rows, entities, bases, settings, start);
     let keys_of_ranking = resolve::ranking_keys(&rows, entities);
     let mut columns = Vec::with_capacity(12);
-    if let Some(offset) = start.ord_offset {
-        columns.push(Column::new(
-            "_ord".into(),
-            (offset..offset + rows_in as u64).collect::<Vec<u64>>(),
-        ));
-    }
     // Each column is built straight from the rows and the rows' copy dropped at once, so that
     // the next column reuses its memory rather than fresh pages.
     columns.push(
@@ -158,9 +150,8 @@ pub(crate) fn canonical_frame(
     );
     rows.value = Vec::new();
     columns.push(Column::new("_several".into(), keys_of_ranking.several));
-    let (partition, partitions) =
-        crate::rank::partition_numbers(keys_of_ranking.partition.into_iter());
-    columns.push(Column::new("_partition".into(), partition));
+    let partitions = keys_of_ranking.partitions;
+    columns.push(Column::new("_partition".into(), keys_of_ranking.partition));
     columns.push(match units {
         Some(units) => Column::new("_unit".into(), units),
         None => Column::full_null("_unit".into(), rows_in, &DataType::String),

@@ -402,6 +402,13 @@ impl CellTable for OutputTable {
         &self.frame
     }
 
+    fn ready(&self, rounding: Rounding) -> Result<()> {
+        match &self.texts {
+            Some(texts) => texts.factor_texts(rounding).map(|_| ()),
+            None => Ok(()),
+        }
+    }
+
     fn names(&self) -> Vec<String> {
         self.column_names()
     }
@@ -423,11 +430,10 @@ impl CellTable for OutputTable {
                 }))
             }
             (OutColumn::Factor(at, _), Some(texts), _) => {
-                // Formatted once an entity-year; a failure to format (a column of 4 GiB) is
-                // not possible for numbers, and writes nothing.
-                let Ok(factor_texts) = texts.factor_texts(rounding) else {
-                    return CellSource::Other(vec![String::new(); rows.len()].into_iter());
-                };
+                // Formatted once an entity-year, by `ready`: this is its cached result.
+                let factor_texts = texts
+                    .factor_texts(rounding)
+                    .expect("the factor texts are formatted by CellTable::ready");
                 let at = *at;
                 CellSource::Rendered(Box::new(move |out| {
                     if let Some(key) = texts.keys[row] {

@@ -37,14 +37,7 @@ pub fn run_adjust<'a>(
     resolver: &Resolver,
     references: Option<&References>,
 ) -> Result<AdjustOutput> {
-    let prepared = prepare(
-        bytes.into(),
-        input_label,
-        settings,
-        resolver,
-        references,
-        None,
-    )?;
+    let prepared = prepare(bytes.into(), input_label, settings, resolver, references)?;
     complete(prepared, settings, references)
 }
 
@@ -110,7 +103,7 @@ pub(crate) fn late_flags(frame: &DataFrame, baseline_missing: bool) -> Result<Ve
 
 /// The per-row part of a run, before ranks: ingest, entities, the canonical frame, factors
 /// gathered once per entity-year, and both tracks, as one lazy frame; the rows' texts set
-/// aside. With `ord_offset` (a piece of a larger file), `_ord` numbers the rows from it.
+/// aside.
 pub(crate) struct Prepared {
     pub lf: LazyFrame,
     /// What ingest decided (its rows were taken out: their texts are in `texts`).
@@ -143,7 +136,6 @@ pub(crate) fn prepare(
     settings: &PipelineSettings,
     resolver: &Resolver,
     references: Option<&References>,
-    ord_offset: Option<u64>,
 ) -> Result<Prepared> {
     let mut ingested = ingest::ingest(&bytes, input_label, &settings.ingest, Some(resolver))?;
     // Bytes the run owns are let go once read (at 10M rows, 260 MB of the peak).
@@ -169,7 +161,6 @@ pub(crate) fn prepare(
         &bases,
         settings,
         &FrameStart {
-            ord_offset,
             check_currency,
             whole_table_in_base,
         },
@@ -289,7 +280,7 @@ const RANK_COLUMNS: [&str; 3] = ["rank_baseline", "rank_adjusted", "rank_shift"]
 /// The output table of a prepared run: its plan collected with the columns the output needs,
 /// its ranks and flags. The ranks are computed here over its own rows, or `given`: a streamed
 /// piece's slice of the whole file's ranks, with `_several` and `_mixed`
-/// (`streaming::ranks_once`). The rows' texts are taken out of `prepared`.
+/// (`streaming::ranks::Ranks::slice`). The rows' texts are taken out of `prepared`.
 pub(crate) fn finish(
     prepared: &mut Prepared,
     settings: &PipelineSettings,

@@ -26,16 +26,50 @@ pub enum Order {
     Asc,
 }
 
-/// Dense numbers for partition keys: equal keys, equal numbers, counted from 0 in the order
-/// the keys first appear; and how many there are.
-pub fn partition_numbers(keys: impl Iterator<Item = u64>) -> (Vec<u32>, usize) {
-    let mut numbers: PlHashMap<u64, u32> = PlHashMap::default();
-    let mut out = Vec::with_capacity(keys.size_hint().0);
-    for key in keys {
-        let next = numbers.len() as u32;
-        out.push(*numbers.entry(key).or_insert(next));
+/// Dense numbers for keys: equal keys, equal numbers, counted from 0 in the order the keys
+/// first appear (partitions, series, texts).
+#[derive(Debug)]
+pub struct Numbering<K> {
+    numbers: PlHashMap<K, u32>,
+}
+
+impl<K: std::hash::Hash + Eq> Default for Numbering<K> {
+    fn default() -> Self {
+        Numbering {
+            numbers: PlHashMap::default(),
+        }
     }
-    (out, numbers.len())
+}
+
+impl<K: std::hash::Hash + Eq> Numbering<K> {
+    /// The number of `key`, the next one if it is new. Keys are at most one a row, and rows
+    /// are refused past 4 billion lines (`TextColumn`'s limit), so the numbers fit.
+    pub fn number(&mut self, key: K) -> u32 {
+        let next = self.numbers.len() as u32;
+        *self.numbers.entry(key).or_insert(next)
+    }
+
+    /// How many distinct keys were numbered.
+    pub fn len(&self) -> usize {
+        self.numbers.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.numbers.is_empty()
+    }
+}
+
+/// The key of the rows ranked together: their group (a place among the table's texts) and
+/// their year, each possibly missing.
+pub type PartitionKey = (Option<u32>, Option<i32>);
+
+/// Dense numbers for partition keys (`Numbering`), and how many there are.
+pub fn partition_numbers<K: std::hash::Hash + Eq>(
+    keys: impl Iterator<Item = K>,
+) -> (Vec<u32>, usize) {
+    let mut numbering = Numbering::default();
+    let out = keys.map(|key| numbering.number(key)).collect();
+    (out, numbering.len())
 }
 
 /// The rows of each partition that have a value, partition by partition (each partition's
@@ -206,14 +240,6 @@ pub fn ranks_of(
     keys: Vec<String>,
     order: Order,
 ) -> PolarsResult<Vec<Option<i64>>> {
-    let mut numbers: PlHashMap<String, u64> = PlHashMap::default();
-    let keys: Vec<u64> = keys
-        .into_iter()
-        .map(|k| {
-            let next = numbers.len() as u64;
-            *numbers.entry(k).or_insert(next)
-        })
-        .collect();
     let (partitions, count) = partition_numbers(keys.into_iter());
     let values = Float64Chunked::from_iter_options("v".into(), values.into_iter());
     Ok(competition_ranks(&values, &partitions, count, order)

@@ -8,7 +8,7 @@ use crate::entity::{Entity, EntityKind, Resolution, Resolver};
 use crate::error::{Error, Result, UnresolvedName};
 use crate::flags;
 use crate::ingest::Ingested;
-use polars::prelude::PlHashMap;
+use crate::rank::{Numbering, PartitionKey};
 
 /// The entity of every row, in input order: each distinct entity once, and per row its place
 /// among them (none for an unresolved name). The frame's entity columns are written from this
@@ -35,8 +35,10 @@ pub struct RankingKeys {
     /// group and its year with another row (`rank::several_series`).
     pub several: Vec<bool>,
     /// Rows share it exactly when they share their group and their year: the rows ranked
-    /// together.
-    pub partition: Vec<u64>,
+    /// together, numbered from 0 (`rank::partition_numbers`).
+    pub partition: Vec<u32>,
+    /// How many partitions there are.
+    pub partitions: usize,
 }
 
 /// Each row's `RankingKeys`.
@@ -46,40 +48,33 @@ pub fn ranking_keys<'a>(
 ) -> RankingKeys {
     // The entity's text, numbered once for each distinct one: a resolved entity's code, or an
     // unresolved row's text (the same number when the two texts are equal).
-    let mut numbers: PlHashMap<&'a str, u32> = PlHashMap::default();
-    let mut number_of = |text: &'a str| -> u32 {
-        let next = numbers.len() as u32;
-        *numbers.entry(text).or_insert(next)
-    };
+    let mut entity_numbers: Numbering<&'a str> = Numbering::default();
     let found: Vec<u32> = entities
         .found
         .iter()
-        .map(|e| number_of(e.code.as_str()))
+        .map(|e| entity_numbers.number(e.code.as_str()))
         .collect();
     let texts: Vec<u32> = (0..rows.texts.len() as u32)
-        .map(|t| number_of(rows.texts.get(t)))
+        .map(|t| entity_numbers.number(rows.texts.get(t)))
         .collect();
-    let mut pairs: PlHashMap<(u32, u32), u32> = PlHashMap::default();
+    let mut pairs: Numbering<(u32, Option<u32>)> = Numbering::default();
+    let mut partitions: Numbering<PartitionKey> = Numbering::default();
     let n = rows.line.len();
     let mut series: Vec<u32> = Vec::with_capacity(n);
-    let mut partition: Vec<u64> = Vec::with_capacity(n);
+    let mut partition: Vec<u32> = Vec::with_capacity(n);
     for i in 0..n {
         let entity = match entities.at[i] {
             Some(at) => found[at as usize],
             None => texts[rows.entity_input[i] as usize],
         };
-        // A group is a place among the distinct texts (equal texts, equal places); none is
-        // a place no text has.
-        let group = rows.group[i].unwrap_or(u32::MAX);
-        let next = pairs.len() as u32;
-        series.push(*pairs.entry((entity, group)).or_insert(next));
-        // Any i32 year in the low 32 bits; bit 32 alone for a row without a year.
-        let year = rows.year[i].map_or(1 << 32, |y| u64::from(y as u32));
-        partition.push(u64::from(group) << 33 | year);
+        // A group is a place among the distinct texts: equal texts, equal places.
+        series.push(pairs.number((entity, rows.group[i])));
+        partition.push(partitions.number((rows.group[i], rows.year[i])));
     }
     RankingKeys {
         several: crate::rank::several_series(&series, &rows.year, pairs.len()),
         partition,
+        partitions: partitions.len(),
     }
 }
 
@@ -260,7 +255,7 @@ mod tests {
     }
 
     /// Which of `rows` share a key, as the index of the first row with the same key.
-    fn classes(keys: &[u64]) -> Vec<usize> {
+    fn classes(keys: &[u32]) -> Vec<usize> {
         keys.iter()
             .map(|k| keys.iter().position(|other| other == k).unwrap())
             .collect()

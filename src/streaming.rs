@@ -34,7 +34,7 @@ use std::path::{Path, PathBuf};
 mod pieces;
 mod ranks;
 use pieces::Pieces;
-use ranks::{Input, RankSpill, Ranks};
+use ranks::{Input, RankRules, RankSpill, Ranks};
 
 /// What a streaming run reads and how big its pieces are.
 #[derive(Debug, Clone)]
@@ -144,6 +144,7 @@ fn run(
     let output = plan
         .output_path
         .ok_or_else(|| Error::usage("--streaming writes csv to a file", "pass -o FILE.csv"))?;
+    let stamp = file_stamp(plan.input_label, &stream.path)?;
     let pieces = open_pieces(plan.input_label, stream, settings)?;
     let read = match read_rank_inputs(plan, pieces, settings, RankSpill::new(output)?)? {
         Ok(read) => read,
@@ -157,6 +158,7 @@ fn run(
         rows_before,
         ord,
         pieces,
+        sizes,
         ..
     } = read
     else {
@@ -169,8 +171,11 @@ fn run(
     };
 
     // Ranks, once, bucket by bucket of the ranking partitions.
-    let baseline_missing = !columns.missing_tables.is_empty();
-    let mut ranks = spill.rank(settings, baseline_missing)?;
+    let mut ranks = spill.rank(RankRules {
+        one_unit: settings.one_unit(),
+        order: settings.order,
+        baseline_missing: !columns.missing_tables.is_empty(),
+    })?;
     let rows_in = ord as usize;
 
     // The pieces again, in order, each finished with its slice of the ranks, into the output.
@@ -183,12 +188,19 @@ fn run(
         first: &first,
         ranks: &mut ranks,
         order: (order.len() < all.len()).then_some(order.as_slice()),
+        sizes: &sizes,
     };
+    if file_stamp(plan.input_label, &stream.path)? != stamp {
+        return Err(changed_while_read(plan.input_label));
+    }
     let (counts, rows_out) = write.run(
         open_pieces(plan.input_label, stream, settings)?,
         output,
         staging,
     )?;
+    if file_stamp(plan.input_label, &stream.path)? != stamp {
+        return Err(changed_while_read(plan.input_label));
+    }
     if rows_out != rows_in {
         return Err(Error::engine("checking that no row was lost")(polars_err!(
             ComputeError: "{} rows in, {} rows out", rows_in, rows_out
@@ -222,25 +234,27 @@ struct FirstPass {
     first: Option<FirstPiece>,
     shape: Option<Columns>,
     spill: RankSpill,
-    /// Group, entity and unit texts as small numbers, shared by every piece's narrow columns.
-    ids: NarrowIds,
+    /// Group, entity and unit texts as small numbers, the same in every piece's rank inputs.
+    ids: TextIds,
     lines_before: usize,
     rows_before: usize,
     ord: u64,
     pieces: usize,
+    /// Each piece's bytes and rows, for the second pass to check that it reads the same.
+    sizes: Vec<PieceSize>,
     /// Later pieces' notes of rows set aside (the first piece's notes are in `first`).
     later_notes: Vec<String>,
 }
 
-/// Texts numbered for the narrow columns, the same number for the same text in every piece.
+/// Texts numbered for the rank inputs, the same number for the same text in every piece.
 #[derive(Default)]
-struct NarrowIds {
+struct TextIds {
     groups: HashMap<String, u32>,
     entities: HashMap<String, u32>,
     units: HashMap<String, u32>,
 }
 
-impl NarrowIds {
+impl TextIds {
     fn id(ids: &mut HashMap<String, u32>, text: &str) -> u32 {
         if let Some(&id) = ids.get(text) {
             return id;
@@ -266,7 +280,6 @@ fn prepare_piece(
             settings,
             plan.resolver,
             plan.references,
-            Some(start.ord),
         ),
         Some(f) => prepare_later_piece(plan, f, bytes, start),
     }
@@ -286,15 +299,17 @@ fn read_rank_inputs(
         first: None,
         shape: None,
         spill,
-        ids: NarrowIds::default(),
+        ids: TextIds::default(),
         lines_before: 0,
         rows_before: 0,
         ord: 0,
         pieces: 0,
+        sizes: Vec::new(),
         later_notes: Vec::new(),
     };
     while let Some(bytes) = pieces.next_piece(label)? {
         let breaks = table::count_line_breaks(&bytes);
+        let size = bytes.len();
         let start = PieceStart {
             lines_before: state.lines_before,
             rows_before: state.rows_before,
@@ -322,6 +337,7 @@ fn read_rank_inputs(
             missing_tables: prepared.missing_tables.clone(),
         });
         let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
+        state.sizes.push(PieceSize { bytes: size, rows });
         rank_inputs(prepared, &mut state.ids, state.ord, &mut state.spill)?;
         state.lines_before += breaks;
         state.rows_before += data_lines;
@@ -340,6 +356,8 @@ struct WritePass<'a> {
     ranks: &'a mut Ranks,
     /// The output columns asked for, when not every one (`--write-columns`).
     order: Option<&'a [String]>,
+    /// Each piece's bytes and rows as the first pass read them.
+    sizes: &'a [PieceSize],
 }
 
 impl WritePass<'_> {
@@ -363,8 +381,12 @@ impl WritePass<'_> {
         while let Some(bytes) = pieces.next_piece(label)? {
             let breaks = table::count_line_breaks(&bytes);
             let first = (piece > 0).then_some(self.first);
+            let size = bytes.len();
             let mut prepared = prepare_piece(self.plan, self.settings, first, bytes, &start)?;
             let rows = prepared.rows_in;
+            if self.sizes.get(piece) != Some(&PieceSize { bytes: size, rows }) {
+                return Err(changed_while_read(label));
+            }
             let ranks = self.ranks.slice(start.ord, rows)?;
             let table = pipeline::finish(&mut prepared, self.settings, Some(ranks))?;
             let table = match self.order {
@@ -383,6 +405,9 @@ impl WritePass<'_> {
             start.rows_before += prepared.ingested.data_lines;
             start.ord += rows as u64;
             piece += 1;
+        }
+        if piece != self.sizes.len() {
+            return Err(changed_while_read(label));
         }
         buffered
             .flush()
@@ -451,6 +476,30 @@ fn streamed_summary(
 
 /// The input opened for cutting into pieces, with its delimiter (UTF-16 is refused: its
 /// pieces cannot be cut at byte boundaries found by line breaks).
+/// A piece's length in bytes and its table rows, as a pass read it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct PieceSize {
+    bytes: usize,
+    rows: usize,
+}
+
+/// The file's length and time of last change: the two passes must read the same file.
+fn file_stamp(label: &str, path: &Path) -> Result<(u64, Option<std::time::SystemTime>)> {
+    let meta = std::fs::metadata(path).map_err(|e| Error::io(label, "read", e))?;
+    Ok((meta.len(), meta.modified().ok()))
+}
+
+/// The error of a file that changed between (or during) the two passes: the ranks of the
+/// first would not be those of the rows the second writes.
+fn changed_while_read(label: &str) -> Error {
+    Error::bad_input(
+        crate::error::Location::file(label),
+        "the file changed while --streaming read it (it is read twice, and the two readings differ)",
+        "a file that nothing writes to during the run",
+        "run again once the file is complete, or copy it first and stream the copy",
+    )
+}
+
 fn open_pieces(
     label: &str,
     stream: &StreamingPlan,
@@ -527,7 +576,6 @@ fn prepare_later_piece(
         &piece_settings,
         plan.resolver,
         plan.references,
-        Some(start.ord),
     )
 }
 
@@ -599,7 +647,7 @@ fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
 /// row is not eligible), appended to `spill`.
 fn rank_inputs(
     mut prepared: pipeline::Prepared,
-    ids: &mut NarrowIds,
+    ids: &mut TextIds,
     ord: u64,
     spill: &mut RankSpill,
 ) -> Result<()> {
@@ -626,7 +674,7 @@ fn rank_inputs(
         text.clear();
         texts
             .push(kind, row, &mut text)
-            .then(|| NarrowIds::id(ids, &text))
+            .then(|| TextIds::id(ids, &text))
     };
     for row in 0..texts.len() {
         // Only eligibility here: the ranks themselves decide whether a baseline is required.
@@ -636,7 +684,7 @@ fn rank_inputs(
             group: number(TextKind::Group, row, &mut ids.groups),
             entity: number(TextKind::EntityCode, row, &mut ids.entities)
                 .or_else(|| number(TextKind::EntityInput, row, &mut ids.entities)),
-            unit: units.get(row).map(|u| NarrowIds::id(&mut ids.units, u)),
+            unit: units.get(row).map(|u| TextIds::id(&mut ids.units, u)),
             year: years.get(row),
             eligible: ok,
             baseline: baseline.get(row).filter(|_| ok),

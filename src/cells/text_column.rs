@@ -55,7 +55,7 @@ impl TextColumn {
     }
 }
 
-/// A table's text is more than a column's buffer can address (4 GiB in one column).
+/// A table's text is more than a column's or a record's buffer can address (4 GiB).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct TooLarge;
 
@@ -64,7 +64,7 @@ impl TooLarge {
     pub fn error(self, file: &str) -> crate::error::Error {
         crate::error::Error::bad_input(
             crate::error::Location::file(file),
-            "one column of the table holds more than 4 GiB of text (or the table has more than 4 billion lines)",
+            "one column or one record of the table holds more than 4 GiB of text (or the table has more than 4 billion lines; a record that long is often a quote left open)",
             "a table whose columns hold at most 4 GiB of text each",
             "split the table into smaller files, or read a csv or tsv file in pieces with --streaming",
         )

@@ -131,7 +131,7 @@ impl<'a> Body<'a> {
         let plain = record.plain(self.delimiter);
         self.empty_lines.extend(self.expected..spot.line);
         self.expected = spot.line + 1 + if plain { 0 } else { breaks_in(record) };
-        if filled(record) == 0 {
+        if record.filled() == 0 {
             self.empty_lines.push(spot.line);
             return Ok(());
         }
@@ -221,11 +221,6 @@ impl<'a> Body<'a> {
             "fix the row's first cell",
         )
     }
-}
-
-/// The cells of a record that hold something.
-pub(super) fn filled(record: &impl Fields) -> usize {
-    record.fields().filter(|c| !c.trim().is_empty()).count()
 }
 
 /// Whether a record's first cells are the header again (trimmed, case aside): the mark of a
@@ -355,7 +350,9 @@ fn runaway_quote(line: usize, record: &impl Fields, width: usize, delimiter: u8)
 /// The lines of a runaway quote, each read as written (quotes as characters), `width` cells
 /// each, with their lines.
 fn cut_runaway(text: &str, spot: Spot, delimiter: u8, width: usize) -> Vec<(usize, Vec<&str>)> {
-    let body = &text[spot.start.min(text.len())..spot.end.min(text.len())];
+    // The record's span starts at the blank lines before it, its line at its first character.
+    let body =
+        text[spot.start.min(text.len())..spot.end.min(text.len())].trim_start_matches(['\n', '\r']);
     let mut out = Vec::new();
     for (offset, line) in body.split('\n').enumerate() {
         let line = line.trim_end_matches('\r');

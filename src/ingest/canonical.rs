@@ -64,8 +64,8 @@ impl Texts {
             return at;
         }
         let shared: Arc<str> = text.into();
-        // Fewer distinct texts than rows, and rows are counted in `usize` far below 4 billion
-        // for an input within --max-input-mb.
+        // Fewer distinct texts than cells, and a table past 4 billion lines is refused as it
+        // is read (`TooLarge`), so the places fit.
         let at = u32::try_from(self.all.len()).unwrap_or(u32::MAX);
         self.all.push(shared.clone());
         self.places.insert(shared, at);

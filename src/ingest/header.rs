@@ -5,7 +5,7 @@
 use crate::cells::number::{self, Cell, NumberStyle};
 use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
-use crate::ingest::record::Cells;
+use crate::ingest::record::{Cells, Fields};
 
 /// What the caller knows about the table.
 #[derive(Debug, Clone, Default)]
@@ -75,7 +75,7 @@ impl Raw {
     }
 
     pub(super) fn filled(&self) -> usize {
-        self.record.iter().filter(|c| !c.trim().is_empty()).count()
+        self.record.filled()
     }
 
     /// The classes of the cells. Several four-digit numbers count as years only where they look

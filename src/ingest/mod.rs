@@ -468,7 +468,7 @@ pub fn reading_notes(table: &table::TextTable) -> Vec<String> {
             table.skipped.join("; ")
         ));
     }
-    let quoted = table.records.iter().filter(|r| r.unbalanced_quote).count();
+    let quoted = table.records.unbalanced_count();
     if quoted > 0 {
         notes.push(format!(
             "{quoted} line(s) inside an unclosed quote read as written and flagged unbalanced_quote (--lenient)"

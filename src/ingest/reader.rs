@@ -5,7 +5,7 @@
 
 use crate::error::{Error, Location, Result};
 use crate::ingest::header::{Raw, Spot};
-use crate::ingest::record::Cells;
+use crate::ingest::record::{Cells, TooLarge};
 
 /// The records of a text, one at a time, each with its line and byte range. The record after
 /// the current one is read ahead, so that the current one's end is known.
@@ -39,14 +39,14 @@ impl RawRef<'_> {
         }
     }
 
-    /// The record, kept (it is held back, or may be the header).
-    pub(super) fn kept(&self) -> Raw {
-        Raw {
+    /// The record, kept (it is held back, or may be the header); refused at 4 GiB of text.
+    pub(super) fn kept(&self) -> std::result::Result<Raw, TooLarge> {
+        Ok(Raw {
             line: self.line,
             start: self.start,
             end: self.end,
-            record: Cells::of(self.record),
-        }
+            record: Cells::of(self.record)?,
+        })
     }
 }
 

@@ -133,11 +133,6 @@ impl Records {
         self.unbalanced.len()
     }
 
-    /// The columns from `width` on are dropped.
-    pub fn truncate_columns(&mut self, width: usize) {
-        self.columns.truncate(width);
-    }
-
     /// Column `column`'s cells, taken out (the records have no such text afterwards: call it
     /// only once every record has been read).
     pub fn take_column(&mut self, column: usize) -> TextColumn {
@@ -162,6 +157,11 @@ pub trait Fields {
 
     fn fields(&self) -> impl DoubleEndedIterator<Item = &str> + ExactSizeIterator {
         (0..self.count()).map(move |i| self.field(i).unwrap_or(""))
+    }
+
+    /// How many cells hold something besides spaces.
+    fn filled(&self) -> usize {
+        self.fields().filter(|c| !c.trim().is_empty()).count()
     }
 
     /// Whether no cell holds a line break or `delimiter` (only a quoted cell can): such a
@@ -204,28 +204,9 @@ pub struct Cells {
 }
 
 impl Cells {
-    /// The cells of any record, kept.
-    pub fn of(record: &impl Fields) -> Cells {
-        record.fields().collect()
-    }
-
-    /// The cells of a record read by the csv reader from UTF-8 text. `None` when the record is
-    /// not UTF-8 (it cannot be, cut from a `&str` at ASCII delimiters) or is 4 GiB or longer.
-    pub fn from_byte_record(record: &csv::ByteRecord) -> Option<Cells> {
-        let text = std::str::from_utf8(record.as_slice()).ok()?;
-        let mut ends = Vec::with_capacity(record.len());
-        let mut end = 0usize;
-        for field in record.iter() {
-            end += field.len();
-            if !text.is_char_boundary(end) {
-                return None;
-            }
-            ends.push(u32::try_from(end).ok()?);
-        }
-        Some(Cells {
-            text: text.into(),
-            ends: ends.into(),
-        })
+    /// The cells of any record, kept (refused at 4 GiB of text).
+    pub fn of(record: &impl Fields) -> Result<Cells, TooLarge> {
+        Cells::try_from_texts(record.fields())
     }
 
     pub fn len(&self) -> usize {
@@ -276,19 +257,30 @@ impl Index<usize> for Cells {
     }
 }
 
-impl<S: AsRef<str>> FromIterator<S> for Cells {
-    fn from_iter<I: IntoIterator<Item = S>>(cells: I) -> Cells {
+impl Cells {
+    /// Cells from their texts; refused when their text together reaches 4 GiB (a record that
+    /// long can only come from a quote left open in a file read with a raised --max-input-mb).
+    pub fn try_from_texts<S: AsRef<str>>(
+        cells: impl IntoIterator<Item = S>,
+    ) -> Result<Cells, TooLarge> {
         let mut text = String::new();
         let mut ends = Vec::new();
         for cell in cells {
             text.push_str(cell.as_ref());
-            // A table is read from a file within --max-input-mb, far below 4 GiB.
-            ends.push(u32::try_from(text.len()).unwrap_or(u32::MAX));
+            ends.push(u32::try_from(text.len()).map_err(|_| TooLarge)?);
         }
-        Cells {
+        Ok(Cells {
             text: text.into(),
             ends: ends.into(),
-        }
+        })
+    }
+}
+
+/// Cells from texts known to be short (tests and literals): a panic past 4 GiB.
+#[cfg(test)]
+impl<S: AsRef<str>> FromIterator<S> for Cells {
+    fn from_iter<I: IntoIterator<Item = S>>(cells: I) -> Cells {
+        Cells::try_from_texts(cells).expect("cells under 4 GiB")
     }
 }
 
@@ -319,8 +311,6 @@ mod tests {
         assert_eq!(lines, vec![2, 4, 5]);
         let taken = records.take_column(1);
         assert_eq!(taken.iter().collect::<Vec<_>>(), vec!["1", "2", "3"]);
-        records.truncate_columns(1);
-        assert_eq!(records.get(0).cells.len(), 1);
     }
 
     #[test]
@@ -329,9 +319,9 @@ mod tests {
         let mut reader = csv::ReaderBuilder::new()
             .has_headers(false)
             .from_reader(text.as_bytes());
-        let mut record = csv::ByteRecord::new();
-        assert!(reader.read_byte_record(&mut record).unwrap());
-        let cells = Cells::from_byte_record(&record).unwrap();
+        let mut record = csv::StringRecord::new();
+        assert!(reader.read_record(&mut record).unwrap());
+        let cells = Cells::of(&record).unwrap();
         assert_eq!(
             cells.iter().collect::<Vec<_>>(),
             vec!["a", "b, quoted", "", "é\"x"]

@@ -19,9 +19,11 @@
 //!
 //! The text is read one record at a time. The records among which the header is chosen are
 //! kept while it is chosen; every record below it is checked and put straight into the
-//! table's columns (`Records`), so a table is never held as one allocation a record. Only a
-//! header with empty cells at its end needs the records read twice: once to learn whether any
-//! record of the table fills those columns, once to keep them.
+//! table's columns (`Records`), so a table is never held as one allocation a record. The
+//! records between the header and the end of the header search are parsed twice (kept while
+//! the header is chosen, then read again below it); a header with empty cells at its end
+//! makes every record be read twice: once to learn whether any record of the table fills
+//! those columns, once to keep them.
 //!
 //! It knows nothing about countries; `ingest::layout` gives the columns their roles. The rules
 //! live beside it: the delimiter in `delimiter`, the header in `header`, the table's end and
@@ -29,7 +31,7 @@
 
 pub use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
-use crate::ingest::body::{breaks_in, filled, open_at_end, Body, Place, TableEnd};
+use crate::ingest::body::{breaks_in, open_at_end, Body, Place, TableEnd};
 pub use crate::ingest::delimiter::{delimiter_name, sniff_delimiter};
 pub use crate::ingest::header::FindOptions;
 use crate::ingest::header::{choose_header, Raw, HEADER_SEARCH};
@@ -204,7 +206,7 @@ impl Reading<'_> {
             .header_line
             .map(|l| l + self.options.line_offset);
         while let Some(raw) = reader.next()? {
-            let raw = raw.kept();
+            let raw = raw.kept().map_err(|e| e.error(self.file))?;
             let found = forced.is_some_and(|l| raw.line == l && raw.filled() > 0);
             prefix.push(raw);
             if found || (forced.is_none() && prefix.len() >= HEADER_SEARCH) {
@@ -235,7 +237,7 @@ impl Reading<'_> {
                     "check that the right file was given, or pass --delimiter if the table uses another one",
                 ));
             };
-            two_fields = filled(raw.record) >= 2;
+            two_fields = raw.record.filled() >= 2;
         }
         Ok((prefix, header_index, header_reason))
     }
@@ -259,7 +261,7 @@ impl Reading<'_> {
         while let Some(raw) = reader.next()? {
             let place = end.place(raw.record, self.delimiter);
             if place != Place::Table {
-                end.keep(raw.kept(), place);
+                end.keep(raw.kept().map_err(|e| e.error(self.file))?, place);
                 continue;
             }
             for held in end.release() {
@@ -294,7 +296,10 @@ impl Reading<'_> {
             }
             let place = end.place(raw.record, self.delimiter);
             if place != Place::Table {
-                end.keep(raw.kept(), place);
+                match raw.kept() {
+                    Ok(kept) => end.keep(kept, place),
+                    Err(e) => failed = Some(e.error(self.file)),
+                }
                 continue;
             }
             let taken = end

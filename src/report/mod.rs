@@ -125,18 +125,6 @@ pub fn render_chart_csv(frame: &DataFrame, rounding: Rounding, guard: bool) -> R
 
 pub use crate::output::NOTICE_COLUMN;
 
-/// The frame with the notice as its first column, on every row.
-pub fn with_notice_column(frame: &DataFrame, notice: &str) -> Result<DataFrame> {
-    let mut marked = frame.clone();
-    marked
-        .insert_column(
-            0,
-            Column::new(NOTICE_COLUMN.into(), vec![notice; frame.height()]),
-        )
-        .map_err(Error::engine("adding the notice column"))?;
-    Ok(marked)
-}
-
 pub fn render_json(frame: &DataFrame, summary: &RunSummary, rounding: Rounding) -> Result<String> {
     let names: Vec<String> = frame
         .get_column_names()

@@ -2,7 +2,8 @@
 //! than the whole of it. The first pass appends each row's rank inputs (group, entity and unit
 //! as numbers shared by every piece, year, eligibility, the two values) to one of `BUCKETS`
 //! files in a temporary folder beside the output, chosen by the row's ranking partition (its
-//! group and year), so that every partition, and every series, lies whole in one bucket. Each
+//! group and year), so that every partition lies whole in one bucket, and so does every
+//! series' year (all that `several_series` compares). Each
 //! bucket is then read alone and ranked by the in-memory rules (`rank::several_series`,
 //! `rank::mixed_units`, `rank::rank_columns`), and its rows' ranks written back in row order;
 //! the second pass takes each piece's ranks from every bucket in turn.
@@ -12,7 +13,6 @@
 //! whole while they are ranked, as they must be.
 
 use crate::error::{Error, Result};
-use crate::model::PipelineSettings;
 use crate::rank;
 use polars::prelude::*;
 use std::fs::File;
@@ -85,15 +85,17 @@ impl Input {
         }
     }
 
-    /// The key rows are ranked together by (as `resolve::ranking_keys` writes it).
-    fn partition_key(&self) -> u64 {
-        (u64::from(self.group.unwrap_or(u32::MAX)) << 33)
-            | self.year.map_or(1 << 32, |y| u64::from(y as u32))
+    /// The key rows are ranked together by.
+    fn partition_key(&self) -> rank::PartitionKey {
+        (self.group, self.year)
     }
 
+    /// The bucket of the row's partition: rows of one partition share a bucket.
     fn bucket(&self) -> usize {
-        // Fibonacci hashing of the partition key: its top bits pick the bucket.
-        let mixed = self.partition_key().wrapping_mul(0x9E37_79B9_7F4A_7C15);
+        // Fibonacci hashing of the group and year: the product's top bits pick the bucket.
+        let key = u64::from(self.group.unwrap_or(u32::MAX)) << 32
+            ^ self.year.map_or(1 << 32, |y| u64::from(y as u32));
+        let mixed = key.wrapping_mul(0x9E37_79B9_7F4A_7C15);
         (mixed >> 58) as usize % BUCKETS
     }
 }
@@ -178,7 +180,7 @@ impl RankSpill {
     }
 
     /// Ranks every bucket; their ranks, to be read back piece by piece.
-    pub(super) fn rank(self, settings: &PipelineSettings, baseline_missing: bool) -> Result<Ranks> {
+    pub(super) fn rank(self, rules: RankRules) -> Result<Ranks> {
         let folder = self.folder;
         for (b, input) in self.inputs.into_iter().enumerate() {
             input
@@ -186,7 +188,7 @@ impl RankSpill {
                 .map_err(|e| Error::io(folder.path().display(), "write", e.into_error()))?;
             let inputs =
                 read_records(&folder.path().join(format!("inputs-{b:02}")), Input::decode)?;
-            let ranked = rank_bucket(&inputs, settings, baseline_missing)?;
+            let ranked = rank_bucket(&inputs, rules)?;
             drop(inputs);
             let path = folder.path().join(format!("ranks-{b:02}"));
             let mut out = BufWriter::with_capacity(
@@ -231,25 +233,18 @@ fn read_records<const N: usize, T>(path: &Path, decode: fn(&[u8; N]) -> T) -> Re
 }
 
 /// The ranks and late flags of one bucket's rows, by the in-memory rules.
-fn rank_bucket(
-    inputs: &[Input],
-    settings: &PipelineSettings,
-    baseline_missing: bool,
-) -> Result<Vec<Ranked>> {
+fn rank_bucket(inputs: &[Input], rules: RankRules) -> Result<Vec<Ranked>> {
     let engine = || Error::engine("ranking");
-    let mut pairs: PlHashMap<(Option<u32>, Option<u32>), u32> = PlHashMap::default();
+    let mut pairs: rank::Numbering<(Option<u32>, Option<u32>)> = rank::Numbering::default();
     let series: Vec<u32> = inputs
         .iter()
-        .map(|i| {
-            let next = pairs.len() as u32;
-            *pairs.entry((i.entity, i.group)).or_insert(next)
-        })
+        .map(|i| pairs.number((i.entity, i.group)))
         .collect();
     let years: Vec<Option<i32>> = inputs.iter().map(|i| i.year).collect();
     let several = rank::several_series(&series, &years, pairs.len());
     let (partitions, count) = rank::partition_numbers(inputs.iter().map(Input::partition_key));
     let eligible: Vec<bool> = inputs.iter().map(|i| i.eligible).collect();
-    let mixed = match settings.one_unit() {
+    let mixed = match rules.one_unit {
         true => vec![false; inputs.len()],
         false => {
             let units: Vec<Option<u32>> = inputs.iter().map(|i| i.unit).collect();
@@ -273,9 +268,14 @@ fn rank_bucket(
         ],
     )
     .map_err(engine())?;
-    let [baseline, adjusted] =
-        rank::rank_columns(&frame, &partitions, count, settings.order, baseline_missing)
-            .map_err(engine())?;
+    let [baseline, adjusted] = rank::rank_columns(
+        &frame,
+        &partitions,
+        count,
+        rules.order,
+        rules.baseline_missing,
+    )
+    .map_err(engine())?;
     let rank_of = |c: &Column| -> Result<Vec<Option<u32>>> {
         Ok(c.i64()
             .map_err(engine())?
@@ -293,6 +293,16 @@ fn rank_bucket(
             mixed: mixed[k],
         })
         .collect())
+}
+
+/// What the ranks of a run depend on besides its rows.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct RankRules {
+    /// Every figure ends in one unit (`PipelineSettings::one_unit`): no mixed-currency rule.
+    pub one_unit: bool,
+    pub order: rank::Order,
+    /// The baseline is missing: rows are ranked on their adjusted value alone.
+    pub baseline_missing: bool,
 }
 
 /// The ranked buckets, read back in row order.
@@ -321,7 +331,14 @@ impl Ranks {
         let (mut several, mut mixed) = (vec![false; rows], vec![false; rows]);
         for b in 0..BUCKETS {
             while let Some(r) = self.heads[b].filter(|r| r.row < end) {
-                let at = (r.row - from) as usize;
+                // A row before the piece: the pieces are not those the ranks were read from
+                // (the caller checks each piece's rows, so this is a guard, not a path).
+                let Some(at) = r.row.checked_sub(from) else {
+                    return Err(Error::engine("streaming ranks")(polars_err!(
+                        ComputeError: "row {} is before the piece that starts at row {}", r.row, from
+                    )));
+                };
+                let at = at as usize;
                 baseline[at] = r.baseline.map(i64::from);
                 adjusted[at] = r.adjusted.map(i64::from);
                 several[at] = r.several;
@@ -387,5 +404,52 @@ mod tests {
             ..input
         };
         assert_eq!(input.bucket(), other_row.bucket());
+    }
+
+    /// Four rows of one group and year, spilled and ranked as the first pass does.
+    fn ranked_four(dir: &Path) -> Ranks {
+        let mut spill = RankSpill::new(&dir.join("out.csv")).unwrap();
+        for (row, value) in [3.0, 1.0, 4.0, 1.0].into_iter().enumerate() {
+            spill
+                .add(&Input {
+                    row: row as u64,
+                    group: Some(0),
+                    entity: Some(row as u32),
+                    unit: Some(0),
+                    year: Some(2020),
+                    eligible: true,
+                    baseline: Some(value),
+                    adjusted: Some(value),
+                })
+                .unwrap();
+        }
+        let rules = RankRules {
+            one_unit: false,
+            order: rank::Order::Desc,
+            baseline_missing: false,
+        };
+        spill.rank(rules).unwrap()
+    }
+
+    #[test]
+    fn slices_give_each_piece_its_rows_ranks_and_refuse_rows_before_the_piece() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut ranks = ranked_four(dir.path());
+        let ranks_of = |frame: &DataFrame| -> Vec<Option<i64>> {
+            frame["rank_adjusted"].i64().unwrap().iter().collect()
+        };
+        // Largest first, ties sharing the lower rank (standard competition ranking, "1224").
+        assert_eq!(
+            ranks_of(&ranks.slice(0, 2).unwrap()),
+            vec![Some(2), Some(3)]
+        );
+        assert_eq!(
+            ranks_of(&ranks.slice(2, 2).unwrap()),
+            vec![Some(1), Some(3)]
+        );
+        // A second pass whose pieces do not start where the first pass's rows did (the file
+        // changed between the passes) is an error, not a panic.
+        let mut ranks = ranked_four(dir.path());
+        assert!(ranks.slice(2, 2).is_err());
     }
 }

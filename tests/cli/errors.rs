@@ -63,6 +63,19 @@ fn a_bad_number_names_file_line_and_column_unless_lenient() {
 }
 
 #[test]
+fn lines_inside_a_runaway_quote_keep_their_numbers_after_a_blank_line() {
+    let env = setup();
+    // Line 4 opens a quote that is never closed; line 3 is blank. Atlantis is on line 5.
+    let input = env.write("in.csv", "country,fee\nChile,1\n\n\"Peru,2\nAtlantis,3\n");
+    let run = env.run(&["adjust", &input, "--lenient", "--year-value", "2020"]);
+    assert!(
+        run.stderr.contains("\"Atlantis\" (line 5)"),
+        "{}",
+        run.stderr
+    );
+}
+
+#[test]
 fn decimal_comma_tables_need_the_flag() {
     let env = setup();
     let input = env.write("in.csv", "country;year;value\nFrance;2020;1.234,5\n");
