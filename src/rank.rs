@@ -60,8 +60,13 @@ impl<K: std::hash::Hash + Eq> Numbering<K> {
 }
 
 /// The key of the rows ranked together: their group (a place among the table's texts) and
-/// their year, each possibly missing.
-pub type PartitionKey = (Option<u32>, Option<i32>);
+/// their year, each possibly missing, in one number (every pair its own: a missing one is 0,
+/// any other is one more than its bits), hashed as one word pair rather than field by field.
+pub fn partition_key(group: Option<u32>, year: Option<i32>) -> u128 {
+    let group = group.map_or(0, |g| u128::from(g) + 1);
+    let year = year.map_or(0, |y| u128::from(y as u32) + 1);
+    group << 64 | year
+}
 
 /// Dense numbers for partition keys (`Numbering`), and how many there are.
 pub fn partition_numbers<K: std::hash::Hash + Eq>(
@@ -334,6 +339,38 @@ pub fn shift_of(baseline: &Column, adjusted: &Column) -> PolarsResult<Column> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn partition_keys_differ_for_every_different_group_and_year() {
+        // The edges: none against 0, -1 and the largest values (an earlier key lost a group's
+        // top bit, so a group past 2^31 met the rows without one).
+        let groups = [
+            None,
+            Some(0),
+            Some(1),
+            Some(1 << 31),
+            Some(u32::MAX - 1),
+            Some(u32::MAX),
+        ];
+        let years = [
+            None,
+            Some(0),
+            Some(-1),
+            Some(i32::MIN),
+            Some(i32::MAX),
+            Some(2020),
+        ];
+        let mut keys = std::collections::HashSet::new();
+        for g in groups {
+            for y in years {
+                assert!(keys.insert(partition_key(g, y)), "{g:?} {y:?}");
+            }
+        }
+        assert_eq!(
+            partition_key(Some(3), Some(2020)),
+            partition_key(Some(3), Some(2020))
+        );
+    }
 
     fn ranks(
         values: &[Option<f64>],

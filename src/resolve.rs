@@ -8,7 +8,7 @@ use crate::entity::{Entity, EntityKind, Resolution, Resolver};
 use crate::error::{Error, Result, UnresolvedName};
 use crate::flags;
 use crate::ingest::Ingested;
-use crate::rank::{Numbering, PartitionKey};
+use crate::rank::{partition_key, Numbering};
 
 /// The entity of every row, in input order: each distinct entity once, and per row its place
 /// among them (none for an unresolved name). The frame's entity columns are written from this
@@ -57,8 +57,8 @@ pub fn ranking_keys<'a>(
     let texts: Vec<u32> = (0..rows.texts.len() as u32)
         .map(|t| entity_numbers.number(rows.texts.get(t)))
         .collect();
-    let mut pairs: Numbering<(u32, Option<u32>)> = Numbering::default();
-    let mut partitions: Numbering<PartitionKey> = Numbering::default();
+    let mut pairs: Numbering<u64> = Numbering::default();
+    let mut partitions: Numbering<u128> = Numbering::default();
     let n = rows.line.len();
     let mut series: Vec<u32> = Vec::with_capacity(n);
     let mut partition: Vec<u32> = Vec::with_capacity(n);
@@ -67,9 +67,11 @@ pub fn ranking_keys<'a>(
             Some(at) => found[at as usize],
             None => texts[rows.entity_input[i] as usize],
         };
-        // A group is a place among the distinct texts: equal texts, equal places.
-        series.push(pairs.number((entity, rows.group[i])));
-        partition.push(partitions.number((rows.group[i], rows.year[i])));
+        // A group is a place among the distinct texts: equal texts, equal places (none is
+        // `u32::MAX`, a place no text has short of 4 billion distinct texts, some 100 GB).
+        let group = rows.group[i];
+        series.push(pairs.number(u64::from(entity) << 32 | u64::from(group.unwrap_or(u32::MAX))));
+        partition.push(partitions.number(partition_key(group, rows.year[i])));
     }
     RankingKeys {
         several: crate::rank::several_series(&series, &rows.year, pairs.len()),

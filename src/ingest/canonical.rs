@@ -64,8 +64,8 @@ impl Texts {
             return at;
         }
         let shared: Arc<str> = text.into();
-        // Fewer distinct texts than cells, and a table past 4 billion lines is refused as it
-        // is read (`TooLarge`), so the places fit.
+        // 4 billion distinct texts would take some 100 GB here, far past any table this
+        // holds in memory (a streamed file's pieces each have their own).
         let at = u32::try_from(self.all.len()).unwrap_or(u32::MAX);
         self.all.push(shared.clone());
         self.places.insert(shared, at);

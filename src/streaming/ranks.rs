@@ -86,8 +86,8 @@ impl Input {
     }
 
     /// The key rows are ranked together by.
-    fn partition_key(&self) -> rank::PartitionKey {
-        (self.group, self.year)
+    fn partition_key(&self) -> u128 {
+        rank::partition_key(self.group, self.year)
     }
 
     /// The bucket of the row's partition: rows of one partition share a bucket.
