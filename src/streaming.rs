@@ -307,15 +307,56 @@ fn read_rank_inputs(
         sizes: Vec::new(),
         later_notes: Vec::new(),
     };
-    while let Some(bytes) = pieces.next_piece(label)? {
-        let breaks = table::count_line_breaks(&bytes);
-        let size = bytes.len();
-        let start = PieceStart {
-            lines_before: state.lines_before,
-            rows_before: state.rows_before,
-            ord: state.ord,
+    loop {
+        // The first piece alone (it decides for the others), then several at once.
+        let count = match state.first {
+            None => 1,
+            Some(_) => pieces::pieces_at_once(),
         };
-        let prepared = prepare_piece(plan, settings, state.first.as_ref(), bytes, &start)?;
+        let cuts = pieces.next_cuts(label, count, state.lines_before)?;
+        if cuts.is_empty() {
+            break;
+        }
+        let sizes: Vec<(usize, usize)> = cuts.iter().map(|c| (c.bytes.len(), c.breaks)).collect();
+        let first = state.first.as_ref();
+        // Row ids are not kept in this pass, so every piece of the batch is read with the
+        // batch's row offset (a piece's own is known only once the piece before it is read).
+        let (rows_before, ord) = (state.rows_before, state.ord);
+        let prepared = pieces::in_parallel(cuts, |cut| {
+            let start = PieceStart {
+                lines_before: cut.lines_before,
+                rows_before,
+                ord,
+            };
+            prepare_piece(plan, settings, first, cut.bytes, &start).map(|mut prepared| {
+                let frame = rank_frame(&mut prepared);
+                (prepared, frame)
+            })
+        });
+        for (prepared, (size, breaks)) in prepared.into_iter().zip(sizes) {
+            let (prepared, frame) = prepared?;
+            if let Err(restart) = state.take(prepared, frame, size, breaks, plan, settings)? {
+                return Ok(Err(restart));
+            }
+        }
+    }
+    Ok(Ok(state))
+}
+
+impl FirstPass {
+    /// Keeps a prepared piece's rank inputs (`frame`: `rank_frame`), in the file's order;
+    /// `Restart` when it holds base-currency rows that the first piece's columns did not plan
+    /// for.
+    fn take(
+        &mut self,
+        prepared: pipeline::Prepared,
+        frame: Result<DataFrame>,
+        size: usize,
+        breaks: usize,
+        plan: &StreamRun<'_>,
+        settings: &PipelineSettings,
+    ) -> Result<std::result::Result<(), Restart>> {
+        let (state, label) = (self, plan.input_label);
         if prepared.any_base && !settings.assume_base_rows {
             return Ok(Err(Restart));
         }
@@ -337,14 +378,20 @@ fn read_rank_inputs(
             missing_tables: prepared.missing_tables.clone(),
         });
         let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
-        state.sizes.push(PieceSize { bytes: size, rows });
-        rank_inputs(prepared, &mut state.ids, state.ord, &mut state.spill)?;
+        state.sizes.push(PieceSize::of(&prepared, size));
+        rank_inputs(
+            &prepared,
+            &frame?,
+            &mut state.ids,
+            state.ord,
+            &mut state.spill,
+        )?;
         state.lines_before += breaks;
         state.rows_before += data_lines;
         state.ord += rows as u64;
         state.pieces += 1;
+        Ok(Ok(()))
     }
-    Ok(Ok(state))
 }
 
 /// The second pass: the pieces read again as the first pass read them, each finished like an
@@ -362,52 +409,33 @@ struct WritePass<'a> {
 
 impl WritePass<'_> {
     /// Writes every piece into one csv staged at `output`; the flag counts and rows written.
+    /// The pieces are prepared on this thread while another writes those already finished.
     fn run(
         &mut self,
-        mut pieces: Pieces<std::fs::File>,
+        pieces: Pieces<std::fs::File>,
         output: &Path,
         staging: &mut report::Staging,
     ) -> Result<(FlagCounts, usize)> {
         let temp = report::temp_beside(output)?;
         let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-        let mut counts = FlagCounts::default();
-        let mut start = PieceStart {
-            lines_before: 0,
-            rows_before: 0,
-            ord: 0,
-        };
-        let label = self.plan.input_label;
-        let mut piece = 0;
-        while let Some(bytes) = pieces.next_piece(label)? {
-            let breaks = table::count_line_breaks(&bytes);
-            let first = (piece > 0).then_some(self.first);
-            let size = bytes.len();
-            let mut prepared = prepare_piece(self.plan, self.settings, first, bytes, &start)?;
-            let rows = prepared.rows_in;
-            if self.sizes.get(piece) != Some(&PieceSize { bytes: size, rows }) {
-                return Err(changed_while_read(label));
+        let (rounding, guard) = (self.plan.rounding, self.plan.guard_formulas);
+        // One finished table waits while another is written: more only held memory (measured).
+        let (tables, finished) = std::sync::mpsc::sync_channel(1);
+        let (written, prepared) = std::thread::scope(|scope| {
+            let out = &mut buffered;
+            let writer = scope.spawn(move || write_tables(finished, rounding, guard, out));
+            // `tables` moves in, so the writer stops once the last table is sent or a piece fails.
+            let prepared = self.finish_pieces(pieces, tables);
+            match writer.join() {
+                Ok(written) => (written, prepared),
+                Err(panic) => std::panic::resume_unwind(panic),
             }
-            let ranks = self.ranks.slice(start.ord, rows)?;
-            let table = pipeline::finish(&mut prepared, self.settings, Some(ranks))?;
-            let table = match self.order {
-                Some(order) => table.select(order)?,
-                None => table,
-            };
-            counts.add(table.flag_counts()?);
-            report::write_csv(
-                &table,
-                self.plan.rounding,
-                piece == 0,
-                self.plan.guard_formulas,
-                &mut buffered,
-            )?;
-            start.lines_before += breaks;
-            start.rows_before += prepared.ingested.data_lines;
-            start.ord += rows as u64;
-            piece += 1;
-        }
-        if piece != self.sizes.len() {
-            return Err(changed_while_read(label));
+        });
+        // The writer's error first: it is about an earlier piece than any this thread read.
+        let (counts, written) = written?;
+        let rows = prepared?;
+        if written != self.sizes.len() {
+            return Err(changed_while_read(self.plan.input_label));
         }
         buffered
             .flush()
@@ -416,8 +444,86 @@ impl WritePass<'_> {
             .into_inner()
             .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
         staging.file(temp, output);
-        Ok((counts, start.ord as usize))
+        Ok((counts, rows))
     }
+
+    /// Reads the pieces again, several at once, finishes each with its ranks and sends its
+    /// table to the writer, in order; the rows sent.
+    fn finish_pieces(
+        &mut self,
+        mut pieces: Pieces<std::fs::File>,
+        tables: std::sync::mpsc::SyncSender<OutputTable>,
+    ) -> Result<usize> {
+        let mut start = PieceStart {
+            lines_before: 0,
+            rows_before: 0,
+            ord: 0,
+        };
+        let label = self.plan.input_label;
+        let mut piece = 0;
+        loop {
+            let cuts = pieces.next_cuts(label, pieces::pieces_at_once(), start.lines_before)?;
+            if cuts.is_empty() {
+                return Ok(start.ord as usize);
+            }
+            // Each piece's place in the file and its ranks, from what the first pass read.
+            let mut jobs = Vec::with_capacity(cuts.len());
+            for cut in cuts {
+                let at = piece + jobs.len();
+                let expected = match self.sizes.get(at) {
+                    Some(size) if size.bytes == cut.bytes.len() => *size,
+                    _ => return Err(changed_while_read(label)),
+                };
+                let ranks = self.ranks.slice(start.ord, expected.rows)?;
+                let piece_start = PieceStart {
+                    lines_before: cut.lines_before,
+                    ..start
+                };
+                start.lines_before += cut.breaks;
+                start.rows_before += expected.data_lines;
+                start.ord += expected.rows as u64;
+                jobs.push((at, cut, piece_start, ranks, expected));
+            }
+            let (plan, settings, first, order) = (self.plan, self.settings, self.first, self.order);
+            let finished = pieces::in_parallel(jobs, |(at, cut, start, ranks, expected)| {
+                let first = (at > 0).then_some(first);
+                let mut prepared = prepare_piece(plan, settings, first, cut.bytes, &start)?;
+                if PieceSize::of(&prepared, expected.bytes) != expected {
+                    return Err(changed_while_read(label));
+                }
+                let table = pipeline::finish(&mut prepared, settings, Some(ranks))?;
+                match order {
+                    Some(order) => table.select(order),
+                    None => Ok(table),
+                }
+            });
+            for table in finished {
+                if tables.send(table?).is_err() {
+                    // The writer failed: its error is the run's.
+                    return Ok(start.ord as usize);
+                }
+                piece += 1;
+            }
+        }
+    }
+}
+
+/// Writes the tables it is sent into `out`, in order, the header with the first; the flag
+/// counts and how many tables were written.
+fn write_tables(
+    tables: std::sync::mpsc::Receiver<OutputTable>,
+    rounding: crate::format::Rounding,
+    guard: bool,
+    out: &mut dyn Write,
+) -> Result<(FlagCounts, usize)> {
+    let mut counts = FlagCounts::default();
+    let mut written = 0;
+    for table in tables {
+        counts.add(table.flag_counts()?);
+        report::write_csv(&table, rounding, written == 0, guard, &mut *out)?;
+        written += 1;
+    }
+    Ok((counts, written))
 }
 
 /// What the pieces added up to.
@@ -476,11 +582,22 @@ fn streamed_summary(
 
 /// The input opened for cutting into pieces, with its delimiter (UTF-16 is refused: its
 /// pieces cannot be cut at byte boundaries found by line breaks).
-/// A piece's length in bytes and its table rows, as a pass read it.
+/// A piece's length in bytes, its table rows and its data lines, as a pass read it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 struct PieceSize {
     bytes: usize,
     rows: usize,
+    data_lines: usize,
+}
+
+impl PieceSize {
+    fn of(prepared: &pipeline::Prepared, bytes: usize) -> PieceSize {
+        PieceSize {
+            bytes,
+            rows: prepared.rows_in,
+            data_lines: prepared.ingested.data_lines,
+        }
+    }
 }
 
 /// The file's length and time of last change: the two passes must read the same file.
@@ -642,17 +759,10 @@ fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
         .to_string())
 }
 
-/// What ranks need of a piece's rows (numbered from `ord`): the entity, group and unit as
-/// numbers shared by every piece, the year, the eligibility and the two values (none where the
-/// row is not eligible), appended to `spill`.
-fn rank_inputs(
-    mut prepared: pipeline::Prepared,
-    ids: &mut TextIds,
-    ord: u64,
-    spill: &mut RankSpill,
-) -> Result<()> {
-    let engine = || Error::engine("collecting what ranks need");
-    let frame = std::mem::take(&mut prepared.lf)
+/// The columns of a prepared piece that its ranks need (its plan collected: the factors and
+/// both tracks).
+fn rank_frame(prepared: &mut pipeline::Prepared) -> Result<DataFrame> {
+    std::mem::take(&mut prepared.lf)
         .select([
             col("_rank_eligible"),
             col("year"),
@@ -661,7 +771,20 @@ fn rank_inputs(
             col("value_adjusted"),
         ])
         .collect()
-        .map_err(engine())?;
+        .map_err(Error::engine("collecting what ranks need"))
+}
+
+/// What ranks need of a piece's rows (numbered from `ord`): the entity, group and unit as
+/// numbers shared by every piece, the year, the eligibility and the two values (none where the
+/// row is not eligible), from its `rank_frame`, appended to `spill`.
+fn rank_inputs(
+    prepared: &pipeline::Prepared,
+    frame: &DataFrame,
+    ids: &mut TextIds,
+    ord: u64,
+    spill: &mut RankSpill,
+) -> Result<()> {
+    let engine = || Error::engine("collecting what ranks need");
     let column = |name: &str| frame.column(name).map_err(engine());
     let eligible = column("_rank_eligible")?.bool().map_err(engine())?;
     let years = column("year")?.i32().map_err(engine())?;

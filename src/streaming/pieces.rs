@@ -5,6 +5,36 @@
 use crate::error::{Error, Result};
 use std::io::{BufRead, BufReader, Read};
 
+/// A piece as cut: its bytes, its line breaks, and the lines of the file before it.
+pub(super) struct Cut {
+    pub(super) bytes: Vec<u8>,
+    pub(super) breaks: usize,
+    pub(super) lines_before: usize,
+}
+
+/// How many pieces are read at once: one a thread of the pool, at most four (each holds a
+/// piece's working memory). The finder reads a piece on one thread; two pieces keep both
+/// cores of a small machine busy.
+pub(super) fn pieces_at_once() -> usize {
+    polars_core::runtime::THREAD_POOL
+        .current_num_threads()
+        .clamp(1, 4)
+}
+
+/// `work` on each item on the pool's threads, the results in the items' order.
+pub(super) fn in_parallel<T: Send, R: Send>(
+    items: Vec<T>,
+    work: impl Fn(T) -> R + Sync + Send,
+) -> Vec<R> {
+    use rayon::prelude::*;
+    match items.len() {
+        0 | 1 => items.into_iter().map(work).collect(),
+        _ => {
+            polars_core::runtime::THREAD_POOL.install(|| items.into_par_iter().map(work).collect())
+        }
+    }
+}
+
 /// Cuts a byte stream into pieces that end at a record boundary.
 pub(super) struct Pieces<R: Read> {
     pub(super) reader: BufReader<R>,
@@ -14,6 +44,29 @@ pub(super) struct Pieces<R: Read> {
 }
 
 impl<R: Read> Pieces<R> {
+    /// Up to `count` pieces, the first after `lines_before` lines of the file.
+    pub(super) fn next_cuts(
+        &mut self,
+        label: &str,
+        count: usize,
+        mut lines_before: usize,
+    ) -> Result<Vec<Cut>> {
+        let mut cuts = Vec::with_capacity(count);
+        while cuts.len() < count {
+            let Some(bytes) = self.next_piece(label)? else {
+                break;
+            };
+            let breaks = crate::ingest::table::count_line_breaks(&bytes);
+            cuts.push(Cut {
+                bytes,
+                breaks,
+                lines_before,
+            });
+            lines_before += breaks;
+        }
+        Ok(cuts)
+    }
+
     pub(super) fn next_piece(&mut self, label: &str) -> Result<Option<Vec<u8>>> {
         if self.finished {
             return Ok(None);
