@@ -11,37 +11,34 @@
 //! then computed bucket by bucket by the in-memory rules. In the second pass each piece is
 //! prepared again, finished with its slice of the ranks by `pipeline::finish` (the in-memory
 //! run's own path) and appended to the csv output, which is renamed into place only when
-//! complete. Memory is a piece and a bucket, never the file.
+//! complete. Pieces are read several at once, and written while the next are read. Memory is
+//! a few pieces and a bucket, never the file.
 //!
 //! Inputs: CSV or TSV files in UTF-8 or Windows-1252 (UTF-16, spreadsheets, Parquet and
 //! standard input are read whole: run them without `--streaming`). Output: csv to `-o FILE`.
 //! Margins of error are refused: their rank intervals and ties need every row at once.
 
-use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::flags::FlagCounts;
-use crate::ingest::encoding::EncodingChoice;
-use crate::ingest::table;
 use crate::output::{OutputTable, TextKind};
 use crate::pipeline::{self, PipelineSettings};
-use crate::reference::References;
 use crate::report::{self, Format};
 use polars::prelude::*;
 use std::collections::HashMap;
-use std::io::{BufRead, BufReader, Write};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
+mod piece;
 mod pieces;
 mod ranks;
+mod write;
+use piece::{
+    changed_while_read, file_stamp, first_piece, open_pieces, prepare_piece, FirstPiece, PieceSize,
+    PieceStart,
+};
+pub use piece::{StreamRun, StreamingPlan};
 use pieces::Pieces;
-use ranks::{Input, RankRules, RankSpill, Ranks};
-
-/// What a streaming run reads and how big its pieces are.
-#[derive(Debug, Clone)]
-pub struct StreamingPlan {
-    pub path: PathBuf,
-    pub chunk_bytes: usize,
-}
+use ranks::{Input, RankRules, RankSpill};
+use write::WritePass;
 
 /// Checks that a run can stream, before anything is read.
 pub fn check(
@@ -86,16 +83,6 @@ pub fn check(
     Ok(())
 }
 
-/// What the first piece decided for the others.
-struct FirstPiece {
-    header_line: String,
-    settings: PipelineSettings,
-    encoding: Option<EncodingChoice>,
-    notes: Vec<String>,
-    warnings: Vec<String>,
-    data_lines: usize,
-}
-
 /// The output columns and the steps, as the first piece planned them.
 struct Columns {
     head: Vec<String>,
@@ -106,18 +93,6 @@ struct Columns {
 
 /// The run needs restarting with `assume_base_rows` (a later piece holds base-currency rows).
 struct Restart;
-
-/// What a streamed run reads from the plan (the plan itself lives above this module).
-pub struct StreamRun<'a> {
-    pub settings: &'a PipelineSettings,
-    pub input_label: &'a str,
-    pub resolver: &'a Resolver,
-    pub references: Option<&'a References>,
-    pub output_path: Option<&'a Path>,
-    pub rounding: crate::format::Rounding,
-    pub guard_formulas: bool,
-    pub columns: &'a crate::model::ColumnSet,
-}
 
 /// Runs the table in pieces; the csv is staged in `staging`, to be renamed into place with the
 /// run's other outputs.
@@ -265,26 +240,6 @@ impl TextIds {
     }
 }
 
-/// A piece read with what the first piece decided (`first`, none for the first piece itself).
-fn prepare_piece(
-    plan: &StreamRun<'_>,
-    settings: &PipelineSettings,
-    first: Option<&FirstPiece>,
-    bytes: Vec<u8>,
-    start: &PieceStart,
-) -> Result<pipeline::Prepared> {
-    match first {
-        None => pipeline::prepare(
-            bytes.into(),
-            plan.input_label,
-            settings,
-            plan.resolver,
-            plan.references,
-        ),
-        Some(f) => prepare_later_piece(plan, f, bytes, start),
-    }
-}
-
 /// The first pass: every piece prepared like an in-memory table and its rank inputs kept;
 /// `Restart` when a piece holds base-currency rows that the first piece's columns did not
 /// plan for.
@@ -394,138 +349,6 @@ impl FirstPass {
     }
 }
 
-/// The second pass: the pieces read again as the first pass read them, each finished like an
-/// in-memory table with its slice of the whole file's ranks, and written in order.
-struct WritePass<'a> {
-    plan: &'a StreamRun<'a>,
-    settings: &'a PipelineSettings,
-    first: &'a FirstPiece,
-    ranks: &'a mut Ranks,
-    /// The output columns asked for, when not every one (`--write-columns`).
-    order: Option<&'a [String]>,
-    /// Each piece's bytes and rows as the first pass read them.
-    sizes: &'a [PieceSize],
-}
-
-impl WritePass<'_> {
-    /// Writes every piece into one csv staged at `output`; the flag counts and rows written.
-    /// The pieces are prepared on this thread while another writes those already finished.
-    fn run(
-        &mut self,
-        pieces: Pieces<std::fs::File>,
-        output: &Path,
-        staging: &mut report::Staging,
-    ) -> Result<(FlagCounts, usize)> {
-        let temp = report::temp_beside(output)?;
-        let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-        let (rounding, guard) = (self.plan.rounding, self.plan.guard_formulas);
-        // One finished table waits while another is written: more only held memory (measured).
-        let (tables, finished) = std::sync::mpsc::sync_channel(1);
-        let (written, prepared) = std::thread::scope(|scope| {
-            let out = &mut buffered;
-            let writer = scope.spawn(move || write_tables(finished, rounding, guard, out));
-            // `tables` moves in, so the writer stops once the last table is sent or a piece fails.
-            let prepared = self.finish_pieces(pieces, tables);
-            match writer.join() {
-                Ok(written) => (written, prepared),
-                Err(panic) => std::panic::resume_unwind(panic),
-            }
-        });
-        // The writer's error first: it is about an earlier piece than any this thread read.
-        let (counts, written) = written?;
-        let rows = prepared?;
-        if written != self.sizes.len() {
-            return Err(changed_while_read(self.plan.input_label));
-        }
-        buffered
-            .flush()
-            .map_err(|e| Error::io(output.display(), "write the output", e))?;
-        let temp = buffered
-            .into_inner()
-            .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
-        staging.file(temp, output);
-        Ok((counts, rows))
-    }
-
-    /// Reads the pieces again, several at once, finishes each with its ranks and sends its
-    /// table to the writer, in order; the rows sent.
-    fn finish_pieces(
-        &mut self,
-        mut pieces: Pieces<std::fs::File>,
-        tables: std::sync::mpsc::SyncSender<OutputTable>,
-    ) -> Result<usize> {
-        let mut start = PieceStart {
-            lines_before: 0,
-            rows_before: 0,
-            ord: 0,
-        };
-        let label = self.plan.input_label;
-        let mut piece = 0;
-        loop {
-            let cuts = pieces.next_cuts(label, pieces::pieces_at_once(), start.lines_before)?;
-            if cuts.is_empty() {
-                return Ok(start.ord as usize);
-            }
-            // Each piece's place in the file and its ranks, from what the first pass read.
-            let mut jobs = Vec::with_capacity(cuts.len());
-            for cut in cuts {
-                let at = piece + jobs.len();
-                let expected = match self.sizes.get(at) {
-                    Some(size) if size.bytes == cut.bytes.len() => *size,
-                    _ => return Err(changed_while_read(label)),
-                };
-                let ranks = self.ranks.slice(start.ord, expected.rows)?;
-                let piece_start = PieceStart {
-                    lines_before: cut.lines_before,
-                    ..start
-                };
-                start.lines_before += cut.breaks;
-                start.rows_before += expected.data_lines;
-                start.ord += expected.rows as u64;
-                jobs.push((at, cut, piece_start, ranks, expected));
-            }
-            let (plan, settings, first, order) = (self.plan, self.settings, self.first, self.order);
-            let finished = pieces::in_parallel(jobs, |(at, cut, start, ranks, expected)| {
-                let first = (at > 0).then_some(first);
-                let mut prepared = prepare_piece(plan, settings, first, cut.bytes, &start)?;
-                if PieceSize::of(&prepared, expected.bytes) != expected {
-                    return Err(changed_while_read(label));
-                }
-                let table = pipeline::finish(&mut prepared, settings, Some(ranks))?;
-                match order {
-                    Some(order) => table.select(order),
-                    None => Ok(table),
-                }
-            });
-            for table in finished {
-                if tables.send(table?).is_err() {
-                    // The writer failed: its error is the run's.
-                    return Ok(start.ord as usize);
-                }
-                piece += 1;
-            }
-        }
-    }
-}
-
-/// Writes the tables it is sent into `out`, in order, the header with the first; the flag
-/// counts and how many tables were written.
-fn write_tables(
-    tables: std::sync::mpsc::Receiver<OutputTable>,
-    rounding: crate::format::Rounding,
-    guard: bool,
-    out: &mut dyn Write,
-) -> Result<(FlagCounts, usize)> {
-    let mut counts = FlagCounts::default();
-    let mut written = 0;
-    for table in tables {
-        counts.add(table.flag_counts()?);
-        report::write_csv(&table, rounding, written == 0, guard, &mut *out)?;
-        written += 1;
-    }
-    Ok((counts, written))
-}
-
 /// What the pieces added up to.
 struct Tally {
     pieces: usize,
@@ -582,183 +405,6 @@ fn streamed_summary(
 
 /// The input opened for cutting into pieces, with its delimiter (UTF-16 is refused: its
 /// pieces cannot be cut at byte boundaries found by line breaks).
-/// A piece's length in bytes, its table rows and its data lines, as a pass read it.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-struct PieceSize {
-    bytes: usize,
-    rows: usize,
-    data_lines: usize,
-}
-
-impl PieceSize {
-    fn of(prepared: &pipeline::Prepared, bytes: usize) -> PieceSize {
-        PieceSize {
-            bytes,
-            rows: prepared.rows_in,
-            data_lines: prepared.ingested.data_lines,
-        }
-    }
-}
-
-/// The file's length and time of last change: the two passes must read the same file.
-fn file_stamp(label: &str, path: &Path) -> Result<(u64, Option<std::time::SystemTime>)> {
-    let meta = std::fs::metadata(path).map_err(|e| Error::io(label, "read", e))?;
-    Ok((meta.len(), meta.modified().ok()))
-}
-
-/// The error of a file that changed between (or during) the two passes: the ranks of the
-/// first would not be those of the rows the second writes.
-fn changed_while_read(label: &str) -> Error {
-    Error::bad_input(
-        crate::error::Location::file(label),
-        "the file changed while --streaming read it (it is read twice, and the two readings differ)",
-        "a file that nothing writes to during the run",
-        "run again once the file is complete, or copy it first and stream the copy",
-    )
-}
-
-fn open_pieces(
-    label: &str,
-    stream: &StreamingPlan,
-    settings: &PipelineSettings,
-) -> Result<Pieces<std::fs::File>> {
-    let file = std::fs::File::open(&stream.path).map_err(|e| Error::io(label, "open", e))?;
-    let mut reader = BufReader::with_capacity(1 << 20, file);
-    let delimiter = {
-        let peek = reader.fill_buf().map_err(|e| Error::io(label, "read", e))?;
-        let forced_utf16 = matches!(
-            settings.ingest.encoding,
-            Some(EncodingChoice::Utf16Le | EncodingChoice::Utf16Be)
-        );
-        if forced_utf16 || peek.starts_with(&[0xFF, 0xFE]) || peek.starts_with(&[0xFE, 0xFF]) {
-            return Err(Error::usage(
-                format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
-                "re-save the table as UTF-8, or run without --streaming",
-            ));
-        }
-        match settings.ingest.delimiter {
-            Some(d) => d,
-            None if label.ends_with(".tsv") || label.ends_with(".tab") => b'\t',
-            None => table::sniff_delimiter(&String::from_utf8_lossy(peek)),
-        }
-    };
-    Ok(Pieces {
-        reader,
-        delimiter,
-        target: stream.chunk_bytes.max(1),
-        finished: false,
-    })
-}
-
-/// Where a piece starts in the whole file.
-struct PieceStart {
-    lines_before: usize,
-    rows_before: usize,
-    ord: u64,
-}
-
-/// A piece after the first, read with the first piece's header, delimiter, encoding and roles,
-/// its lines and row ids those of the whole file.
-fn prepare_later_piece(
-    plan: &StreamRun<'_>,
-    first: &FirstPiece,
-    bytes: Vec<u8>,
-    start: &PieceStart,
-) -> Result<pipeline::Prepared> {
-    let text = match first.encoding {
-        Some(EncodingChoice::Windows1252) => {
-            encoding_rs::WINDOWS_1252.decode(&bytes).0.into_owned()
-        }
-        _ => String::from_utf8(bytes).map_err(|e| {
-            Error::bad_input(
-                crate::error::Location::line(
-                    plan.input_label,
-                    start.lines_before
-                        + 1
-                        + table::count_line_breaks(&e.as_bytes()[..e.utf8_error().valid_up_to()]),
-                ),
-                "bytes that are not valid UTF-8 (the first piece of the file was UTF-8)",
-                "text in one encoding",
-                "re-save the file as UTF-8, or pass --encoding windows-1252 if it is a legacy file",
-            )
-        })?,
-    };
-    let mut piece_settings = first.settings.clone();
-    piece_settings.ingest.line_offset = start.lines_before.saturating_sub(1);
-    piece_settings.ingest.row_offset = start.rows_before;
-    let piece = format!("{}\n{text}", first.header_line);
-    pipeline::prepare(
-        piece.into_bytes().into(),
-        plan.input_label,
-        &piece_settings,
-        plan.resolver,
-        plan.references,
-    )
-}
-
-/// What the first piece decided, for reading the others as it was read.
-fn first_piece(
-    ingested: &crate::ingest::Ingested,
-    settings: &PipelineSettings,
-    label: &str,
-) -> Result<FirstPiece> {
-    let mut piece_settings = settings.clone();
-    piece_settings.ingest.delimiter = Some(ingested.delimiter);
-    piece_settings.ingest.encoding = Some(EncodingChoice::Utf8);
-    piece_settings.ingest.roles = crate::ingest::layout::RoleFlags {
-        reserved: settings.ingest.roles.reserved.clone(),
-        ..ingested.roles_used.clone()
-    };
-    if ingested.dimensioned {
-        return Err(Error::usage(
-            format!("{label} is a statistics-office TSV (dimension codes joined in its first column), which --streaming does not cut into pieces"),
-            "run without --streaming",
-        ));
-    }
-    if ingested
-        .encoding
-        .is_some_and(|e| matches!(e, EncodingChoice::Utf16Le | EncodingChoice::Utf16Be))
-    {
-        return Err(Error::usage(
-            format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
-            "re-save the table as UTF-8, or run without --streaming",
-        ));
-    }
-    Ok(FirstPiece {
-        header_line: header_line(&ingested.headers, ingested.delimiter)?,
-        settings: piece_settings,
-        encoding: ingested.encoding,
-        notes: ingested.notes.clone(),
-        warnings: ingested.warnings.clone(),
-        data_lines: ingested.data_lines,
-    })
-}
-
-/// The header as a CSV line in `delimiter`, quoted where needed.
-fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
-    let mut writer = csv::WriterBuilder::new()
-        .delimiter(delimiter)
-        .terminator(csv::Terminator::Any(b'\n'))
-        .from_writer(Vec::new());
-    writer.write_record(headers).map_err(|e| {
-        Error::io(
-            "a piece header",
-            "write",
-            std::io::Error::other(e.to_string()),
-        )
-    })?;
-    let bytes = writer.into_inner().map_err(|e| {
-        Error::io(
-            "a piece header",
-            "write",
-            std::io::Error::other(e.to_string()),
-        )
-    })?;
-    Ok(String::from_utf8_lossy(&bytes)
-        .trim_end_matches('\n')
-        .to_string())
-}
-
 /// The columns of a prepared piece that its ranks need (its plan collected: the factors and
 /// both tracks).
 fn rank_frame(prepared: &mut pipeline::Prepared) -> Result<DataFrame> {
@@ -815,15 +461,4 @@ fn rank_inputs(
         })?;
     }
     Ok(())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn a_piece_header_is_quoted_where_needed() {
-        let line = header_line(&["country".into(), "2019, est.".into()], b',').unwrap();
-        assert_eq!(line, "country,\"2019, est.\"");
-    }
 }

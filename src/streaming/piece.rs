@@ -1,0 +1,251 @@
+//! One piece of a streamed file: where it starts, what the first piece decided for the others,
+//! how it is read (`prepare_piece`, the in-memory run's `pipeline::prepare` on the piece's text
+//! with the first piece's header, encoding and roles), and the checks that both passes read
+//! the same file. Shared by the two passes (`super`, `write`).
+
+use super::pieces::Pieces;
+use crate::entity::Resolver;
+use crate::error::{Error, Result};
+use crate::ingest::encoding::EncodingChoice;
+use crate::ingest::table;
+use crate::pipeline::{self, PipelineSettings};
+use crate::reference::References;
+use std::io::{BufRead, BufReader};
+use std::path::{Path, PathBuf};
+
+/// What a streaming run reads and how big its pieces are.
+#[derive(Debug, Clone)]
+pub struct StreamingPlan {
+    pub path: PathBuf,
+    pub chunk_bytes: usize,
+}
+
+/// What the first piece decided for the others.
+pub(super) struct FirstPiece {
+    pub(super) header_line: String,
+    pub(super) settings: PipelineSettings,
+    pub(super) encoding: Option<EncodingChoice>,
+    pub(super) notes: Vec<String>,
+    pub(super) warnings: Vec<String>,
+    pub(super) data_lines: usize,
+}
+
+/// What a streamed run reads from the plan (the plan itself lives above this module).
+pub struct StreamRun<'a> {
+    pub settings: &'a PipelineSettings,
+    pub input_label: &'a str,
+    pub resolver: &'a Resolver,
+    pub references: Option<&'a References>,
+    pub output_path: Option<&'a Path>,
+    pub rounding: crate::format::Rounding,
+    pub guard_formulas: bool,
+    pub columns: &'a crate::model::ColumnSet,
+}
+
+/// A piece read with what the first piece decided (`first`, none for the first piece itself).
+pub(super) fn prepare_piece(
+    plan: &StreamRun<'_>,
+    settings: &PipelineSettings,
+    first: Option<&FirstPiece>,
+    bytes: Vec<u8>,
+    start: &PieceStart,
+) -> Result<pipeline::Prepared> {
+    match first {
+        None => pipeline::prepare(
+            bytes.into(),
+            plan.input_label,
+            settings,
+            plan.resolver,
+            plan.references,
+        ),
+        Some(f) => prepare_later_piece(plan, f, bytes, start),
+    }
+}
+
+/// A piece's length in bytes, its table rows and its data lines, as a pass read it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(super) struct PieceSize {
+    pub(super) bytes: usize,
+    pub(super) rows: usize,
+    pub(super) data_lines: usize,
+}
+
+impl PieceSize {
+    pub(super) fn of(prepared: &pipeline::Prepared, bytes: usize) -> PieceSize {
+        PieceSize {
+            bytes,
+            rows: prepared.rows_in,
+            data_lines: prepared.ingested.data_lines,
+        }
+    }
+}
+
+/// The file's length and time of last change: the two passes must read the same file.
+pub(super) fn file_stamp(label: &str, path: &Path) -> Result<(u64, Option<std::time::SystemTime>)> {
+    let meta = std::fs::metadata(path).map_err(|e| Error::io(label, "read", e))?;
+    Ok((meta.len(), meta.modified().ok()))
+}
+
+/// The error of a file that changed between (or during) the two passes: the ranks of the
+/// first would not be those of the rows the second writes.
+pub(super) fn changed_while_read(label: &str) -> Error {
+    Error::bad_input(
+        crate::error::Location::file(label),
+        "the file changed while --streaming read it (it is read twice, and the two readings differ)",
+        "a file that nothing writes to during the run",
+        "run again once the file is complete, or copy it first and stream the copy",
+    )
+}
+
+pub(super) fn open_pieces(
+    label: &str,
+    stream: &StreamingPlan,
+    settings: &PipelineSettings,
+) -> Result<Pieces<std::fs::File>> {
+    let file = std::fs::File::open(&stream.path).map_err(|e| Error::io(label, "open", e))?;
+    let mut reader = BufReader::with_capacity(1 << 20, file);
+    let delimiter = {
+        let peek = reader.fill_buf().map_err(|e| Error::io(label, "read", e))?;
+        let forced_utf16 = matches!(
+            settings.ingest.encoding,
+            Some(EncodingChoice::Utf16Le | EncodingChoice::Utf16Be)
+        );
+        if forced_utf16 || peek.starts_with(&[0xFF, 0xFE]) || peek.starts_with(&[0xFE, 0xFF]) {
+            return Err(Error::usage(
+                format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
+                "re-save the table as UTF-8, or run without --streaming",
+            ));
+        }
+        match settings.ingest.delimiter {
+            Some(d) => d,
+            None if label.ends_with(".tsv") || label.ends_with(".tab") => b'\t',
+            None => table::sniff_delimiter(&String::from_utf8_lossy(peek)),
+        }
+    };
+    Ok(Pieces {
+        reader,
+        delimiter,
+        target: stream.chunk_bytes.max(1),
+        finished: false,
+    })
+}
+
+/// Where a piece starts in the whole file.
+pub(super) struct PieceStart {
+    pub(super) lines_before: usize,
+    pub(super) rows_before: usize,
+    pub(super) ord: u64,
+}
+
+/// A piece after the first, read with the first piece's header, delimiter, encoding and roles,
+/// its lines and row ids those of the whole file.
+fn prepare_later_piece(
+    plan: &StreamRun<'_>,
+    first: &FirstPiece,
+    bytes: Vec<u8>,
+    start: &PieceStart,
+) -> Result<pipeline::Prepared> {
+    let text = match first.encoding {
+        Some(EncodingChoice::Windows1252) => {
+            encoding_rs::WINDOWS_1252.decode(&bytes).0.into_owned()
+        }
+        _ => String::from_utf8(bytes).map_err(|e| {
+            Error::bad_input(
+                crate::error::Location::line(
+                    plan.input_label,
+                    start.lines_before
+                        + 1
+                        + table::count_line_breaks(&e.as_bytes()[..e.utf8_error().valid_up_to()]),
+                ),
+                "bytes that are not valid UTF-8 (the first piece of the file was UTF-8)",
+                "text in one encoding",
+                "re-save the file as UTF-8, or pass --encoding windows-1252 if it is a legacy file",
+            )
+        })?,
+    };
+    let mut piece_settings = first.settings.clone();
+    piece_settings.ingest.line_offset = start.lines_before.saturating_sub(1);
+    piece_settings.ingest.row_offset = start.rows_before;
+    let piece = format!("{}\n{text}", first.header_line);
+    pipeline::prepare(
+        piece.into_bytes().into(),
+        plan.input_label,
+        &piece_settings,
+        plan.resolver,
+        plan.references,
+    )
+}
+
+/// What the first piece decided, for reading the others as it was read.
+pub(super) fn first_piece(
+    ingested: &crate::ingest::Ingested,
+    settings: &PipelineSettings,
+    label: &str,
+) -> Result<FirstPiece> {
+    let mut piece_settings = settings.clone();
+    piece_settings.ingest.delimiter = Some(ingested.delimiter);
+    piece_settings.ingest.encoding = Some(EncodingChoice::Utf8);
+    piece_settings.ingest.roles = crate::ingest::layout::RoleFlags {
+        reserved: settings.ingest.roles.reserved.clone(),
+        ..ingested.roles_used.clone()
+    };
+    if ingested.dimensioned {
+        return Err(Error::usage(
+            format!("{label} is a statistics-office TSV (dimension codes joined in its first column), which --streaming does not cut into pieces"),
+            "run without --streaming",
+        ));
+    }
+    if ingested
+        .encoding
+        .is_some_and(|e| matches!(e, EncodingChoice::Utf16Le | EncodingChoice::Utf16Be))
+    {
+        return Err(Error::usage(
+            format!("{label} is UTF-16, which --streaming cannot cut into pieces"),
+            "re-save the table as UTF-8, or run without --streaming",
+        ));
+    }
+    Ok(FirstPiece {
+        header_line: header_line(&ingested.headers, ingested.delimiter)?,
+        settings: piece_settings,
+        encoding: ingested.encoding,
+        notes: ingested.notes.clone(),
+        warnings: ingested.warnings.clone(),
+        data_lines: ingested.data_lines,
+    })
+}
+
+/// The header as a CSV line in `delimiter`, quoted where needed.
+pub(super) fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
+    let mut writer = csv::WriterBuilder::new()
+        .delimiter(delimiter)
+        .terminator(csv::Terminator::Any(b'\n'))
+        .from_writer(Vec::new());
+    writer.write_record(headers).map_err(|e| {
+        Error::io(
+            "a piece header",
+            "write",
+            std::io::Error::other(e.to_string()),
+        )
+    })?;
+    let bytes = writer.into_inner().map_err(|e| {
+        Error::io(
+            "a piece header",
+            "write",
+            std::io::Error::other(e.to_string()),
+        )
+    })?;
+    Ok(String::from_utf8_lossy(&bytes)
+        .trim_end_matches('\n')
+        .to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_piece_header_is_quoted_where_needed() {
+        let line = header_line(&["country".into(), "2019, est.".into()], b',').unwrap();
+        assert_eq!(line, "country,\"2019, est.\"");
+    }
+}
