@@ -41,23 +41,46 @@ impl WritePass<'_> {
     ) -> Result<(FlagCounts, usize)> {
         let temp = report::temp_beside(output)?;
         let mut buffered = std::io::BufWriter::with_capacity(1 << 20, temp);
-        let (rounding, guard) = (self.plan.rounding, self.plan.guard_formulas);
-        // One finished table waits while another is written: more only held memory (measured).
-        let (tables, finished) = std::sync::mpsc::sync_channel(1);
-        let (written, prepared) = std::thread::scope(|scope| {
-            let out = &mut buffered;
-            let writer = scope.spawn(move || write_tables(finished, rounding, guard, out));
-            // `tables` moves in, so the writer stops once the last table is sent or a piece fails.
-            let prepared = self.finish_pieces(pieces, tables);
-            match writer.join() {
-                Ok(written) => (written, prepared),
-                Err(panic) => std::panic::resume_unwind(panic),
-            }
-        });
+        let mut writer = TableWriter {
+            rounding: self.plan.rounding,
+            guard: self.plan.guard_formulas,
+            counts: FlagCounts::default(),
+            written: 0,
+        };
+        let (written, prepared) = if on_the_pool() {
+            // A batch job, on one of the pool's threads: a writer thread would format on the
+            // pool while this thread, waiting to hand it a table, holds a thread of it; with
+            // every thread so held, nothing moves. So the pieces are written in turn.
+            let mut failed = None;
+            let prepared = self.finish_pieces(pieces, |table| {
+                failed = writer.write(&table, &mut buffered).err();
+                failed.is_none()
+            });
+            (failed.map_or(Ok(()), Err), prepared)
+        } else {
+            // One finished table waits while another is written: more only held memory
+            // (measured).
+            let (tables, finished) = std::sync::mpsc::sync_channel::<OutputTable>(1);
+            std::thread::scope(|scope| {
+                let out = &mut buffered;
+                let writer = scope.spawn(|| {
+                    finished
+                        .into_iter()
+                        .try_for_each(|table| writer.write(&table, out))
+                });
+                // `tables` moves in: the writer stops once the last table is sent, or a piece
+                // failed.
+                let prepared = self.finish_pieces(pieces, move |table| tables.send(table).is_ok());
+                match writer.join() {
+                    Ok(written) => (written, prepared),
+                    Err(panic) => std::panic::resume_unwind(panic),
+                }
+            })
+        };
         // The writer's error first: it is about an earlier piece than any this thread read.
-        let (counts, written) = written?;
+        written?;
         let rows = prepared?;
-        if written != self.sizes.len() {
+        if writer.written != self.sizes.len() {
             return Err(changed_while_read(self.plan.input_label));
         }
         buffered
@@ -67,15 +90,15 @@ impl WritePass<'_> {
             .into_inner()
             .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
         staging.file(temp, output);
-        Ok((counts, rows))
+        Ok((writer.counts, rows))
     }
 
-    /// Reads the pieces again, several at once, finishes each with its ranks and sends its
-    /// table to the writer, in order; the rows sent.
+    /// Reads the pieces again, several at once, finishes each with its ranks and hands its
+    /// table to `write`, in order (which says whether to go on); the rows handed.
     fn finish_pieces(
         &mut self,
         mut pieces: Pieces<std::fs::File>,
-        tables: std::sync::mpsc::SyncSender<OutputTable>,
+        mut write: impl FnMut(OutputTable) -> bool,
     ) -> Result<usize> {
         let mut start = PieceStart {
             lines_before: 0,
@@ -121,7 +144,7 @@ impl WritePass<'_> {
                 }
             });
             for table in finished {
-                if tables.send(table?).is_err() {
+                if !write(table?) {
                     // The writer failed: its error is the run's.
                     return Ok(start.ord as usize);
                 }
@@ -131,20 +154,26 @@ impl WritePass<'_> {
     }
 }
 
-/// Writes the tables it is sent into `out`, in order, the header with the first; the flag
-/// counts and how many tables were written.
-fn write_tables(
-    tables: std::sync::mpsc::Receiver<OutputTable>,
+/// Writes tables into the output in order, the header with the first, and counts their flags.
+struct TableWriter {
     rounding: crate::format::Rounding,
     guard: bool,
-    out: &mut dyn Write,
-) -> Result<(FlagCounts, usize)> {
-    let mut counts = FlagCounts::default();
-    let mut written = 0;
-    for table in tables {
-        counts.add(table.flag_counts()?);
-        report::write_csv(&table, rounding, written == 0, guard, &mut *out)?;
-        written += 1;
+    counts: FlagCounts,
+    written: usize,
+}
+
+impl TableWriter {
+    fn write(&mut self, table: &OutputTable, out: &mut dyn Write) -> Result<()> {
+        self.counts.add(table.flag_counts()?);
+        report::write_csv(table, self.rounding, self.written == 0, self.guard, out)?;
+        self.written += 1;
+        Ok(())
     }
-    Ok((counts, written))
+}
+
+/// Whether this thread is one of the pool's (a batch job runs its tables there).
+fn on_the_pool() -> bool {
+    polars_core::runtime::THREAD_POOL
+        .current_thread_index()
+        .is_some()
 }

@@ -219,3 +219,73 @@ fn streaming_errors_keep_the_line_of_the_whole_file() {
         "no output is left behind by a failed run"
     );
 }
+
+/// Runs levelfield in `env`'s folder, killed (and the test failed) if it takes over `limit`.
+fn run_within(env: &crate::Env, args: &[&str], limit: std::time::Duration) -> crate::Run {
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_levelfield"))
+        .args(args)
+        .current_dir(env.path(""))
+        .stdin(std::process::Stdio::null())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("run levelfield");
+    let started = std::time::Instant::now();
+    while child.try_wait().expect("wait for levelfield").is_none() {
+        if started.elapsed() > limit {
+            let _ = child.kill();
+            panic!("levelfield {args:?} still ran after {limit:?}: stuck");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    let out = child.wait_with_output().expect("wait for levelfield");
+    crate::Run {
+        code: out.status.code().unwrap_or(-1),
+        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+    }
+}
+
+#[test]
+fn a_batch_of_streamed_tables_runs_them_side_by_side_and_writes_what_single_runs_write() {
+    // Batch jobs run on the thread pool, where a streamed table's pieces are read and written
+    // too: a writer waiting on the pool that its own job holds would stop every job (it did).
+    let env = setup();
+    std::fs::create_dir(env.path("incoming")).unwrap();
+    let table = long_table(30_000);
+    for name in ["a", "b", "c", "d"] {
+        env.write(&format!("incoming/{name}.csv"), &table);
+    }
+    let recipe = format!(
+        "refs = \"{}\"\nsteps = [\"ppp\"]\nstreaming = true\nchunk_mb = 0.2\n\n[columns]\ngroup = \"item\"\ncurrency = \"currency\"\nlenient = true\n",
+        env.data("country-refs")
+    );
+    env.write("streamed.toml", &recipe);
+    env.write(
+        "batch.toml",
+        "[[run]]\nrecipe = \"streamed.toml\"\ninputs = \"incoming/*.csv\"\n",
+    );
+    let run = run_within(
+        &env,
+        &["batch", "batch.toml"],
+        std::time::Duration::from_secs(120),
+    );
+    assert_eq!(run.code, 0, "{}{}", run.stdout, run.stderr);
+    let single = env.run(&[
+        "adjust",
+        "--recipe",
+        "streamed.toml",
+        "incoming/a.csv",
+        "-o",
+        "single.csv",
+    ]);
+    assert_eq!(single.code, 0, "{}", single.stderr);
+    let alone = std::fs::read(env.path("single.csv")).unwrap();
+    for name in ["a", "b", "c", "d"] {
+        let batch = std::fs::read(env.path(&format!("incoming/{name}-adjusted.csv"))).unwrap();
+        assert!(
+            batch == alone,
+            "batch output of {name} differs from its single run"
+        );
+    }
+}
