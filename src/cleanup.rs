@@ -30,10 +30,20 @@ fn install_handler() {
         // If a handler cannot be installed (another library took the signal), runs still work;
         // only the clean-up on interruption is lost.
         let _ = ctrlc::set_handler(|| {
-            remove_registered();
+            // The registry stays held until the process is gone: a thread making a temporary
+            // path after the removal would otherwise leave it behind.
+            let paths = registry();
+            remove_all(&paths, Path::new("/"));
             std::process::exit(130);
         });
     });
+}
+
+/// Waits while an interruption's clean-up runs: the handler holds the registry until the
+/// process exits, so a run that ends (perhaps failing, its folder gone) does not exit first
+/// and leave half of it.
+pub fn wait_for_interruption() {
+    drop(registry());
 }
 
 /// Makes a temporary file or folder with `make` and registers the path `path_of` gives. The
@@ -60,16 +70,29 @@ pub fn settle<T, E>(path: &Path, finish: impl FnOnce() -> Result<T, E>) -> Resul
     Ok(finished)
 }
 
-/// Removes every registered path (files and folders).
-pub fn remove_registered() {
-    remove_registered_within(Path::new("/"));
+/// Removes the registered paths under `root` (a test removes only its own).
+#[cfg(test)]
+fn remove_registered_within(root: &Path) {
+    remove_all(&registry(), root);
 }
 
-/// Removes the registered paths under `root` (a test removes only its own).
-fn remove_registered_within(root: &Path) {
-    for path in registry().iter().filter(|p| p.starts_with(root)) {
+/// Removes `paths` under `root`. A folder is first renamed, then removed: other threads of the
+/// run may still be making files in it by its path (a streamed run's rank buckets), and a file
+/// made while it is being emptied would leave it behind; under its new name no file is made.
+fn remove_all(paths: &[PathBuf], root: &Path) {
+    for path in paths.iter().filter(|p| p.starts_with(root)) {
         if path.is_dir() {
-            let _ = std::fs::remove_dir_all(path);
+            let mut doomed = path.clone().into_os_string();
+            doomed.push(".removing");
+            let doomed = PathBuf::from(doomed);
+            match std::fs::rename(path, &doomed) {
+                Ok(()) => {
+                    let _ = std::fs::remove_dir_all(&doomed);
+                }
+                Err(_) => {
+                    let _ = std::fs::remove_dir_all(path);
+                }
+            }
         } else {
             let _ = std::fs::remove_file(path);
         }
@@ -110,6 +133,23 @@ mod tests {
         );
         settle(&a, || Ok::<_, ()>(())).unwrap();
         settle(&c, || Ok::<_, ()>(())).unwrap();
+    }
+
+    #[test]
+    fn a_folder_is_removed_while_another_thread_still_writes_into_it() {
+        let dir = tempfile::tempdir().unwrap();
+        let folder = dir.path().join("buckets");
+        std::fs::create_dir(&folder).unwrap();
+        let writing = folder.clone();
+        // Files keep appearing until the folder is gone (as a run's threads go on until exit).
+        let writer = std::thread::spawn(move || {
+            (0..200_000).all(|i| std::fs::write(writing.join(format!("f{i}")), "x").is_ok())
+        });
+        std::thread::sleep(std::time::Duration::from_millis(5));
+        remove_all(std::slice::from_ref(&folder), dir.path());
+        let stopped = !writer.join().unwrap();
+        assert!(stopped, "the writer never saw the folder go");
+        assert!(!folder.exists(), "the folder was left behind");
     }
 
     #[test]

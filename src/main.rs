@@ -21,7 +21,10 @@ fn main() -> ExitCode {
         Ok(cli) => cli,
         Err(error) => error.exit(),
     };
-    match levelfield::run(cli) {
+    let outcome = levelfield::run(cli);
+    // An interruption being cleaned up ends the process (130) before an error it caused is told.
+    levelfield::cleanup::wait_for_interruption();
+    match outcome {
         Ok(levelfield::Outcome::Ok) => ExitCode::SUCCESS,
         Ok(levelfield::Outcome::Findings) => ExitCode::from(1),
         Err(error) => {

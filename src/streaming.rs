@@ -272,7 +272,7 @@ fn read_rank_inputs(
         if cuts.is_empty() {
             break;
         }
-        let sizes: Vec<(usize, usize)> = cuts.iter().map(|c| (c.bytes.len(), c.breaks)).collect();
+        let breaks: Vec<usize> = cuts.iter().map(|c| c.breaks).collect();
         let first = state.first.as_ref();
         // Row ids are not kept in this pass, so every piece of the batch is read with the
         // batch's row offset (a piece's own is known only once the piece before it is read).
@@ -283,14 +283,15 @@ fn read_rank_inputs(
                 rows_before,
                 ord,
             };
+            let seen = piece::digest(&cut.bytes);
             prepare_piece(plan, settings, first, cut.bytes, &start).map(|mut prepared| {
                 let frame = rank_frame(&mut prepared);
-                (prepared, frame)
+                (prepared, frame, seen)
             })
         });
-        for (prepared, (size, breaks)) in prepared.into_iter().zip(sizes) {
-            let (prepared, frame) = prepared?;
-            if let Err(restart) = state.take(prepared, frame, size, breaks, plan, settings)? {
+        for (prepared, breaks) in prepared.into_iter().zip(breaks) {
+            let (prepared, frame, seen) = prepared?;
+            if let Err(restart) = state.take(prepared, frame, seen, breaks, plan, settings)? {
                 return Ok(Err(restart));
             }
         }
@@ -306,7 +307,7 @@ impl FirstPass {
         &mut self,
         prepared: pipeline::Prepared,
         frame: Result<DataFrame>,
-        size: usize,
+        seen: (usize, u64),
         breaks: usize,
         plan: &StreamRun<'_>,
         settings: &PipelineSettings,
@@ -333,7 +334,7 @@ impl FirstPass {
             missing_tables: prepared.missing_tables.clone(),
         });
         let (rows, data_lines) = (prepared.rows_in, prepared.ingested.data_lines);
-        state.sizes.push(PieceSize::of(&prepared, size));
+        state.sizes.push(PieceSize::of(&prepared, seen));
         rank_inputs(
             &prepared,
             &frame?,

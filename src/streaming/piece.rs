@@ -62,22 +62,36 @@ pub(super) fn prepare_piece(
     }
 }
 
-/// A piece's length in bytes, its table rows and its data lines, as a pass read it.
+/// A piece's length in bytes, a digest of them, its table rows and its data lines, as a pass
+/// read it: the second pass must read what the first did.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(super) struct PieceSize {
     pub(super) bytes: usize,
+    pub(super) digest: u64,
     pub(super) rows: usize,
     pub(super) data_lines: usize,
 }
 
 impl PieceSize {
-    pub(super) fn of(prepared: &pipeline::Prepared, bytes: usize) -> PieceSize {
+    /// `seen`: the piece's length and `digest`, taken before it was prepared.
+    pub(super) fn of(prepared: &pipeline::Prepared, seen: (usize, u64)) -> PieceSize {
         PieceSize {
-            bytes,
+            bytes: seen.0,
+            digest: seen.1,
             rows: prepared.rows_in,
             data_lines: prepared.ingested.data_lines,
         }
     }
+}
+
+/// A digest of a piece's bytes (SipHash with fixed keys, the same in both passes): a file
+/// rewritten to the same length between the passes, its time of change put back, still
+/// differs here.
+pub(super) fn digest(bytes: &[u8]) -> (usize, u64) {
+    use std::hash::Hasher;
+    let mut hasher = std::hash::DefaultHasher::new();
+    hasher.write(bytes);
+    (bytes.len(), hasher.finish())
 }
 
 /// The file's length and time of last change: the two passes must read the same file.
@@ -185,6 +199,8 @@ pub(super) fn first_piece(
     let mut piece_settings = settings.clone();
     piece_settings.ingest.delimiter = Some(ingested.delimiter);
     piece_settings.ingest.encoding = Some(EncodingChoice::Utf8);
+    // A later piece starts with the header line itself (`header_line`), not at its row.
+    piece_settings.ingest.header_row = None;
     piece_settings.ingest.roles = crate::ingest::layout::RoleFlags {
         reserved: settings.ingest.roles.reserved.clone(),
         ..ingested.roles_used.clone()
@@ -242,6 +258,15 @@ pub(super) fn header_line(headers: &[String], delimiter: u8) -> Result<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_piece_rewritten_to_the_same_length_has_another_digest() {
+        let piece = b"country,year,value\nFrance,2020,1.5\n";
+        let rewritten = b"country,year,value\nFrance,2020,9.5\n";
+        assert_eq!(digest(piece), digest(&piece.clone()));
+        assert_eq!(digest(piece).0, digest(rewritten).0);
+        assert_ne!(digest(piece), digest(rewritten));
+    }
 
     #[test]
     fn a_piece_header_is_quoted_where_needed() {

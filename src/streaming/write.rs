@@ -133,8 +133,12 @@ impl WritePass<'_> {
             let (plan, settings, first, order) = (self.plan, self.settings, self.first, self.order);
             let finished = pieces::in_parallel(jobs, |(at, cut, start, ranks, expected)| {
                 let first = (at > 0).then_some(first);
+                let seen = super::piece::digest(&cut.bytes);
+                if seen != (expected.bytes, expected.digest) {
+                    return Err(changed_while_read(label));
+                }
                 let mut prepared = prepare_piece(plan, settings, first, cut.bytes, &start)?;
-                if PieceSize::of(&prepared, expected.bytes) != expected {
+                if PieceSize::of(&prepared, seen) != expected {
                     return Err(changed_while_read(label));
                 }
                 let table = pipeline::finish(&mut prepared, settings, Some(ranks))?;

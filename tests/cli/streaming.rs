@@ -289,3 +289,33 @@ fn a_batch_of_streamed_tables_runs_them_side_by_side_and_writes_what_single_runs
         );
     }
 }
+
+#[test]
+fn streaming_reads_a_table_whose_header_row_is_given() {
+    // --header-row names the header's line in the file; every later piece starts with a copy
+    // of the header, so the option must not be applied to them again (it was: exit 2).
+    let env = setup();
+    let input = env.write(
+        "titled.csv",
+        &format!("Fees, a title line\n{}", long_table(20_000)),
+    );
+    let (whole, pieces, _) = run_both(
+        &env,
+        &input,
+        &[
+            "--steps",
+            "ppp",
+            "--group",
+            "item",
+            "--currency",
+            "currency",
+            "--lenient",
+            "--header-row",
+            "2",
+        ],
+    );
+    assert!(
+        whole == pieces,
+        "streaming output differs from the in-memory output"
+    );
+}
