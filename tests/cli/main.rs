@@ -38,6 +38,14 @@ pub struct Run {
 }
 
 impl Run {
+    fn of(out: std::process::Output) -> Run {
+        Run {
+            code: out.status.code().unwrap_or(-1),
+            stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+        }
+    }
+
     /// The csv on stdout as rows of column → cell.
     pub fn rows(&self) -> Vec<HashMap<String, String>> {
         let mut reader = csv::Reader::from_reader(self.stdout.as_bytes());
@@ -113,12 +121,29 @@ impl Env {
         } else {
             drop(child.stdin.take());
         }
-        let out = child.wait_with_output().expect("wait for levelfield");
-        Run {
-            code: out.status.code().unwrap_or(-1),
-            stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-            stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+        Run::of(child.wait_with_output().expect("wait for levelfield"))
+    }
+
+    /// Runs levelfield in the folder, killed (and the test failed) if it takes over `limit`:
+    /// for runs that could hang.
+    pub fn run_within(&self, args: &[&str], limit: std::time::Duration) -> Run {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_levelfield"))
+            .args(args)
+            .current_dir(self.dir.path())
+            .stdin(std::process::Stdio::null())
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .expect("run levelfield");
+        let started = std::time::Instant::now();
+        while child.try_wait().expect("wait for levelfield").is_none() {
+            if started.elapsed() > limit {
+                let _ = child.kill();
+                panic!("levelfield {args:?} still ran after {limit:?}: stuck");
+            }
+            std::thread::sleep(std::time::Duration::from_millis(50));
         }
+        Run::of(child.wait_with_output().expect("wait for levelfield"))
     }
 }
 

@@ -220,32 +220,6 @@ fn streaming_errors_keep_the_line_of_the_whole_file() {
     );
 }
 
-/// Runs levelfield in `env`'s folder, killed (and the test failed) if it takes over `limit`.
-fn run_within(env: &crate::Env, args: &[&str], limit: std::time::Duration) -> crate::Run {
-    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_levelfield"))
-        .args(args)
-        .current_dir(env.path(""))
-        .stdin(std::process::Stdio::null())
-        .stdout(std::process::Stdio::piped())
-        .stderr(std::process::Stdio::piped())
-        .spawn()
-        .expect("run levelfield");
-    let started = std::time::Instant::now();
-    while child.try_wait().expect("wait for levelfield").is_none() {
-        if started.elapsed() > limit {
-            let _ = child.kill();
-            panic!("levelfield {args:?} still ran after {limit:?}: stuck");
-        }
-        std::thread::sleep(std::time::Duration::from_millis(50));
-    }
-    let out = child.wait_with_output().expect("wait for levelfield");
-    crate::Run {
-        code: out.status.code().unwrap_or(-1),
-        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
-        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
-    }
-}
-
 #[test]
 fn a_batch_of_streamed_tables_runs_them_side_by_side_and_writes_what_single_runs_write() {
     // Batch jobs run on the thread pool, where a streamed table's pieces are read and written
@@ -265,8 +239,7 @@ fn a_batch_of_streamed_tables_runs_them_side_by_side_and_writes_what_single_runs
         "batch.toml",
         "[[run]]\nrecipe = \"streamed.toml\"\ninputs = \"incoming/*.csv\"\n",
     );
-    let run = run_within(
-        &env,
+    let run = env.run_within(
         &["batch", "batch.toml"],
         std::time::Duration::from_secs(120),
     );
