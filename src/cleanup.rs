@@ -2,11 +2,11 @@
 //! written to a hidden temporary file beside its destination and renamed into place when
 //! complete; streaming keeps its ranks' inputs in a temporary folder. Each is registered here
 //! while it exists, and a handler for SIGINT and SIGTERM (Ctrl-C, `kill`) removes what is
-//! registered before the process exits with code 130. The handler is installed before the first path is
-//! made, and making a path or renaming it into place holds the registry, so no moment is left
-//! where a signal finds a temporary path that the registry does not know (before this, about
-//! one `kill` in ten that landed just as the output was created left it behind). SIGKILL cannot
-//! be caught: after `kill -9` a hidden `.tmp` file may stay beside the destination (the
+//! registered before the process exits with code 130. The handler is installed before the first
+//! path is made, and making a path or renaming it into place holds the registry, so no moment
+//! is left where a signal finds a temporary path that the registry does not know (before this,
+//! about one `kill` in ten that landed just as the output was created left it behind). SIGKILL
+//! cannot be caught: after `kill -9` a hidden `.tmp` file may stay beside the destination (the
 //! destination itself is never partial).
 
 use std::path::{Path, PathBuf};

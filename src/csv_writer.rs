@@ -365,8 +365,7 @@ pub fn write_csv(
         buffers: Buffers::default(),
     };
     let format = &format;
-    let pool = &polars_core::runtime::THREAD_POOL;
-    if pool.current_thread_index().is_some() {
+    if on_the_pool() {
         // On one of the pool's threads (a batch job): a writer waiting here for the pool to
         // format would hold a thread the formatting needs, so format and write in turn.
         let mut failed = None;
@@ -389,6 +388,15 @@ pub fn write_csv(
             .try_for_each(|batch| format.write(&mut *out, batch))
     })?;
     out.flush().map_err(write_error)
+}
+
+/// Whether this thread is one of the pool's (a batch job runs its tables there). A writer that
+/// waits there for the pool to format would hold a thread the formatting needs: with every
+/// thread so held, nothing moves, so such a writer formats and writes in turn.
+pub fn on_the_pool() -> bool {
+    polars_core::runtime::THREAD_POOL
+        .current_thread_index()
+        .is_some()
 }
 
 /// What the slices of one csv are formatted with.

@@ -383,16 +383,8 @@ fn mixed_of(frame: &DataFrame, partitions: &[u32], count: usize) -> Result<Vec<b
         .column("_unit")
         .and_then(|c| c.str().cloned())
         .map_err(Error::engine("ranking"))?;
-    let mut numbers: PlHashMap<&str, u32> = PlHashMap::default();
-    let units: Vec<Option<u32>> = units
-        .iter()
-        .map(|u| {
-            u.map(|u| {
-                let next = numbers.len() as u32;
-                *numbers.entry(u).or_insert(next)
-            })
-        })
-        .collect();
+    let mut numbers: rank::Numbering<&str> = rank::Numbering::default();
+    let units: Vec<Option<u32>> = units.iter().map(|u| u.map(|u| numbers.number(u))).collect();
     let eligible: Vec<bool> = frame
         .column("_rank_eligible")
         .and_then(|c| c.bool().cloned())

@@ -132,7 +132,6 @@ fn run(
         later_notes,
         rows_before,
         ord,
-        pieces,
         sizes,
         ..
     } = read
@@ -165,17 +164,18 @@ fn run(
         order: (order.len() < all.len()).then_some(order.as_slice()),
         sizes: &sizes,
     };
-    if file_stamp(plan.input_label, &stream.path)? != stamp {
-        return Err(changed_while_read(plan.input_label));
-    }
+    // The file as the first pass found it, before the second reads it and once it has.
+    let unchanged = || match file_stamp(plan.input_label, &stream.path)? == stamp {
+        true => Ok(()),
+        false => Err(changed_while_read(plan.input_label)),
+    };
+    unchanged()?;
     let (counts, rows_out) = write.run(
         open_pieces(plan.input_label, stream, settings)?,
         output,
         staging,
     )?;
-    if file_stamp(plan.input_label, &stream.path)? != stamp {
-        return Err(changed_while_read(plan.input_label));
-    }
+    unchanged()?;
     if rows_out != rows_in {
         return Err(Error::engine("checking that no row was lost")(polars_err!(
             ComputeError: "{} rows in, {} rows out", rows_in, rows_out
@@ -188,7 +188,7 @@ fn run(
         settings,
         &first,
         Tally {
-            pieces,
+            pieces: sizes.len(),
             data_lines: rows_before,
             rows_in,
             rows_out,
@@ -214,8 +214,8 @@ struct FirstPass {
     lines_before: usize,
     rows_before: usize,
     ord: u64,
-    pieces: usize,
-    /// Each piece's bytes and rows, for the second pass to check that it reads the same.
+    /// Each piece's bytes and rows, for the second pass to check that it reads the same (and
+    /// how many pieces there are).
     sizes: Vec<PieceSize>,
     /// Later pieces' notes of rows set aside (the first piece's notes are in `first`).
     later_notes: Vec<String>,
@@ -258,7 +258,6 @@ fn read_rank_inputs(
         lines_before: 0,
         rows_before: 0,
         ord: 0,
-        pieces: 0,
         sizes: Vec::new(),
         later_notes: Vec::new(),
     };
@@ -276,12 +275,11 @@ fn read_rank_inputs(
         let first = state.first.as_ref();
         // Row ids are not kept in this pass, so every piece of the batch is read with the
         // batch's row offset (a piece's own is known only once the piece before it is read).
-        let (rows_before, ord) = (state.rows_before, state.ord);
+        let rows_before = state.rows_before;
         let prepared = pieces::in_parallel(cuts, |cut| {
             let start = PieceStart {
                 lines_before: cut.lines_before,
                 rows_before,
-                ord,
             };
             let seen = piece::digest(&cut.bytes);
             prepare_piece(plan, settings, first, cut.bytes, &start).map(|mut prepared| {
@@ -345,7 +343,6 @@ impl FirstPass {
         state.lines_before += breaks;
         state.rows_before += data_lines;
         state.ord += rows as u64;
-        state.pieces += 1;
         Ok(Ok(()))
     }
 }

@@ -46,11 +46,11 @@ impl WritePass<'_> {
             guard: self.plan.guard_formulas,
             counts: FlagCounts::default(),
             written: 0,
+            rows: 0,
         };
-        let (written, prepared) = if on_the_pool() {
-            // A batch job, on one of the pool's threads: a writer thread would format on the
-            // pool while this thread, waiting to hand it a table, holds a thread of it; with
-            // every thread so held, nothing moves. So the pieces are written in turn.
+        let (written, prepared) = if crate::csv_writer::on_the_pool() {
+            // A batch job: a writer thread would format on the pool while this thread, waiting
+            // to hand it a table, holds a thread of it. So the pieces are written in turn.
             let mut failed = None;
             let prepared = self.finish_pieces(pieces, |table| {
                 failed = writer.write(&table, &mut buffered).err();
@@ -79,7 +79,7 @@ impl WritePass<'_> {
         };
         // The writer's error first: it is about an earlier piece than any this thread read.
         written?;
-        let rows = prepared?;
+        prepared?;
         if writer.written != self.sizes.len() {
             return Err(changed_while_read(self.plan.input_label));
         }
@@ -90,44 +90,44 @@ impl WritePass<'_> {
             .into_inner()
             .map_err(|e| Error::io(output.display(), "write the output", e.into_error()))?;
         staging.file(temp, output);
-        Ok((writer.counts, rows))
+        Ok((writer.counts, writer.rows))
     }
 
     /// Reads the pieces again, several at once, finishes each with its ranks and hands its
-    /// table to `write`, in order (which says whether to go on); the rows handed.
+    /// table to `write`, in order (which says whether to go on).
     fn finish_pieces(
         &mut self,
         mut pieces: Pieces<std::fs::File>,
         mut write: impl FnMut(OutputTable) -> bool,
-    ) -> Result<usize> {
+    ) -> Result<()> {
         let mut start = PieceStart {
             lines_before: 0,
             rows_before: 0,
-            ord: 0,
         };
+        // The table rows before the piece: where its slice of the ranks starts.
+        let mut ord = 0u64;
         let label = self.plan.input_label;
         let mut piece = 0;
         loop {
             let cuts = pieces.next_cuts(label, pieces::pieces_at_once(), start.lines_before)?;
             if cuts.is_empty() {
-                return Ok(start.ord as usize);
+                return Ok(());
             }
             // Each piece's place in the file and its ranks, from what the first pass read.
             let mut jobs = Vec::with_capacity(cuts.len());
             for cut in cuts {
                 let at = piece + jobs.len();
-                let expected = match self.sizes.get(at) {
-                    Some(size) if size.bytes == cut.bytes.len() => *size,
-                    _ => return Err(changed_while_read(label)),
+                let Some(&expected) = self.sizes.get(at) else {
+                    return Err(changed_while_read(label));
                 };
-                let ranks = self.ranks.slice(start.ord, expected.rows)?;
+                let ranks = self.ranks.slice(ord, expected.rows)?;
                 let piece_start = PieceStart {
                     lines_before: cut.lines_before,
                     ..start
                 };
                 start.lines_before += cut.breaks;
                 start.rows_before += expected.data_lines;
-                start.ord += expected.rows as u64;
+                ord += expected.rows as u64;
                 jobs.push((at, cut, piece_start, ranks, expected));
             }
             let (plan, settings, first, order) = (self.plan, self.settings, self.first, self.order);
@@ -150,7 +150,7 @@ impl WritePass<'_> {
             for table in finished {
                 if !write(table?) {
                     // The writer failed: its error is the run's.
-                    return Ok(start.ord as usize);
+                    return Ok(());
                 }
                 piece += 1;
             }
@@ -158,12 +158,14 @@ impl WritePass<'_> {
     }
 }
 
-/// Writes tables into the output in order, the header with the first, and counts their flags.
+/// Writes tables into the output in order, the header with the first, and counts them, their
+/// rows and their flags.
 struct TableWriter {
     rounding: crate::format::Rounding,
     guard: bool,
     counts: FlagCounts,
     written: usize,
+    rows: usize,
 }
 
 impl TableWriter {
@@ -171,13 +173,7 @@ impl TableWriter {
         self.counts.add(table.flag_counts()?);
         report::write_csv(table, self.rounding, self.written == 0, self.guard, out)?;
         self.written += 1;
+        self.rows += table.height();
         Ok(())
     }
-}
-
-/// Whether this thread is one of the pool's (a batch job runs its tables there).
-fn on_the_pool() -> bool {
-    polars_core::runtime::THREAD_POOL
-        .current_thread_index()
-        .is_some()
 }
