@@ -26,6 +26,9 @@ use polars::prelude::*;
 pub struct AdjustOutput {
     pub table: OutputTable,
     pub summary: RunSummary,
+    /// A streamed run's table is written as it goes (`table` is empty): how many columns it
+    /// wrote of how many.
+    pub streamed_columns: Option<(usize, usize)>,
 }
 
 /// An adjust run of the input `bytes`: borrowed, or owned (`Vec<u8>`), when they are let go
@@ -58,7 +61,7 @@ fn complete(
     let mut summary = summarize(
         counts,
         &prepared.ingested.file,
-        prepared.ingested.notes.clone(),
+        prepared.ingested.summary_notes(),
         rows_in,
         table.height(),
         settings,
@@ -71,8 +74,12 @@ fn complete(
         .extend(missing_tables_warning(&prepared.missing_tables));
     summary
         .warnings
-        .splice(0..0, prepared.ingested.warnings.iter().cloned());
-    Ok(AdjustOutput { table, summary })
+        .splice(0..0, prepared.ingested.asides.warnings());
+    Ok(AdjustOutput {
+        table,
+        summary,
+        streamed_columns: None,
+    })
 }
 
 /// Each row's late flags, from the ranked frame's `_several`, `_mixed` and `rank_adjusted`.

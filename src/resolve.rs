@@ -197,22 +197,7 @@ pub fn resolve_rows(
             names: unresolved,
         });
     }
-    if !unresolved.is_empty() {
-        ingested.notes.push(format!(
-            "{} entity name(s) unresolved and kept flagged (--allow-unresolved): {}",
-            unresolved.len(),
-            unresolved
-                .iter()
-                .take(crate::error::UNRESOLVED_SHOWN)
-                .map(|u| format!("\"{}\"", u.text))
-                .collect::<Vec<_>>()
-                .join(", ")
-                + &match unresolved.len().checked_sub(crate::error::UNRESOLVED_SHOWN) {
-                    Some(more) if more > 0 => format!(" and {more} more"),
-                    _ => String::new(),
-                }
-        ));
-    }
+    ingested.asides.unresolved = unresolved.into_iter().map(|name| name.text).collect();
     Ok((columns, bases))
 }
 

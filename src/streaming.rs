@@ -20,6 +20,7 @@
 
 use crate::error::{Error, Result};
 use crate::flags::FlagCounts;
+use crate::ingest::Asides;
 use crate::output::{OutputTable, TextKind};
 use crate::pipeline::{self, PipelineSettings};
 use crate::report::{self, Format};
@@ -129,7 +130,7 @@ fn run(
         first: Some(first),
         shape: Some(columns),
         spill,
-        later_notes,
+        asides,
         rows_before,
         ord,
         sizes,
@@ -155,7 +156,6 @@ fn run(
     // The pieces again, in order, each finished with its slice of the ranks, into the output.
     let all = pipeline::output_columns(&columns.head, settings);
     let order = plan.columns.pick(&all)?;
-    let column_note = plan.columns.describe(order.len(), all.len());
     let mut write = WritePass {
         plan,
         settings,
@@ -193,13 +193,14 @@ fn run(
             rows_in,
             rows_out,
             counts,
+            asides,
         },
         &columns,
-        later_notes.into_iter().chain(column_note).collect(),
     );
     Ok(Ok(pipeline::AdjustOutput {
         table: OutputTable::plain(DataFrame::empty()),
         summary,
+        streamed_columns: Some((order.len(), all.len())),
     }))
 }
 
@@ -217,8 +218,8 @@ struct FirstPass {
     /// Each piece's bytes and rows, for the second pass to check that it reads the same (and
     /// how many pieces there are).
     sizes: Vec<PieceSize>,
-    /// Later pieces' notes of rows set aside (the first piece's notes are in `first`).
-    later_notes: Vec<String>,
+    /// What the pieces set aside, read leniently or left unresolved, added up in file order.
+    asides: Asides,
 }
 
 /// Texts numbered for the rank inputs, the same number for the same text in every piece.
@@ -259,7 +260,7 @@ fn read_rank_inputs(
         rows_before: 0,
         ord: 0,
         sizes: Vec::new(),
-        later_notes: Vec::new(),
+        asides: Asides::default(),
     };
     loop {
         // The first piece alone (it decides for the others), then several at once.
@@ -315,16 +316,10 @@ impl FirstPass {
             return Ok(Err(Restart));
         }
         let ingested = &prepared.ingested;
-        match &state.first {
-            None => state.first = Some(first_piece(ingested, settings, label)?),
-            Some(_) => state.later_notes.extend(
-                ingested
-                    .notes
-                    .iter()
-                    .filter(|n| n.starts_with("set aside"))
-                    .cloned(),
-            ),
+        if state.first.is_none() {
+            state.first = Some(first_piece(ingested, settings, label)?);
         }
+        state.asides.add(&ingested.asides);
         state.shape.get_or_insert_with(|| Columns {
             head: prepared.head_columns.clone(),
             baseline_steps: prepared.baseline_steps.clone(),
@@ -354,6 +349,8 @@ struct Tally {
     rows_in: usize,
     rows_out: usize,
     counts: FlagCounts,
+    /// What the pieces set aside, read leniently or left unresolved, added up.
+    asides: Asides,
 }
 
 /// The run summary of a streamed run: the first piece's notes with the whole file's count of
@@ -365,9 +362,9 @@ fn streamed_summary(
     first: &FirstPiece,
     tally: Tally,
     columns: &Columns,
-    more_notes: Vec<String>,
 ) -> crate::model::RunSummary {
-    let mut notes = first.notes.clone();
+    let asides = &tally.asides;
+    let mut notes = crate::ingest::summary_notes(&first.notes, first.asides_at, asides);
     let total_lines = tally.data_lines;
     if let Some(read) = notes.first_mut() {
         *read = read.replace(
@@ -375,7 +372,6 @@ fn streamed_summary(
             &format!(", {total_lines} data line(s)"),
         );
     }
-    notes.extend(more_notes);
     notes.push(format!(
         "streaming: read in {} piece(s) of about {:.2} MB; ranks computed once over the whole table",
         tally.pieces,
@@ -395,14 +391,10 @@ fn streamed_summary(
     summary
         .warnings
         .extend(pipeline::missing_tables_warning(&columns.missing_tables));
-    summary
-        .warnings
-        .splice(0..0, first.warnings.iter().cloned());
+    summary.warnings.splice(0..0, asides.warnings());
     summary
 }
 
-/// The input opened for cutting into pieces, with its delimiter (UTF-16 is refused: its
-/// pieces cannot be cut at byte boundaries found by line breaks).
 /// The columns of a prepared piece that its ranks need (its plan collected: the factors and
 /// both tracks).
 fn rank_frame(prepared: &mut pipeline::Prepared) -> Result<DataFrame> {

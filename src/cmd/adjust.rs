@@ -65,13 +65,17 @@ pub fn execute(mut plan: plan::AdjustPlan) -> Result<pipeline::AdjustOutput> {
         });
     }
     output.summary.notice = plan.output.notice.clone();
-    if plan.streaming.is_none() && plan.output.format.is_data_file() {
-        let available = output.table.width();
-        let written = plan
-            .output
-            .columns
-            .pick(&output.table.column_names())?
-            .len();
+    if plan.output.format.is_data_file() {
+        let (written, available) = match output.streamed_columns {
+            Some(streamed) => streamed,
+            None => (
+                plan.output
+                    .columns
+                    .pick(&output.table.column_names())?
+                    .len(),
+                output.table.width(),
+            ),
+        };
         if let Some(note) = plan.output.columns.describe(written, available) {
             output.summary.notes.push(note);
         }

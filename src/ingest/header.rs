@@ -21,7 +21,7 @@ pub struct FindOptions {
 }
 
 /// Records searched for the header, and records looked at below each candidate.
-pub(super) const HEADER_SEARCH: usize = 1000;
+pub const HEADER_SEARCH: usize = 1000;
 const BLOCK_WINDOW: usize = 200;
 
 /// What a cell holds, as far as finding the table is concerned.

@@ -5,6 +5,7 @@
 //! Pipeline inside: bytes → `encoding` → `table` (delimited text) → `layout` (roles, melting)
 //! → `crate::cells::number` (exact parsing). The result goes to `crate::resolve`, which adds entities.
 
+pub mod asides;
 mod body;
 mod canonical;
 pub mod delimiter;
@@ -15,6 +16,7 @@ pub mod margins;
 mod reader;
 pub mod record;
 mod rows;
+pub use asides::Asides;
 pub use canonical::{CanonicalRows, IngestOptions, RowId, TextColumn, Texts};
 pub(crate) use rows::RecordMarks;
 pub mod spreadsheet;
@@ -42,8 +44,27 @@ pub struct Ingested {
     pub data_lines: usize,
     /// The table was a statistics-office TSV whose first column joined dimension codes.
     pub dimensioned: bool,
-    /// What a user must see even with --quiet: lines set aside, likely misreadings.
-    pub warnings: Vec<String>,
+    /// What was set aside, read leniently or left unresolved (`resolve` adds the names), and
+    /// the place among `notes` where its notes go (`summary_notes`).
+    pub asides: Asides,
+    pub asides_at: usize,
+}
+
+impl Ingested {
+    /// The notes of the run summary on reading the table: `notes` with the asides' notes in
+    /// their place and the unresolved names last.
+    pub fn summary_notes(&self) -> Vec<String> {
+        summary_notes(&self.notes, self.asides_at, &self.asides)
+    }
+}
+
+/// `notes` with the notes of `asides` put in at `at` and the unresolved names last: one
+/// table's, or a streamed file's with its pieces' asides added up.
+pub fn summary_notes(notes: &[String], at: usize, asides: &Asides) -> Vec<String> {
+    let mut all = notes.to_vec();
+    all.splice(at..at, asides.reading_notes());
+    all.extend(asides.unresolved_note());
+    all
 }
 
 /// Reads a user's table. `resolver`, when given, lets the entity column be found by its
@@ -83,7 +104,9 @@ pub fn ingest(
 
     let mut notes = vec![source_note(file, &decoded, delimiter, &table)];
     notes.append(&mut sheet_notes);
-    notes.extend(reading_notes(&table));
+    notes.extend(table_notes(&table));
+    let asides_at = notes.len();
+    let asides = table.asides();
     let entity_column = table.headers[roles.entity].clone();
     notes.extend(role_notes(&table, &roles));
     if table.records.is_empty() {
@@ -134,7 +157,10 @@ pub fn ingest(
         }
     }
     let roles_used = roles_used(&table, &roles);
-    let warnings = reading_warnings(&table, &rows, options);
+    let asides = Asides {
+        semicolon_grouped: semicolon_grouped(&table, &rows, options),
+        ..asides
+    };
     Ok(Ingested {
         rows,
         file: file.to_string(),
@@ -143,7 +169,8 @@ pub fn ingest(
         has_group: roles.group.is_some() || !auto_group.is_empty(),
         data_lines,
         dimensioned: !table.dimensions.is_empty(),
-        warnings,
+        asides,
+        asides_at,
         headers: table.headers,
         delimiter,
         encoding: decoded.encoding,
@@ -413,36 +440,31 @@ fn parquet_as_csv(bytes: &[u8], file: &str) -> Result<String> {
     crate::csv_writer::render_csv(&frame, crate::format::Rounding::Full, false)
 }
 
-/// Warnings about the reading: lines set aside (never read as rows), and a semicolon table
-/// whose numbers look like decimal commas read as thousands separators.
-fn reading_warnings(
+/// The figures of a semicolon table read without --decimal-comma that hold a comma, read as
+/// a thousands separator (a likely misreading, warned of).
+fn semicolon_grouped(
     table: &table::TextTable,
     rows: &CanonicalRows,
     options: &IngestOptions,
-) -> Vec<String> {
-    let mut warnings = Vec::new();
-    if !table.skipped.is_empty() {
-        let shown: Vec<&str> = table.skipped.iter().take(3).map(String::as_str).collect();
-        warnings.push(format!(
-            "{} line(s) of the input were set aside, not read as rows: {}{}",
-            table.skipped.len(),
-            shown.join("; "),
-            if table.skipped.len() > 3 { "; ..." } else { "" }
-        ));
+) -> usize {
+    if table.delimiter != b';' || options.number_style.decimal_comma {
+        return 0;
     }
-    let grouped = (0..rows.len())
+    (0..rows.len())
         .filter(|&at| rows.value[at].is_some() && rows.value_input.get(at).contains(','))
-        .count();
-    if table.delimiter == b';' && !options.number_style.decimal_comma && grouped > 0 {
-        warnings.push(format!(
-            "the table is separated by semicolons and {grouped} figure(s) hold a comma read as a thousands separator (1,500 as 1500): if the comma is a decimal comma, pass --decimal-comma"
-        ));
-    }
-    warnings
+        .count()
 }
 
-/// What the table finder decided, for the run summary (and `levelfield refs`).
+/// What the table finder decided, for the run summary (and `levelfield refs`), with what it
+/// set aside.
 pub fn reading_notes(table: &table::TextTable) -> Vec<String> {
+    let mut notes = table_notes(table);
+    notes.extend(table.asides().reading_notes());
+    notes
+}
+
+/// The header the finder chose and how it read the header's columns.
+fn table_notes(table: &table::TextTable) -> Vec<String> {
     let mut notes = vec![format!("header: {}", table.header_reason)];
     if table.trailing_delimiter {
         notes.push(
@@ -459,19 +481,6 @@ pub fn reading_notes(table: &table::TextTable) -> Vec<String> {
         notes.push(format!(
             "statistics-office layout: the first column joins the dimensions {}",
             names.join(", ")
-        ));
-    }
-    if !table.skipped.is_empty() {
-        notes.push(format!(
-            "set aside {} line(s) that are not part of the table: {}",
-            table.skipped.len(),
-            table.skipped.join("; ")
-        ));
-    }
-    let quoted = table.records.unbalanced_count();
-    if quoted > 0 {
-        notes.push(format!(
-            "{quoted} line(s) inside an unclosed quote read as written and flagged unbalanced_quote (--lenient)"
         ));
     }
     notes

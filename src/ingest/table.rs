@@ -31,10 +31,12 @@
 
 pub use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
+use crate::ingest::asides::Asides;
 use crate::ingest::body::{breaks_in, open_at_end, Body, Place, TableEnd};
 pub use crate::ingest::delimiter::{delimiter_name, sniff_delimiter};
 pub use crate::ingest::header::FindOptions;
-use crate::ingest::header::{choose_header, Raw, HEADER_SEARCH};
+pub use crate::ingest::header::HEADER_SEARCH;
+use crate::ingest::header::{choose_header, Raw};
 pub use crate::ingest::reader::count_line_breaks;
 use crate::ingest::reader::RawReader;
 pub use crate::ingest::record::{Cells, Fields, Records, TextRecord};
@@ -47,6 +49,8 @@ pub struct TextTable {
     pub delimiter: u8,
     /// Lines set aside above the header and below the table, described for the summary.
     pub skipped: Vec<String>,
+    /// The empty lines inside the table.
+    pub empty_lines: Vec<usize>,
     /// The physical line of the header and why it was chosen.
     pub header_line: usize,
     pub header_reason: String,
@@ -56,6 +60,18 @@ pub struct TextTable {
     pub dimensions: Vec<usize>,
     /// The cells of the filled lines above the header (titles, "Data Source", "Last Updated").
     pub above: Vec<Vec<String>>,
+}
+
+impl TextTable {
+    /// What the finder set aside and read leniently (`Asides::set_aside` describes it).
+    pub fn asides(&self) -> Asides {
+        Asides {
+            lines: self.skipped.clone(),
+            empty_lines: self.empty_lines.clone(),
+            unbalanced: self.records.unbalanced_count(),
+            ..Asides::default()
+        }
+    }
 }
 
 /// The finder with no hints (tests, and tables whose columns nobody named).
@@ -151,15 +167,6 @@ pub fn find_table(
         empty_lines,
         ..
     } = body;
-    if !empty_lines.is_empty() {
-        let shown: Vec<String> = empty_lines.iter().take(10).map(|l| l.to_string()).collect();
-        skipped.push(format!(
-            "{} empty line(s) inside the table (line {}{})",
-            empty_lines.len(),
-            shown.join(", "),
-            if empty_lines.len() > 10 { ", ..." } else { "" }
-        ));
-    }
     let dimensions = match dimensions {
         Some(n) => split_dimension_names(&mut headers, n),
         None => Vec::new(),
@@ -169,6 +176,7 @@ pub fn find_table(
         records,
         delimiter,
         skipped,
+        empty_lines,
         header_line,
         header_reason,
         trailing_delimiter,
@@ -560,22 +568,19 @@ mod tests {
         assert_eq!(table.records.len(), 2);
         assert!(
             table
-                .skipped
+                .asides()
+                .set_aside()
                 .iter()
                 .any(|s| s.contains("1 empty line(s) inside the table (line 3)")),
             "{:?}",
-            table.skipped
+            table.asides()
         );
     }
 
     #[test]
     fn blank_lines_inside_and_a_quote_open_at_the_end() {
         let table = read_table("country,fee\nChile,1\n\nPeru,2\n", b',', "t.csv").unwrap();
-        assert!(
-            table.skipped.iter().any(|s| s.contains("(line 3)")),
-            "{:?}",
-            table.skipped
-        );
+        assert_eq!(table.empty_lines, vec![3]);
         let err = read_table("country,fee\nChile,1\n\"\n", b',', "t.csv")
             .unwrap_err()
             .to_string();

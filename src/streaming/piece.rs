@@ -3,7 +3,7 @@
 //! with the first piece's header, encoding and roles), and the checks that both passes read
 //! the same file. Shared by the two passes (`super`, `write`).
 
-use super::pieces::Pieces;
+use super::pieces::{AtLeast, Pieces};
 use crate::entity::Resolver;
 use crate::error::{Error, Result};
 use crate::ingest::encoding::EncodingChoice;
@@ -25,8 +25,9 @@ pub(super) struct FirstPiece {
     pub(super) header_line: String,
     pub(super) settings: PipelineSettings,
     pub(super) encoding: Option<EncodingChoice>,
+    /// The first piece's notes, and where the asides' notes go among them.
     pub(super) notes: Vec<String>,
-    pub(super) warnings: Vec<String>,
+    pub(super) asides_at: usize,
     pub(super) data_lines: usize,
 }
 
@@ -141,6 +142,7 @@ pub(super) fn open_pieces(
         delimiter,
         target: stream.chunk_bytes.max(1),
         finished: false,
+        at_least: AtLeast::first_piece(settings.ingest.header_row),
     })
 }
 
@@ -225,7 +227,7 @@ pub(super) fn first_piece(
         settings: piece_settings,
         encoding: ingested.encoding,
         notes: ingested.notes.clone(),
-        warnings: ingested.warnings.clone(),
+        asides_at: ingested.asides_at,
         data_lines: ingested.data_lines,
     })
 }

@@ -41,6 +41,28 @@ pub(super) struct Pieces<R: Read> {
     pub(super) delimiter: u8,
     pub(super) target: usize,
     pub(super) finished: bool,
+    /// What the next piece must hold at least, whatever the target: the first piece decides
+    /// the header for all, so it holds every record the header is chosen among.
+    pub(super) at_least: AtLeast,
+}
+
+/// The least a piece holds: records (lines with something on them, outside quotes, as the
+/// csv reader counts them) and physical lines.
+#[derive(Clone, Copy, Default)]
+pub(super) struct AtLeast {
+    pub(super) records: usize,
+    pub(super) lines: usize,
+}
+
+impl AtLeast {
+    /// For the first piece: the header search's records and one more (the header is chosen by
+    /// the block of figures below it), and the line `--header-row` names.
+    pub(super) fn first_piece(header_row: Option<usize>) -> AtLeast {
+        AtLeast {
+            records: crate::ingest::table::HEADER_SEARCH + 1,
+            lines: header_row.map_or(0, |row| row + 1),
+        }
+    }
 }
 
 impl<R: Read> Pieces<R> {
@@ -76,6 +98,8 @@ impl<R: Read> Pieces<R> {
         let mut field_filled = false;
         let mut filled = 0usize;
         let mut line: Vec<u8> = Vec::new();
+        let at_least = std::mem::take(&mut self.at_least);
+        let (mut records, mut lines, mut record_empty) = (0usize, 0usize, true);
         loop {
             line.clear();
             let n = self
@@ -86,7 +110,9 @@ impl<R: Read> Pieces<R> {
                 self.finished = true;
                 break;
             }
+            lines += 1;
             for &b in &line {
+                record_empty &= matches!(b, b'\n' | b'\r');
                 match b {
                     b'"' => in_quotes = !in_quotes,
                     b'\n' | b'\r' if !in_quotes => {}
@@ -102,9 +128,12 @@ impl<R: Read> Pieces<R> {
             if !in_quotes {
                 filled += field_filled as usize;
                 let record_has_cells = filled >= 2;
+                records += !record_empty as usize;
                 field_filled = false;
                 filled = 0;
-                if record_has_cells && piece.len() >= self.target {
+                record_empty = true;
+                let enough = records >= at_least.records && lines >= at_least.lines;
+                if record_has_cells && enough && piece.len() >= self.target {
                     break;
                 }
             }
@@ -118,11 +147,16 @@ mod tests {
     use super::*;
 
     fn cut(text: &str, target: usize) -> Vec<String> {
+        cut_first_at_least(text, target, AtLeast::default())
+    }
+
+    fn cut_first_at_least(text: &str, target: usize, at_least: AtLeast) -> Vec<String> {
         let mut pieces = Pieces {
             reader: BufReader::new(text.as_bytes()),
             delimiter: b',',
             target,
             finished: false,
+            at_least,
         };
         let mut out = Vec::new();
         while let Some(p) = pieces.next_piece("t.csv").unwrap() {
@@ -148,5 +182,36 @@ mod tests {
             ]
         );
         assert_eq!(cut(text, 1 << 20), vec![text.to_string()]);
+    }
+
+    #[test]
+    fn the_first_piece_holds_at_least_the_records_and_lines_asked_for() {
+        // A title with commas is a record with cells: alone it would be the first piece.
+        let text = "Fees, by country, 2020\n\ncountry,2020\n\"A\nB\",1\nC,2\nD,3\n";
+        let records = AtLeast {
+            records: 3,
+            lines: 0,
+        };
+        // Blank lines are no records; the quoted line break is one record of two lines.
+        assert_eq!(
+            cut_first_at_least(text, 1, records),
+            vec![
+                "Fees, by country, 2020\n\ncountry,2020\n\"A\nB\",1\n",
+                "C,2\n",
+                "D,3\n"
+            ]
+        );
+        let lines = AtLeast {
+            records: 0,
+            lines: 6,
+        };
+        assert_eq!(
+            cut_first_at_least(text, 1, lines),
+            vec![
+                "Fees, by country, 2020\n\ncountry,2020\n\"A\nB\",1\nC,2\n",
+                "D,3\n"
+            ]
+        );
+        assert_eq!(AtLeast::first_piece(Some(7)).lines, 8);
     }
 }

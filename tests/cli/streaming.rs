@@ -292,3 +292,102 @@ fn streaming_reads_a_table_whose_header_row_is_given() {
         "streaming output differs from the in-memory output"
     );
 }
+
+/// A run's summary without the lines that differ by design: how the file was cut, and the
+/// output's name.
+fn summary_of_the_table(stderr: &str) -> Vec<&str> {
+    stderr
+        .lines()
+        .filter(|l| !l.starts_with("  streaming:") && !l.starts_with("  wrote "))
+        .collect()
+}
+
+#[test]
+fn the_summary_of_a_streamed_run_counts_what_every_piece_set_aside() {
+    // The summary was the first piece's: names left unresolved, lines set aside and empty
+    // lines inside the table in later pieces were missing or listed apart; a semicolon table's
+    // grouped figures counted in the first piece only.
+    let env = setup();
+    let refs = env.data("country-refs");
+    let body = long_table(30_000);
+    let mut lines: Vec<String> = body.lines().map(str::to_string).collect();
+    for (at, name) in [(3, "Atlantis"), (20_000, "Lemuria"), (25_000, "Atlantis")] {
+        lines[at] = lines[at].replacen(lines[at].split(',').next().unwrap(), name, 1);
+    }
+    for at in [5_000, 12_000, 29_000] {
+        lines.insert(at, String::new());
+    }
+    let titled = format!(
+        "Fees by country, invented for this test\n{}\n",
+        lines.join("\n")
+    );
+    // A quote opened near the end and never closed: the lines after it are read as written.
+    let table_only = body.split("\n\n").next().unwrap();
+    let quoted =
+        format!("{table_only}\nKOR,2020,item 09000,KRW,\"12\nKOR,2021,item 09000,KRW,13\n");
+    // The same table separated by semicolons, a figure in ten written 1,234 (one thousand
+    // two hundred and thirty-four, read with the comma as a thousands separator).
+    let mut semicolon = String::from("country;year;item;currency;value\n");
+    let mut reader = csv::Reader::from_reader(table_only.as_bytes());
+    for (i, record) in reader.records().enumerate() {
+        let mut cells: Vec<String> = record.unwrap().iter().map(str::to_string).collect();
+        if i % 10 == 0 || cells[4].contains(',') {
+            cells[4] = "1,234".into();
+        }
+        semicolon.push_str(&format!("{}\n", cells.join(";")));
+    }
+    let cases = [
+        (
+            "titled.csv",
+            titled,
+            vec!["--allow-unresolved", "--lenient"],
+        ),
+        ("quoted.csv", quoted, vec!["--lenient"]),
+        ("semicolon.csv", semicolon, vec!["--lenient"]),
+    ];
+    for (name, text, extra) in cases {
+        let input = env.write(name, &text);
+        let mut args = vec![
+            "adjust",
+            &input,
+            "--refs",
+            &refs,
+            "--steps",
+            "ppp",
+            "--group",
+            "item",
+            "--currency",
+            "currency",
+        ];
+        args.extend(extra);
+        let mut whole = args.clone();
+        whole.extend(["-o", "whole.csv", "--max-input-mb", "64"]);
+        let whole = env.run(&whole);
+        assert_eq!(whole.code, 0, "{name}: {}", whole.stderr);
+        args.extend(["-o", "pieces.csv", "--streaming", "--chunk-mb", "0.05"]);
+        let pieces = env.run(&args);
+        assert_eq!(pieces.code, 0, "{name}: {}", pieces.stderr);
+        assert!(pieces.stderr.contains("piece(s)"), "{}", pieces.stderr);
+        assert!(
+            !pieces.stderr.contains("in 1 piece(s)"),
+            "{}",
+            pieces.stderr
+        );
+        assert_eq!(
+            summary_of_the_table(&whole.stderr),
+            summary_of_the_table(&pieces.stderr),
+            "{name}"
+        );
+        let expected = match name {
+            "titled.csv" => "2 entity name(s) unresolved and kept flagged (--allow-unresolved): \"Atlantis\", \"Lemuria\"",
+            "quoted.csv" => "2 line(s) inside an unclosed quote",
+            _ => "figure(s) hold a comma read as a thousands separator",
+        };
+        assert!(whole.stderr.contains(expected), "{name}: {}", whole.stderr);
+        assert!(
+            std::fs::read(env.path("whole.csv")).unwrap()
+                == std::fs::read(env.path("pieces.csv")).unwrap(),
+            "{name}: streaming output differs"
+        );
+    }
+}
