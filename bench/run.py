@@ -1,7 +1,8 @@
 """Times, on the same files and in one run, side by side:
   1. the I/O floor: polars reads the CSV and writes it back unchanged;
   2. levelfield adjust (deflate, ppp, per-capita; ranks per item and year), in memory;
-  3. the same with --streaming, and with --write-columns core (the data contract's columns);
+  3. the same with --streaming, with --write-columns core (the data contract's columns), and
+     with both;
   4. the job written by hand in pandas (bench/hand_pandas.py);
   5. the job written by hand in polars, Python (bench/hand_polars.py: 13 columns);
   6. the same job by hand in polars writing levelfield's 32 default columns
@@ -18,8 +19,8 @@ for the writing back of an earlier run's output.
 
 Data are generated (SYNTHETIC) into $LEVELFIELD_BENCH_DATA (default /var/tmp/levelfield-bench).
 Every run is repeated in $LEVELFIELD_BENCH_ROUNDS rounds (default 3) and its medians shown;
-$LEVELFIELD_BENCH_SKIP leaves runs out by key (floor, levelfield, streaming, core, pandas,
-polars, polars_full).
+$LEVELFIELD_BENCH_SKIP leaves runs out by key (floor, levelfield, streaming, core,
+streaming_core, pandas, polars, polars_full).
 """
 
 import filecmp
@@ -107,6 +108,11 @@ def ratios(results):
         ("levelfield", "polars_full", "in memory / polars script writing the same 32 columns"),
         ("levelfield", "floor", "in memory / I/O floor"),
         ("streaming", "floor", "--streaming / I/O floor"),
+        ("streaming_core", "floor", "--streaming --write-columns core / I/O floor"),
+        ("polars", "floor", "polars script (13 columns) / I/O floor"),
+        ("polars_full", "floor", "polars script writing the same 32 columns / I/O floor"),
+        ("streaming", "polars_full", "--streaming / polars script writing the same 32 columns"),
+        ("streaming_core", "polars", "--streaming --write-columns core / polars script (13 columns)"),
         ("levelfield", "pandas", "in memory / pandas script"),
     ]
     for a, b, label in pairs:
@@ -131,6 +137,7 @@ def main():
             ("levelfield adjust", "levelfield", levelfield(data, f"{data}/out-levelfield.csv")),
             ("levelfield adjust --streaming", "streaming", levelfield(data, f"{data}/out-streaming.csv", "--streaming")),
             ("levelfield adjust --write-columns core", "core", levelfield(data, f"{data}/out-core.csv", "--write-columns", "core")),
+            ("levelfield adjust --streaming --write-columns core", "streaming_core", levelfield(data, f"{data}/out-streaming_core.csv", "--streaming", "--write-columns", "core")),
             ("hand-written pandas", "pandas", [PY, f"{HERE}/hand_pandas.py", data, f"{data}/out-pandas.csv"]),
             ("hand-written polars (Python)", "polars", [PY, f"{HERE}/hand_polars.py", data, f"{data}/out-polars.csv"]),
             ("hand-written polars, levelfield's 32 columns", "polars_full", [PY, f"{HERE}/hand_polars_full.py", data, f"{data}/out-polars_full.csv"]),
@@ -161,9 +168,13 @@ def main():
             if "levelfield" in results and key in results:
                 matched, rel, ranks = check_agreement(f"{data}/out-levelfield.csv", f"{data}/out-{key}.csv")
                 print(f"- agreement with the {label}: {matched:,} rows matched, max relative difference of value_adjusted {rel:.1e}, {ranks} rank(s) differ")
-        if "levelfield" in results and "streaming" in results:
-            same = filecmp.cmp(f"{data}/out-levelfield.csv", f"{data}/out-streaming.csv", shallow=False)
-            print(f"- --streaming output byte-identical to the in-memory output: {same}")
+        for whole, streamed, label in [
+            ("levelfield", "streaming", ""),
+            ("core", "streaming_core", " (--write-columns core)"),
+        ]:
+            if whole in results and streamed in results:
+                same = filecmp.cmp(f"{data}/out-{whole}.csv", f"{data}/out-{streamed}.csv", shallow=False)
+                print(f"- --streaming output byte-identical to the in-memory output{label}: {same}")
         print()
     small = f"{DATA}/200"
     if not os.path.exists(f"{small}/input.csv"):

@@ -69,12 +69,11 @@ fn complete(
         prepared.deflator_used,
         references,
     );
-    summary
-        .warnings
-        .extend(missing_tables_warning(&prepared.missing_tables));
-    summary
-        .warnings
-        .splice(0..0, prepared.ingested.asides.warnings());
+    add_warnings(
+        &mut summary,
+        prepared.ingested.asides.warnings(),
+        &prepared.missing_tables,
+    );
     Ok(AdjustOutput {
         table,
         summary,
@@ -433,7 +432,20 @@ fn cautions(settings: &PipelineSettings) -> Vec<String> {
 }
 
 /// The warning of a run whose catalog lacks a table only the baseline needs.
-pub(crate) fn missing_tables_warning(kinds: &[crate::reference::Kind]) -> Option<String> {
+/// The warnings of a run summary besides its own: the reading's first (lines set aside,
+/// likely misreadings), a missing baseline table's last.
+pub(crate) fn add_warnings(
+    summary: &mut RunSummary,
+    reading: Vec<String>,
+    missing_tables: &[crate::reference::Kind],
+) {
+    summary
+        .warnings
+        .extend(missing_tables_warning(missing_tables));
+    summary.warnings.splice(0..0, reading);
+}
+
+fn missing_tables_warning(kinds: &[crate::reference::Kind]) -> Option<String> {
     if kinds.is_empty() {
         return None;
     }

@@ -388,10 +388,7 @@ fn streamed_summary(
         columns.deflator_used,
         plan.references,
     );
-    summary
-        .warnings
-        .extend(pipeline::missing_tables_warning(&columns.missing_tables));
-    summary.warnings.splice(0..0, asides.warnings());
+    pipeline::add_warnings(&mut summary, asides.warnings(), &columns.missing_tables);
     summary
 }
 
