@@ -143,20 +143,60 @@ pub(crate) fn prepare(
     resolver: &Resolver,
     references: Option<&References>,
 ) -> Result<Prepared> {
+    let resolved = read_and_resolve(bytes, input_label, settings, resolver, false)?;
+    prepare_resolved(resolved, settings, references)
+}
+
+/// The table read and its entities resolved: the part of `prepare` whose errors a reading of
+/// the whole file gives first (a fault in the table, then the names that match nothing).
+pub(crate) struct Resolved {
+    pub ingested: ingest::Ingested,
+    entities: resolve::EntityColumns,
+    bases: Vec<resolve::InputBasis>,
+}
+
+/// Reads the table and resolves its entities. With `defer_unresolved` names that match
+/// nothing are no error here: they are in `ingested.asides.unresolved` (a `--streaming`
+/// piece, whose names are told once every piece is read).
+pub(crate) fn read_and_resolve(
+    bytes: std::borrow::Cow<'_, [u8]>,
+    input_label: &str,
+    settings: &PipelineSettings,
+    resolver: &Resolver,
+    defer_unresolved: bool,
+) -> Result<Resolved> {
     let mut ingested = ingest::ingest(&bytes, input_label, &settings.ingest, Some(resolver))?;
     // Bytes the run owns are let go once read (at 10M rows, 260 MB of the peak).
     drop(bytes);
-    let base_currency = settings.step_settings.base_currency.clone();
     let (entities, bases) = resolve::resolve_rows(
         &mut ingested,
         resolver,
         &ResolveOptions {
-            allow_unresolved: settings.allow_unresolved,
+            allow_unresolved: settings.allow_unresolved || defer_unresolved,
             rank_aggregates: settings.rank_aggregates,
-            base_currency: &base_currency,
+            base_currency: &settings.step_settings.base_currency,
         },
     )?;
     crate::trace::phase("entities resolved");
+    Ok(Resolved {
+        ingested,
+        entities,
+        bases,
+    })
+}
+
+/// The rest of `prepare`: the canonical frame, the factors and both tracks.
+pub(crate) fn prepare_resolved(
+    resolved: Resolved,
+    settings: &PipelineSettings,
+    references: Option<&References>,
+) -> Result<Prepared> {
+    let Resolved {
+        mut ingested,
+        entities,
+        bases,
+    } = resolved;
+    let base_currency = settings.step_settings.base_currency.clone();
     let check_currency = settings.converts_currency();
     let whole_table_in_base =
         settings.ingest.currency_code.as_deref() == Some(base_currency.as_str());

@@ -186,19 +186,25 @@ pub fn resolve_rows(
         }
     }
     if !unresolved.is_empty() && !options.allow_unresolved {
-        // Suggestions for the names the error shows, searched only now.
-        for name in unresolved.iter_mut().take(crate::error::UNRESOLVED_SHOWN) {
-            if let Resolution::Unresolved { suggestions } = resolver.resolve(&name.text) {
-                name.suggestions = suggestions;
-            }
-        }
-        return Err(Error::Unresolved {
-            file: ingested.file.clone(),
-            names: unresolved,
-        });
+        return Err(unresolved_error(&ingested.file, unresolved, resolver));
     }
-    ingested.asides.unresolved = unresolved.into_iter().map(|name| name.text).collect();
+    ingested.asides.unresolved = unresolved;
     Ok((columns, bases))
+}
+
+/// The error for names that match nothing (`names` in the order they first appear, with their
+/// lines), with suggestions for those the message shows: one table's, or a streamed file's
+/// pieces' added up (`ingest::Asides::add`).
+pub fn unresolved_error(file: &str, mut names: Vec<UnresolvedName>, resolver: &Resolver) -> Error {
+    for name in names.iter_mut().take(crate::error::UNRESOLVED_SHOWN) {
+        if let Resolution::Unresolved { suggestions } = resolver.resolve(&name.text) {
+            name.suggestions = suggestions;
+        }
+    }
+    Error::Unresolved {
+        file: file.to_string(),
+        names,
+    }
 }
 
 /// A stated currency equal to the entity's own is local; equal to the base currency is base;

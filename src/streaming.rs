@@ -33,8 +33,8 @@ mod pieces;
 mod ranks;
 mod write;
 use piece::{
-    changed_while_read, file_stamp, first_piece, open_pieces, prepare_piece, FirstPiece, PieceSize,
-    PieceStart,
+    changed_while_read, file_stamp, first_piece, open_pieces, prepare_piece, FirstPiece, PieceRead,
+    PieceSize, PieceStart,
 };
 pub use piece::{StreamRun, StreamingPlan};
 use pieces::Pieces;
@@ -204,6 +204,14 @@ fn run(
     }))
 }
 
+/// A piece as the first pass read it: prepared, with the columns its ranks need collected
+/// (`rank_frame`), or not prepared (`PieceRead`).
+enum FirstRead {
+    Ranked(Box<pipeline::Prepared>, Result<DataFrame>),
+    Unresolved(Box<crate::ingest::Ingested>),
+    FailedLate(Error),
+}
+
 /// What the first pass over the pieces leaves: the rank inputs of every row, spilled by
 /// bucket, and what the first piece decided.
 struct FirstPass {
@@ -277,23 +285,54 @@ fn read_rank_inputs(
         // Row ids are not kept in this pass, so every piece of the batch is read with the
         // batch's row offset (a piece's own is known only once the piece before it is read).
         let rows_before = state.rows_before;
-        let prepared = pieces::in_parallel(cuts, |cut| {
+        let read = pieces::in_parallel(cuts, |cut| {
             let start = PieceStart {
                 lines_before: cut.lines_before,
                 rows_before,
             };
             let seen = piece::digest(&cut.bytes);
-            prepare_piece(plan, settings, first, cut.bytes, &start).map(|mut prepared| {
-                let frame = rank_frame(&mut prepared);
-                (prepared, frame, seen)
+            prepare_piece(plan, settings, first, cut.bytes, &start).map(|read| {
+                let read = match read {
+                    PieceRead::Prepared(mut prepared) => {
+                        let frame = rank_frame(&mut prepared);
+                        FirstRead::Ranked(prepared, frame)
+                    }
+                    PieceRead::Unresolved(ingested) => FirstRead::Unresolved(ingested),
+                    PieceRead::FailedLate(error) => FirstRead::FailedLate(error),
+                };
+                (read, seen)
             })
         });
-        for (prepared, breaks) in prepared.into_iter().zip(breaks) {
-            let (prepared, frame, seen) = prepared?;
-            if let Err(restart) = state.take(prepared, frame, seen, breaks, plan, settings)? {
-                return Ok(Err(restart));
+        for (read, breaks) in read.into_iter().zip(breaks) {
+            // A fault in the table is the run's error: no piece before it had one.
+            let (read, seen) = read?;
+            let names_pending = !state.asides.unresolved.is_empty() && !settings.allow_unresolved;
+            match read {
+                FirstRead::Unresolved(ingested) => {
+                    if state.first.is_none() {
+                        state.first = Some(first_piece(&ingested, settings, label)?);
+                    }
+                    state.asides.add(&ingested.asides);
+                }
+                // After a name that matches nothing, pieces are read for faults and names only.
+                _ if names_pending => {}
+                FirstRead::FailedLate(error) => return Err(error),
+                FirstRead::Ranked(prepared, frame) => {
+                    if let Err(restart) = state.take(*prepared, frame, seen, plan, settings)? {
+                        return Ok(Err(restart));
+                    }
+                }
             }
+            state.lines_before += breaks;
         }
+    }
+    if !state.asides.unresolved.is_empty() && !settings.allow_unresolved {
+        let names = std::mem::take(&mut state.asides.unresolved);
+        return Err(crate::resolve::unresolved_error(
+            label,
+            names,
+            plan.resolver,
+        ));
     }
     Ok(Ok(state))
 }
@@ -307,7 +346,6 @@ impl FirstPass {
         prepared: pipeline::Prepared,
         frame: Result<DataFrame>,
         seen: (usize, u64),
-        breaks: usize,
         plan: &StreamRun<'_>,
         settings: &PipelineSettings,
     ) -> Result<std::result::Result<(), Restart>> {
@@ -335,7 +373,6 @@ impl FirstPass {
             state.ord,
             &mut state.spill,
         )?;
-        state.lines_before += breaks;
         state.rows_before += data_lines;
         state.ord += rows as u64;
         Ok(Ok(()))

@@ -3,7 +3,8 @@
 //! streamed run adds them up over its pieces and words them as the whole file's, with the same
 //! words as an in-memory run.
 
-use std::collections::HashSet;
+use crate::error::UnresolvedName;
+use std::collections::HashMap;
 
 /// How many of the set-aside lines a warning quotes.
 const WARNING_SHOWN: usize = 3;
@@ -11,7 +12,7 @@ const WARNING_SHOWN: usize = 3;
 const EMPTY_LINES_SHOWN: usize = 10;
 
 /// The facts of one table, or of the pieces of one file added up.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, Default)]
 pub struct Asides {
     /// The lines set aside above the header and below the table, described, in file order.
     pub lines: Vec<String>,
@@ -22,9 +23,10 @@ pub struct Asides {
     /// Figures holding a comma read as a thousands separator in a semicolon table read without
     /// `--decimal-comma`.
     pub semicolon_grouped: usize,
-    /// Entity names unresolved and kept flagged (`--allow-unresolved`), each once, in the
-    /// order they first appear.
-    pub unresolved: Vec<String>,
+    /// Entity names that match nothing, each once, in the order they first appear, with their
+    /// lines: kept flagged with `--allow-unresolved`, else the error of a streamed run once
+    /// every piece is read (`resolve::unresolved_error`).
+    pub unresolved: Vec<UnresolvedName>,
 }
 
 impl Asides {
@@ -34,14 +36,18 @@ impl Asides {
         self.empty_lines.extend(&later.empty_lines);
         self.unbalanced += later.unbalanced;
         self.semicolon_grouped += later.semicolon_grouped;
-        let known: HashSet<&str> = self.unresolved.iter().map(String::as_str).collect();
-        let new: Vec<String> = later
-            .unresolved
-            .iter()
-            .filter(|name| !known.contains(name.as_str()))
-            .cloned()
+        let mut known: HashMap<String, usize> = (self.unresolved.iter().enumerate())
+            .map(|(at, name)| (name.text.clone(), at))
             .collect();
-        self.unresolved.extend(new);
+        for name in &later.unresolved {
+            match known.get(&name.text) {
+                Some(&at) => self.unresolved[at].lines.extend(&name.lines),
+                None => {
+                    known.insert(name.text.clone(), self.unresolved.len());
+                    self.unresolved.push(name.clone());
+                }
+            }
+        }
     }
 
     /// Everything set aside, described: the lines, then the empty lines inside as one entry.
@@ -98,7 +104,7 @@ impl Asides {
         let quoted: Vec<String> = names
             .iter()
             .take(shown)
-            .map(|n| format!("\"{n}\""))
+            .map(|n| format!("\"{}\"", n.text))
             .collect();
         let more = match names.len().checked_sub(shown) {
             Some(more) if more > 0 => format!(" and {more} more"),
@@ -146,12 +152,20 @@ impl Asides {
 mod tests {
     use super::*;
 
+    fn name(text: &str, lines: &[usize]) -> UnresolvedName {
+        UnresolvedName {
+            text: text.into(),
+            lines: lines.to_vec(),
+            suggestions: Vec::new(),
+        }
+    }
+
     #[test]
     fn pieces_added_up_are_worded_as_one_table() {
         let mut first = Asides {
             lines: vec!["line 1 above the header: \"Fees\"".into()],
             empty_lines: vec![4],
-            unresolved: vec!["Atlantis".into()],
+            unresolved: vec![name("Atlantis", &[5])],
             ..Default::default()
         };
         let later = Asides {
@@ -159,10 +173,13 @@ mod tests {
             empty_lines: (50..61).collect(),
             unbalanced: 2,
             semicolon_grouped: 3,
-            unresolved: vec!["Lemuria".into(), "Atlantis".into()],
+            unresolved: vec![name("Lemuria", &[70]), name("Atlantis", &[80, 81])],
         };
         first.add(&later);
-        assert_eq!(first.unresolved, vec!["Atlantis", "Lemuria"]);
+        assert_eq!(
+            first.unresolved,
+            vec![name("Atlantis", &[5, 80, 81]), name("Lemuria", &[70])]
+        );
         assert_eq!(
             first.reading_notes(),
             vec![

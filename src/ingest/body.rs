@@ -7,7 +7,7 @@ use crate::cells::words::shorten;
 use crate::error::{Error, Location, Result};
 use crate::ingest::delimiter::delimiter_name;
 use crate::ingest::header::{classify, CellClass, Raw, Spot};
-use crate::ingest::record::{Fields, Records};
+use crate::ingest::record::{Fields, Records, TooLarge};
 
 /// Where a record below the header goes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -61,6 +61,12 @@ impl TableEnd {
         std::mem::take(&mut self.held)
     }
 
+    /// Whether nothing is held back and no footnote block has begun: the next record is
+    /// placed as by a table end that saw none of these records.
+    pub(super) fn is_clear(&self) -> bool {
+        self.held.is_empty() && self.below.is_empty() && !self.in_footnotes
+    }
+
     /// The records below the table, in order.
     pub(super) fn finish(mut self) -> Vec<Raw> {
         self.below.append(&mut self.held);
@@ -83,6 +89,8 @@ pub(super) struct Body<'a> {
     header_key: Vec<String>,
     /// The line the next record starts on when no blank line comes between.
     expected: usize,
+    /// The line of the first record taken.
+    first_line: Option<usize>,
     pub(super) empty_lines: Vec<usize>,
     /// The number of dimension codes each record's first cell joins (a statistics office's
     /// TSV), split into that many cells as the record is kept.
@@ -117,6 +125,7 @@ impl<'a> Body<'a> {
             lenient,
             header_key: headers.iter().map(|h| h.to_lowercase()).collect(),
             expected,
+            first_line: None,
             empty_lines: Vec::new(),
             dimensions,
             dimension_error: None,
@@ -129,6 +138,7 @@ impl<'a> Body<'a> {
     pub(super) fn take(&mut self, spot: Spot, record: &impl Fields) -> Result<()> {
         let width = self.headers.len();
         let plain = record.plain(self.delimiter);
+        self.first_line.get_or_insert(spot.line);
         self.empty_lines.extend(self.expected..spot.line);
         self.expected = spot.line + 1 + if plain { 0 } else { breaks_in(record) };
         if record.filled() == 0 {
@@ -173,6 +183,54 @@ impl<'a> Body<'a> {
             return Err(ragged(self.file, spot.line, len, width, self.delimiter));
         }
         self.keep(spot.line, record.fields().take(len), false)
+    }
+
+    /// Whether each record's first cell is split into this many dimension codes.
+    pub(super) fn dimensions_split(&self) -> Option<usize> {
+        self.dimensions
+    }
+
+    /// A body with no records that reads as this one does: the first of a table read in
+    /// stretches expects this one's next line, a later one no line (`append`).
+    pub(super) fn like_this(&self, first: bool) -> Body<'a> {
+        let mut body = Body::new(
+            self.text,
+            self.file,
+            self.delimiter,
+            self.headers,
+            self.header_line,
+            self.lenient,
+            self.expected,
+            self.dimensions,
+        );
+        if !first {
+            body.expected = usize::MAX;
+        }
+        body
+    }
+
+    /// Takes the records, empty lines and next line of `read`, a body `like_this` that read
+    /// the table (its dimension fault stays this body's).
+    pub(super) fn take_records_of(&mut self, read: Body<'a>) {
+        self.records = read.records;
+        self.empty_lines = read.empty_lines;
+        self.expected = read.expected;
+        self.first_line = read.first_line;
+    }
+
+    /// Adds the records that `later` took: a body that read the records right after this
+    /// one's, made with no line expected (`usize::MAX`), so the empty lines between the two
+    /// are counted here. Refused when a column would pass 4 GiB.
+    pub(super) fn append(&mut self, later: Body) -> std::result::Result<(), TooLarge> {
+        let Some(first) = later.first_line else {
+            return Ok(());
+        };
+        self.records.append(&later.records)?;
+        self.empty_lines.extend(self.expected..first);
+        self.empty_lines.extend(later.empty_lines);
+        self.expected = later.expected;
+        self.first_line.get_or_insert(first);
+        Ok(())
     }
 
     /// Puts a record's cells into the columns, its first cell split into its dimension codes

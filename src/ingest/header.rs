@@ -18,6 +18,9 @@ pub struct FindOptions {
     pub lenient: bool,
     /// A piece of a larger file (`--streaming`): lines before this piece.
     pub line_offset: usize,
+    /// Read the table's records in one go, never in stretches on several threads (the
+    /// reading that the stretches are checked against).
+    pub in_one_go: bool,
 }
 
 /// Records searched for the header, and records looked at below each candidate.

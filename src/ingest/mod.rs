@@ -16,6 +16,7 @@ pub mod margins;
 mod reader;
 pub mod record;
 mod rows;
+mod stretches;
 pub use asides::Asides;
 pub use canonical::{CanonicalRows, IngestOptions, RowId, TextColumn, Texts};
 pub(crate) use rows::RecordMarks;
@@ -96,6 +97,7 @@ pub fn ingest(
             header_line: options.header_row,
             lenient: options.lenient,
             line_offset: options.line_offset,
+            in_one_go: false,
         },
     )?;
     crate::trace::phase("table found");

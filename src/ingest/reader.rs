@@ -66,7 +66,7 @@ impl<'t> RawReader<'t> {
             .has_headers(false)
             .flexible(true)
             .from_reader(&text.as_bytes()[from..]);
-        let mut lines = LineCounter::new(text);
+        let mut lines = LineCounter::at(text, from);
         lines.line += line_offset;
         RawReader {
             text,
@@ -145,11 +145,23 @@ pub(super) struct LineCounter<'a> {
 }
 
 impl<'a> LineCounter<'a> {
-    pub(super) fn new(text: &'a str) -> Self {
+    #[cfg(test)]
+    fn new(text: &'a str) -> Self {
+        LineCounter::at(text, 0)
+    }
+
+    /// A counter whose next count starts at byte `from`, with the breaks before it counted.
+    pub(super) fn at(text: &'a str, from: usize) -> Self {
+        let bytes = text.as_bytes();
+        let from = from.min(bytes.len());
+        // A `\r` just before `from` is one break with a `\n` at `from`, counted there.
+        let breaks = memchr::memchr2_iter(b'\n', b'\r', &bytes[..from])
+            .filter(|&i| bytes[i] == b'\n' || bytes.get(i + 1) != Some(&b'\n'))
+            .count();
         LineCounter {
-            bytes: text.as_bytes(),
-            at: 0,
-            line: 1,
+            bytes,
+            at: from,
+            line: 1 + breaks,
         }
     }
 
@@ -190,6 +202,16 @@ mod tests {
             assert_eq!(count_line_breaks(text.as_bytes()), breaks, "{text:?}");
             let mut lines = LineCounter::new(text);
             assert_eq!(lines.line_of(text.len()) - 1, breaks, "{text:?}");
+            // A counter started anywhere counts every later place as one started at 0.
+            for from in 0..=text.len() {
+                for place in from..=text.len() {
+                    assert_eq!(
+                        LineCounter::at(text, from).line_of(place),
+                        LineCounter::new(text).line_of(place),
+                        "{text:?} from {from} at {place}"
+                    );
+                }
+            }
         }
     }
 }

@@ -112,6 +112,18 @@ impl Records {
         Ok(())
     }
 
+    /// Adds every record of `other` (of the same width) after these.
+    pub fn append(&mut self, other: &Records) -> Result<(), TooLarge> {
+        for (column, more) in self.columns.iter_mut().zip(&other.columns) {
+            column.append(more)?;
+        }
+        let before = self.lines.len();
+        self.unbalanced
+            .extend(other.unbalanced.iter().map(|row| before + row));
+        self.lines.extend(&other.lines);
+        Ok(())
+    }
+
     pub fn get(&self, row: usize) -> TextRecord<'_> {
         TextRecord {
             line: self.lines[row] as usize,

@@ -40,6 +40,7 @@ use crate::ingest::header::{choose_header, Raw};
 pub use crate::ingest::reader::count_line_breaks;
 use crate::ingest::reader::RawReader;
 pub use crate::ingest::record::{Cells, Fields, Records, TextRecord};
+use crate::ingest::stretches::{self, Stretch};
 
 /// A delimited table as text cells, with the line each record starts on.
 #[derive(Debug, Clone)]
@@ -291,22 +292,73 @@ impl Reading<'_> {
     /// the csv reader cannot read, then a quote still open at the end of the file, then the
     /// first record of the table that fails its checks, then a statistics office's dimension
     /// codes (`Body::dimension_error`). So after a record fails, the rest is read only to find
-    /// the last record.
-    fn body(&self, header: &Raw, body: &mut Body) -> Result<Vec<Raw>> {
-        let mut end = TableEnd::default();
-        let mut reader = self.records(header.end);
-        let mut last = (header.start, header.line);
-        let mut failed: Option<Error> = None;
+    /// the last record. A large table is read in stretches on the pool's threads
+    /// (`stretches`), and read again in one go whenever the stretches cannot give exactly
+    /// what one reading gives.
+    fn body<'b>(&self, header: &Raw, body: &mut Body<'b>) -> Result<Vec<Raw>> {
+        let parallel = !self.options.in_one_go && body.dimensions_split().is_none();
+        let joined = parallel
+            .then(|| {
+                stretches::read_joined(
+                    self.text,
+                    header.end,
+                    |first| body.like_this(first),
+                    |from, until, stretch_body, end| {
+                        self.stretch(from, until, stretch_body, end, false)
+                    },
+                )
+            })
+            .flatten();
+        let (end, stretch) = match joined {
+            Some(joined) => {
+                body.take_records_of(joined.body);
+                (joined.end, joined.stretch)
+            }
+            None => {
+                let mut end = TableEnd::default();
+                let stretch = self.stretch(header.end, usize::MAX, body, &mut end, true)?;
+                (end, stretch)
+            }
+        };
+        let (start, line) = stretch.last.unwrap_or((header.start, header.line));
+        open_at_end(self.text, start, line, self.file, self.options.lenient)?;
+        match (stretch.failed, body.dimension_error.take()) {
+            (Some(error), _) | (None, Some(error)) => Err(error),
+            (None, None) => Ok(end.finish()),
+        }
+    }
+
+    /// Reads the records from byte `from` (a record's start) into `body`, until one starts at
+    /// or after `until`. After a record fails, the rest is read only to find the last record
+    /// (`past_failure`), or not at all.
+    fn stretch<'b>(
+        &self,
+        from: usize,
+        until: usize,
+        body: &mut Body<'b>,
+        end: &mut TableEnd,
+        past_failure: bool,
+    ) -> Result<Stretch> {
+        let mut reader = self.records(from);
+        let mut stretch = Stretch::default();
         while let Some(raw) = reader.next()? {
-            last = (raw.start, raw.line);
-            if failed.is_some() {
-                continue;
+            if raw.start >= until {
+                stretch.next = Some(raw.start);
+                break;
+            }
+            stretch.first.get_or_insert(raw.start);
+            stretch.last = Some((raw.start, raw.line));
+            if stretch.failed.is_some() {
+                match past_failure {
+                    true => continue,
+                    false => break,
+                }
             }
             let place = end.place(raw.record, self.delimiter);
             if place != Place::Table {
                 match raw.kept() {
                     Ok(kept) => end.keep(kept, place),
-                    Err(e) => failed = Some(e.error(self.file)),
+                    Err(e) => stretch.failed = Some(e.error(self.file)),
                 }
                 continue;
             }
@@ -315,13 +367,9 @@ impl Reading<'_> {
                 .iter()
                 .try_for_each(|held| body.take(held.spot(), &held.record))
                 .and_then(|()| body.take(raw.spot(), raw.record));
-            failed = taken.err();
+            stretch.failed = taken.err();
         }
-        open_at_end(self.text, last.0, last.1, self.file, self.options.lenient)?;
-        match (failed, body.dimension_error.take()) {
-            (Some(error), _) | (None, Some(error)) => Err(error),
-            (None, None) => Ok(end.finish()),
-        }
+        Ok(stretch)
     }
 }
 

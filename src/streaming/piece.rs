@@ -43,6 +43,35 @@ pub struct StreamRun<'a> {
     pub columns: &'a crate::model::ColumnSet,
 }
 
+/// A piece as it was read.
+pub(super) enum PieceRead {
+    /// Prepared like an in-memory table.
+    Prepared(Box<pipeline::Prepared>),
+    /// Read, with names that match nothing (and no `--allow-unresolved`), and prepared no
+    /// further: a whole-file reading tells every such name after every fault in the table
+    /// and before any later error, so the run's error waits until every piece is read.
+    Unresolved(Box<crate::ingest::Ingested>),
+    /// Failed after its entities were resolved: the run's error unless a piece before it has
+    /// names that match nothing.
+    FailedLate(Error),
+}
+
+impl PieceRead {
+    /// The piece prepared; a piece read once the first pass has found no unresolved name
+    /// (the second pass) has none.
+    pub(super) fn prepared(self) -> Result<pipeline::Prepared> {
+        match self {
+            PieceRead::Prepared(prepared) => Ok(*prepared),
+            PieceRead::FailedLate(error) => Err(error),
+            PieceRead::Unresolved(_) => Err(Error::engine("reading a piece again")(
+                polars::prelude::polars_err!(
+                    ComputeError: "names unresolved in the second pass that the first did not find"
+                ),
+            )),
+        }
+    }
+}
+
 /// A piece read with what the first piece decided (`first`, none for the first piece itself).
 pub(super) fn prepare_piece(
     plan: &StreamRun<'_>,
@@ -50,17 +79,23 @@ pub(super) fn prepare_piece(
     first: Option<&FirstPiece>,
     bytes: Vec<u8>,
     start: &PieceStart,
-) -> Result<pipeline::Prepared> {
-    match first {
-        None => pipeline::prepare(
-            bytes.into(),
-            plan.input_label,
-            settings,
-            plan.resolver,
-            plan.references,
-        ),
-        Some(f) => prepare_later_piece(plan, f, bytes, start),
+) -> Result<PieceRead> {
+    let (bytes, piece_settings) = match first {
+        None => (bytes, settings.clone()),
+        Some(f) => later_piece(plan, f, bytes, start)?,
+    };
+    let label = plan.input_label;
+    let resolved =
+        pipeline::read_and_resolve(bytes.into(), label, &piece_settings, plan.resolver, true)?;
+    if !piece_settings.allow_unresolved && !resolved.ingested.asides.unresolved.is_empty() {
+        return Ok(PieceRead::Unresolved(Box::new(resolved.ingested)));
     }
+    Ok(
+        match pipeline::prepare_resolved(resolved, &piece_settings, plan.references) {
+            Ok(prepared) => PieceRead::Prepared(Box::new(prepared)),
+            Err(error) => PieceRead::FailedLate(error),
+        },
+    )
 }
 
 /// A piece's length in bytes, a digest of them, its table rows and its data lines, as a pass
@@ -153,14 +188,15 @@ pub(super) struct PieceStart {
     pub(super) rows_before: usize,
 }
 
-/// A piece after the first, read with the first piece's header, delimiter, encoding and roles,
-/// its lines and row ids those of the whole file.
-fn prepare_later_piece(
+/// A piece after the first, as text to read with the first piece's header, delimiter,
+/// encoding and roles, its lines and row ids those of the whole file, and the settings to
+/// read it with.
+fn later_piece(
     plan: &StreamRun<'_>,
     first: &FirstPiece,
     bytes: Vec<u8>,
     start: &PieceStart,
-) -> Result<pipeline::Prepared> {
+) -> Result<(Vec<u8>, PipelineSettings)> {
     let text = match first.encoding {
         Some(EncodingChoice::Windows1252) => {
             encoding_rs::WINDOWS_1252.decode(&bytes).0.into_owned()
@@ -183,13 +219,7 @@ fn prepare_later_piece(
     piece_settings.ingest.line_offset = start.lines_before.saturating_sub(1);
     piece_settings.ingest.row_offset = start.rows_before;
     let piece = format!("{}\n{text}", first.header_line);
-    pipeline::prepare(
-        piece.into_bytes().into(),
-        plan.input_label,
-        &piece_settings,
-        plan.resolver,
-        plan.references,
-    )
+    Ok((piece.into_bytes(), piece_settings))
 }
 
 /// What the first piece decided, for reading the others as it was read.

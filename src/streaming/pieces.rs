@@ -94,12 +94,10 @@ impl<R: Read> Pieces<R> {
             return Ok(None);
         }
         let mut piece: Vec<u8> = Vec::with_capacity(self.target + (1 << 16));
-        let mut in_quotes = false;
-        let mut field_filled = false;
-        let mut filled = 0usize;
+        let mut scan = RecordScan::new(self.delimiter);
         let mut line: Vec<u8> = Vec::new();
         let at_least = std::mem::take(&mut self.at_least);
-        let (mut records, mut lines, mut record_empty) = (0usize, 0usize, true);
+        let mut lines = 0usize;
         loop {
             line.clear();
             let n = self
@@ -111,34 +109,91 @@ impl<R: Read> Pieces<R> {
                 break;
             }
             lines += 1;
-            for &b in &line {
-                record_empty &= matches!(b, b'\n' | b'\r');
-                match b {
-                    b'"' => in_quotes = !in_quotes,
-                    b'\n' | b'\r' if !in_quotes => {}
-                    b if b == self.delimiter && !in_quotes => {
-                        filled += field_filled as usize;
-                        field_filled = false;
-                    }
-                    b' ' | b'\t' => {}
-                    _ => field_filled = true,
-                }
-            }
+            let ended_with_cells = scan.line(&line);
             piece.extend_from_slice(&line);
-            if !in_quotes {
-                filled += field_filled as usize;
-                let record_has_cells = filled >= 2;
-                records += !record_empty as usize;
-                field_filled = false;
-                filled = 0;
-                record_empty = true;
-                let enough = records >= at_least.records && lines >= at_least.lines;
-                if record_has_cells && enough && piece.len() >= self.target {
-                    break;
-                }
+            let enough = scan.records >= at_least.records && lines >= at_least.lines;
+            if ended_with_cells && enough && piece.len() >= self.target {
+                break;
             }
         }
         Ok((!piece.is_empty()).then_some(piece))
+    }
+}
+
+/// Where the csv reader stands in the text, byte by byte, by its rules (those of `csv_core`
+/// with the reader's settings: double quotes, no escape character, no comments): a quote opens
+/// a quoted cell only at a cell's start (elsewhere it is a character, as in `5" screens`); in a
+/// quoted cell two quotes are one, and a quote followed by anything else ends the quoting (the
+/// rest of the cell is read as written); `\r`, `\n` or `\r\n` end a record outside quotes, and
+/// lines with nothing on them are no record.
+struct RecordScan {
+    delimiter: u8,
+    state: ScanState,
+    field_filled: bool,
+    filled: usize,
+    /// Records ended (lines with something on them).
+    records: usize,
+}
+
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum ScanState {
+    StartRecord,
+    StartField,
+    Unquoted,
+    Quoted,
+    QuoteInQuoted,
+}
+
+impl RecordScan {
+    fn new(delimiter: u8) -> RecordScan {
+        RecordScan {
+            delimiter,
+            state: ScanState::StartRecord,
+            field_filled: false,
+            filled: 0,
+            records: 0,
+        }
+    }
+
+    /// Reads one line (up to and with its `\n`); whether it ends a record outside quotes that
+    /// holds two or more filled cells (a piece may end after it: no piece ends in notes, or in
+    /// blank lines, which belong to the table when rows follow them).
+    fn line(&mut self, line: &[u8]) -> bool {
+        let mut ended_with_cells = false;
+        for &b in line {
+            use ScanState::*;
+            let terminator = matches!(b, b'\n' | b'\r');
+            match (self.state, b) {
+                (StartRecord, _) if terminator => {}
+                (Quoted, b'"') => self.state = QuoteInQuoted,
+                (Quoted, _) => self.field_filled |= !b.is_ascii_whitespace(),
+                (QuoteInQuoted, b'"') => {
+                    self.state = Quoted;
+                    self.field_filled = true;
+                }
+                (StartRecord | StartField, b'"') => self.state = Quoted,
+                (_, _) if terminator => ended_with_cells = self.end_record(),
+                (_, b) if b == self.delimiter => {
+                    self.filled += self.field_filled as usize;
+                    self.field_filled = false;
+                    self.state = StartField;
+                }
+                (_, _) => {
+                    self.field_filled |= !matches!(b, b' ' | b'\t');
+                    self.state = Unquoted;
+                }
+            }
+        }
+        ended_with_cells && self.state == ScanState::StartRecord
+    }
+
+    /// Ends a record; whether it held two or more filled cells.
+    fn end_record(&mut self) -> bool {
+        let cells = self.filled + self.field_filled as usize;
+        self.records += 1;
+        (self.field_filled, self.filled) = (false, 0);
+        self.state = ScanState::StartRecord;
+        cells >= 2
     }
 }
 
@@ -213,5 +268,85 @@ mod tests {
             ]
         );
         assert_eq!(AtLeast::first_piece(Some(7)).lines, 8);
+    }
+
+    #[test]
+    fn a_quote_inside_a_cell_is_a_character_and_pieces_still_end_between_records() {
+        // An inch mark in an unquoted cell was taken for an opening quote: the cutter then took
+        // the next real quoted cell's line break for the end of a record, and a piece ended
+        // inside it (the streamed run failed where the in-memory run read the file).
+        let text = "country,year,item\nKOR,2021,5\" screens\n\"a, b\nc\",2020,x\nKOR,2022,y\n";
+        let pieces = cut(text, 1);
+        assert_eq!(pieces.concat(), text);
+        assert_eq!(
+            pieces,
+            vec![
+                "country,year,item\n",
+                "KOR,2021,5\" screens\n",
+                "\"a, b\nc\",2020,x\n",
+                "KOR,2022,y\n"
+            ]
+        );
+    }
+
+    /// Random texts of cells with quotes in every place, and line breaks of every kind: after
+    /// each line, the scan stands between records exactly where the csv reader does, and has
+    /// counted the records the reader has begun.
+    #[test]
+    fn the_scan_follows_the_csv_reader() {
+        const CELLS: [&str; 12] = [
+            "a",
+            "",
+            " ",
+            "\"q\"",
+            "\"x,y\"",
+            "\"two\nlines\"",
+            "5\" screens",
+            "\"a\"\"b\"",
+            "\"open",
+            "\"x\"tail",
+            " \"sp\"",
+            "\"\r\n\"",
+        ];
+        let mut state: u64 = 7;
+        let mut next = |n: usize| {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 33) as usize % n
+        };
+        for case in 0..2000 {
+            let mut text = String::new();
+            for _ in 0..next(8) + 1 {
+                let cells: Vec<&str> = (0..next(4) + 1).map(|_| CELLS[next(CELLS.len())]).collect();
+                text.push_str(&cells.join(","));
+                text.push_str(["\n", "\r\n", "\n\n", "\r"][next(4)]);
+            }
+            let bytes = text.as_bytes();
+            let mut reader = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_reader(bytes);
+            // Where each record's first character is (its position may point at blank lines).
+            let starts: Vec<usize> = reader
+                .byte_records()
+                .map(|r| {
+                    let mut at = r.unwrap().position().unwrap().byte() as usize;
+                    while at < bytes.len() && matches!(bytes[at], b'\n' | b'\r') {
+                        at += 1;
+                    }
+                    at
+                })
+                .collect();
+            let mut scan = RecordScan::new(b',');
+            let mut at = 0;
+            for line in text.split_inclusive('\n') {
+                scan.line(line.as_bytes());
+                at += line.len();
+                let begun = starts.iter().filter(|&&s| s < at).count();
+                let open = usize::from(scan.state != ScanState::StartRecord);
+                assert_eq!(scan.records + open, begun, "case {case}: {text:?} at {at}");
+            }
+        }
     }
 }

@@ -137,7 +137,8 @@ impl WritePass<'_> {
                 if seen != (expected.bytes, expected.digest) {
                     return Err(changed_while_read(label));
                 }
-                let mut prepared = prepare_piece(plan, settings, first, cut.bytes, &start)?;
+                let mut prepared =
+                    prepare_piece(plan, settings, first, cut.bytes, &start)?.prepared()?;
                 if PieceSize::of(&prepared, seen) != expected {
                     return Err(changed_while_read(label));
                 }

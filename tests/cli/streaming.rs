@@ -391,3 +391,100 @@ fn the_summary_of_a_streamed_run_counts_what_every_piece_set_aside() {
         );
     }
 }
+
+#[test]
+fn names_that_match_nothing_are_told_for_the_whole_file_after_its_faults() {
+    // A streamed run told only the first piece's unknown names; and an unknown name in one
+    // piece hid a fault of the table in a later one, which a whole-file reading tells first.
+    let env = setup();
+    let refs = env.data("country-refs");
+    let mut lines: Vec<String> = long_table(20_000).lines().map(str::to_string).collect();
+    for (at, name) in [(100, "Narnia"), (18_000, "Oz"), (19_000, "Narnia")] {
+        lines[at] = lines[at].replacen(lines[at].split(',').next().unwrap(), name, 1);
+    }
+    let names_only = lines.join("\n");
+    lines[15_000].push_str(",an extra cell");
+    let with_a_ragged_line = lines.join("\n");
+    for (name, text, told) in [
+        ("names.csv", names_only, "2 entity name(s) match no"),
+        ("ragged.csv", with_a_ragged_line, "6 field(s) on this line"),
+    ] {
+        let input = env.write(name, &text);
+        let args = [
+            "adjust",
+            &input,
+            "--refs",
+            &refs,
+            "--steps",
+            "ppp",
+            "--group",
+            "item",
+            "--currency",
+            "currency",
+            "--lenient",
+        ];
+        let whole = env.run(&[&args[..], &["-o", "whole.csv", "--max-input-mb", "64"]].concat());
+        let streamed = env.run(
+            &[
+                &args[..],
+                &["-o", "pieces.csv", "--streaming", "--chunk-mb", "0.05"],
+            ]
+            .concat(),
+        );
+        assert_eq!((whole.code, streamed.code), (2, 2), "{name}");
+        assert!(whole.stderr.contains(told), "{name}: {}", whole.stderr);
+        assert_eq!(whole.stderr, streamed.stderr, "{name}");
+        assert!(!env.path("pieces.csv").exists(), "{name}");
+    }
+}
+
+#[test]
+fn a_quote_inside_a_cell_does_not_move_where_pieces_end() {
+    // An inch mark (`5" screens`) is a character to the csv reader; the cutter took it for an
+    // opening quote, ended a piece inside a later quoted cell that spans two lines, and the
+    // streamed run failed (exit 2) where the in-memory run read the file.
+    let env = setup();
+    let refs = env.data("country-refs");
+    let mut text = String::from("country,year,item,currency,value\n");
+    for i in 0..4_000 {
+        let row = match i {
+            1_500 => "KOR,2021,item 5\" screens,KRW,7".to_string(),
+            3_000 => "\"a, b\nc\",2020,item X,KRW,1".to_string(),
+            _ => format!("KOR,{},item {i},KRW,{i}.5", 2020 + i % 4),
+        };
+        text.push_str(&row);
+        text.push('\n');
+    }
+    let input = env.write("inch.csv", &text);
+    let args = [
+        "adjust",
+        &input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp",
+        "--group",
+        "item",
+        "--currency",
+        "currency",
+        "--lenient",
+        "--allow-unresolved",
+    ];
+    let whole = env.run(&[&args[..], &["-o", "whole.csv"]].concat());
+    assert_eq!(whole.code, 0, "{}", whole.stderr);
+    for chunk in ["0.02", "0.05"] {
+        let streamed = env.run(
+            &[
+                &args[..],
+                &["-o", "pieces.csv", "--streaming", "--chunk-mb", chunk],
+            ]
+            .concat(),
+        );
+        assert_eq!(streamed.code, 0, "{chunk}: {}", streamed.stderr);
+        assert!(
+            std::fs::read(env.path("whole.csv")).unwrap()
+                == std::fs::read(env.path("pieces.csv")).unwrap(),
+            "{chunk}: streaming output differs"
+        );
+    }
+}
