@@ -13,8 +13,9 @@
 //!   file is the one reading it in one go finds (the caller reads it again to find it);
 //! - no column of the joined records passes 4 GiB.
 //!
-//! Otherwise nothing is joined, and the caller reads the table in one go, as it does a small
-//! one. Empty lines between two stretches are counted when they are joined (`Body::append`).
+//! From the first stretch that cannot be joined on, the caller reads the rest in one go, from
+//! where the joined ones end; when the first fails, all of it, as it reads a small table.
+//! Empty lines between two stretches are counted when they are joined (`Body::append`).
 
 use crate::error::{Error, Result};
 use crate::ingest::body::{Body, TableEnd};
@@ -49,18 +50,21 @@ pub(super) struct Stretch {
     pub(super) failed: Option<Error>,
 }
 
-/// Stretches joined: their records in one body, the last one's table end, and the whole
-/// reading's first and last record.
+/// Stretches joined: their records in one body, the last one's table end, the reading's first
+/// and last record so far, and where the rest of the text is to be read in one go (none when
+/// every stretch was joined).
 pub(super) struct Joined<'a> {
     pub(super) body: Body<'a>,
     pub(super) end: TableEnd,
     pub(super) stretch: Stretch,
+    pub(super) resume: Option<usize>,
 }
 
 /// Reads the records from byte `from` (the first record below the header) to the end of
 /// `text` in stretches, each into a body from `new_body` (`true` for the first) by `read`
-/// (`from`, `until`, the body, the table end); the stretches joined, or none when the text is
-/// small, there is one thread, or joining them would not give what one reading gives.
+/// (`from`, `until`, the body, the table end); the stretches joined as far as joining them
+/// gives what one reading gives, or none when the text is small, there is one thread, or the
+/// first stretch failed.
 pub(super) fn read_joined<'a>(
     text: &str,
     from: usize,
@@ -83,22 +87,31 @@ pub(super) fn read_joined<'a>(
     };
     let read: Vec<Option<_>> =
         pool.install(|| bounds.par_iter().enumerate().map(read_one).collect());
-    let read: Vec<_> = read.into_iter().collect::<Option<_>>()?;
-    let meet = read
-        .windows(2)
-        .all(|pair| pair[0].2.next == pair[1].2.first && pair[0].1.is_clear());
-    if !meet {
-        return None;
-    }
+    // The first stretch is one reading's; each next one that meets it is joined. From the
+    // first that does not (or failed), the rest is read in one go from where the joined ones
+    // end, with their table end.
     let mut read = read.into_iter();
-    let (mut body, mut end, mut stretch) = read.next()?;
-    for (later_body, later_end, later) in read {
+    let (mut body, mut end, mut stretch) = read.next()??;
+    let mut resume = None;
+    for later in read {
+        let meets = |(_, _, later): &(Body, TableEnd, Stretch)| {
+            stretch.next == later.first && end.is_clear()
+        };
+        let Some((later_body, later_end, later)) = later.filter(meets) else {
+            resume = stretch.next;
+            break;
+        };
         body.append(later_body).ok()?;
         end = later_end;
         stretch.last = later.last.or(stretch.last);
         stretch.next = later.next;
     }
-    Some(Joined { body, end, stretch })
+    Some(Joined {
+        body,
+        end,
+        stretch,
+        resume,
+    })
 }
 
 /// Where the stretches start and end: `from`, then one place after a line break for each

@@ -293,8 +293,8 @@ impl Reading<'_> {
     /// first record of the table that fails its checks, then a statistics office's dimension
     /// codes (`Body::dimension_error`). So after a record fails, the rest is read only to find
     /// the last record. A large table is read in stretches on the pool's threads
-    /// (`stretches`), and read again in one go whenever the stretches cannot give exactly
-    /// what one reading gives.
+    /// (`stretches`), joined as far as they give exactly what one reading gives, the rest
+    /// read in one go.
     fn body<'b>(&self, header: &Raw, body: &mut Body<'b>) -> Result<Vec<Raw>> {
         let parallel = !self.options.in_one_go && body.dimensions_split().is_none();
         let joined = parallel
@@ -312,7 +312,13 @@ impl Reading<'_> {
         let (end, stretch) = match joined {
             Some(joined) => {
                 body.take_records_of(joined.body);
-                (joined.end, joined.stretch)
+                let (mut end, mut stretch) = (joined.end, joined.stretch);
+                if let Some(from) = joined.resume {
+                    let rest = self.stretch(from, usize::MAX, body, &mut end, true)?;
+                    stretch.last = rest.last.or(stretch.last);
+                    stretch.failed = rest.failed;
+                }
+                (end, stretch)
             }
             None => {
                 let mut end = TableEnd::default();
