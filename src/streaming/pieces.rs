@@ -127,7 +127,8 @@ impl<R: Read> Pieces<R> {
 /// rest of the cell is read as written); `\r`, `\n` or `\r\n` end a record outside quotes, and
 /// lines with nothing on them are no record.
 struct RecordScan {
-    delimiter: u8,
+    /// Each byte's part in the rules.
+    classes: [ByteClass; 256],
     state: ScanState,
     field_filled: bool,
     filled: usize,
@@ -144,10 +145,28 @@ enum ScanState {
     QuoteInQuoted,
 }
 
+/// What a byte is to the scan: blanks leave a cell unfilled.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum ByteClass {
+    Other,
+    Blank,
+    Quote,
+    Delimiter,
+    Terminator,
+}
+
 impl RecordScan {
     fn new(delimiter: u8) -> RecordScan {
+        let mut classes = [ByteClass::Other; 256];
+        for b in [b' ', b'\t', 0x0b, 0x0c] {
+            classes[b as usize] = ByteClass::Blank;
+        }
+        classes[b'"' as usize] = ByteClass::Quote;
+        classes[delimiter as usize] = ByteClass::Delimiter;
+        classes[b'\n' as usize] = ByteClass::Terminator;
+        classes[b'\r' as usize] = ByteClass::Terminator;
         RecordScan {
-            delimiter,
+            classes,
             state: ScanState::StartRecord,
             field_filled: false,
             filled: 0,
@@ -159,41 +178,35 @@ impl RecordScan {
     /// holds two or more filled cells (a piece may end after it: no piece ends in notes, or in
     /// blank lines, which belong to the table when rows follow them).
     fn line(&mut self, line: &[u8]) -> bool {
+        use ByteClass::*;
+        use ScanState::*;
+        let (mut state, mut field_filled, mut filled) =
+            (self.state, self.field_filled, self.filled);
         let mut ended_with_cells = false;
         for &b in line {
-            use ScanState::*;
-            let terminator = matches!(b, b'\n' | b'\r');
-            match (self.state, b) {
-                (StartRecord, _) if terminator => {}
-                (Quoted, b'"') => self.state = QuoteInQuoted,
-                (Quoted, _) => self.field_filled |= !b.is_ascii_whitespace(),
-                (QuoteInQuoted, b'"') => {
-                    self.state = Quoted;
-                    self.field_filled = true;
+            let class = self.classes[b as usize];
+            match (state, class) {
+                (Quoted, Quote) => state = QuoteInQuoted,
+                (Quoted, Other | Delimiter) => field_filled = true,
+                (Quoted, Blank | Terminator) => {}
+                (QuoteInQuoted, Quote) => (state, field_filled) = (Quoted, true),
+                (StartRecord, Terminator) => {}
+                (StartRecord | StartField, Quote) => state = Quoted,
+                (_, Terminator) => {
+                    ended_with_cells = filled + field_filled as usize >= 2;
+                    self.records += 1;
+                    (state, field_filled, filled) = (StartRecord, false, 0);
                 }
-                (StartRecord | StartField, b'"') => self.state = Quoted,
-                (_, _) if terminator => ended_with_cells = self.end_record(),
-                (_, b) if b == self.delimiter => {
-                    self.filled += self.field_filled as usize;
-                    self.field_filled = false;
-                    self.state = StartField;
+                (_, Delimiter) => {
+                    filled += field_filled as usize;
+                    (state, field_filled) = (StartField, false);
                 }
-                (_, _) => {
-                    self.field_filled |= !matches!(b, b' ' | b'\t');
-                    self.state = Unquoted;
-                }
+                (_, Blank) => state = Unquoted,
+                (_, Other | Quote) => (state, field_filled) = (Unquoted, true),
             }
         }
-        ended_with_cells && self.state == ScanState::StartRecord
-    }
-
-    /// Ends a record; whether it held two or more filled cells.
-    fn end_record(&mut self) -> bool {
-        let cells = self.filled + self.field_filled as usize;
-        self.records += 1;
-        (self.field_filled, self.filled) = (false, 0);
-        self.state = ScanState::StartRecord;
-        cells >= 2
+        (self.state, self.field_filled, self.filled) = (state, field_filled, filled);
+        ended_with_cells && state == StartRecord
     }
 }
 
