@@ -145,12 +145,14 @@ fn run(
         ));
     };
 
+    crate::trace::phase("streaming: first pass read");
     // Ranks, once, bucket by bucket of the ranking partitions.
     let mut ranks = spill.rank(RankRules {
         one_unit: settings.one_unit(),
         order: settings.order,
         baseline_missing: !columns.missing_tables.is_empty(),
     })?;
+    crate::trace::phase("streaming: ranked");
     let rows_in = ord as usize;
 
     // The pieces again, in order, each finished with its slice of the ranks, into the output.

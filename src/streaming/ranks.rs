@@ -179,29 +179,20 @@ impl RankSpill {
             .map_err(io_error(folder, "write a temporary file in"))
     }
 
-    /// Ranks every bucket; their ranks, to be read back piece by piece.
+    /// Ranks every bucket, on the pool's threads; their ranks, to be read back piece by
+    /// piece.
     pub(super) fn rank(self, rules: RankRules) -> Result<Ranks> {
         let folder = self.folder;
-        for (b, input) in self.inputs.into_iter().enumerate() {
+        for input in self.inputs {
             input
                 .into_inner()
                 .map_err(|e| Error::io(folder.path().display(), "write", e.into_error()))?;
-            let inputs =
-                read_records(&folder.path().join(format!("inputs-{b:02}")), Input::decode)?;
-            let ranked = rank_bucket(&inputs, rules)?;
-            drop(inputs);
-            let path = folder.path().join(format!("ranks-{b:02}"));
-            let mut out = BufWriter::with_capacity(
-                1 << 16,
-                File::create(&path).map_err(io_error(&path, "write"))?,
-            );
-            for r in &ranked {
-                out.write_all(&r.encode())
-                    .map_err(io_error(&path, "write"))?;
-            }
-            out.flush().map_err(io_error(&path, "write"))?;
-            let _ = std::fs::remove_file(folder.path().join(format!("inputs-{b:02}")));
         }
+        let ranked = super::pieces::in_parallel((0..BUCKETS).collect(), |b| {
+            rank_bucket_file(folder.path(), b, rules)
+        });
+        // The first error in bucket order, as reading them in turn would give it.
+        ranked.into_iter().collect::<Result<Vec<()>>>()?;
         let mut readers = Vec::with_capacity(BUCKETS);
         for b in 0..BUCKETS {
             let path = folder.path().join(format!("ranks-{b:02}"));
@@ -218,6 +209,25 @@ impl RankSpill {
         }
         Ok(ranks)
     }
+}
+
+/// Ranks bucket `b`: its inputs file read, its ranks file written, the inputs file removed.
+fn rank_bucket_file(folder: &Path, b: usize, rules: RankRules) -> Result<()> {
+    let inputs = read_records(&folder.join(format!("inputs-{b:02}")), Input::decode)?;
+    let ranked = rank_bucket(&inputs, rules)?;
+    drop(inputs);
+    let path = folder.join(format!("ranks-{b:02}"));
+    let mut out = BufWriter::with_capacity(
+        1 << 16,
+        File::create(&path).map_err(io_error(&path, "write"))?,
+    );
+    for r in &ranked {
+        out.write_all(&r.encode())
+            .map_err(io_error(&path, "write"))?;
+    }
+    out.flush().map_err(io_error(&path, "write"))?;
+    let _ = std::fs::remove_file(folder.join(format!("inputs-{b:02}")));
+    Ok(())
 }
 
 /// Every record of a bucket's file.
