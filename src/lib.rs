@@ -53,6 +53,8 @@ pub mod shortest;
 pub mod source;
 pub mod staging;
 pub mod streaming;
+#[cfg(test)]
+pub(crate) mod test_numbers;
 pub mod trace;
 pub mod tracks;
 pub mod uncertainty;

@@ -181,13 +181,8 @@ mod tests {
             "   ",
             "Bolivia,2019,\"\"\"quoted\"\"\"",
         ];
-        let mut state: u64 = 20261205;
-        let mut next = |n: usize| {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 33) as usize % n
-        };
+        let mut numbers = crate::test_numbers::TestNumbers::new(20261205);
+        let mut next = |n: usize| numbers.below(n);
         let mut joined = 0;
         for case in 0..3000 {
             let break_with = ["\n", "\r\n", "\r"][next(3)];

@@ -321,13 +321,8 @@ mod tests {
             " \"sp\"",
             "\"\r\n\"",
         ];
-        let mut state: u64 = 7;
-        let mut next = |n: usize| {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 33) as usize % n
-        };
+        let mut numbers = crate::test_numbers::TestNumbers::new(7);
+        let mut next = |n: usize| numbers.below(n);
         for case in 0..2000 {
             let mut text = String::new();
             for _ in 0..next(8) + 1 {

@@ -293,6 +293,34 @@ fn streaming_reads_a_table_whose_header_row_is_given() {
     );
 }
 
+/// The same `adjust` run (ppp, grouped by item, currencies from their column) over the whole
+/// file, to whole.csv, and in pieces of `chunk` MB, to pieces.csv.
+fn whole_and_in_pieces(
+    env: &crate::Env,
+    input: &str,
+    extra: &[&str],
+    chunk: &str,
+) -> (crate::Run, crate::Run) {
+    let refs = env.data("country-refs");
+    let mut args = vec![
+        "adjust",
+        input,
+        "--refs",
+        &refs,
+        "--steps",
+        "ppp",
+        "--group",
+        "item",
+        "--currency",
+        "currency",
+    ];
+    args.extend_from_slice(extra);
+    let whole = env.run(&[&args[..], &["-o", "whole.csv", "--max-input-mb", "64"]].concat());
+    let pieces = ["-o", "pieces.csv", "--streaming", "--chunk-mb", chunk];
+    let streamed = env.run(&[&args[..], &pieces[..]].concat());
+    (whole, streamed)
+}
+
 /// A run's summary without the lines that differ by design: how the file was cut, and the
 /// output's name.
 fn summary_of_the_table(stderr: &str) -> Vec<&str> {
@@ -308,7 +336,6 @@ fn the_summary_of_a_streamed_run_counts_what_every_piece_set_aside() {
     // lines inside the table in later pieces were missing or listed apart; a semicolon table's
     // grouped figures counted in the first piece only.
     let env = setup();
-    let refs = env.data("country-refs");
     let body = long_table(30_000);
     let mut lines: Vec<String> = body.lines().map(str::to_string).collect();
     for (at, name) in [(3, "Atlantis"), (20_000, "Lemuria"), (25_000, "Atlantis")] {
@@ -347,25 +374,8 @@ fn the_summary_of_a_streamed_run_counts_what_every_piece_set_aside() {
     ];
     for (name, text, extra) in cases {
         let input = env.write(name, &text);
-        let mut args = vec![
-            "adjust",
-            &input,
-            "--refs",
-            &refs,
-            "--steps",
-            "ppp",
-            "--group",
-            "item",
-            "--currency",
-            "currency",
-        ];
-        args.extend(extra);
-        let mut whole = args.clone();
-        whole.extend(["-o", "whole.csv", "--max-input-mb", "64"]);
-        let whole = env.run(&whole);
+        let (whole, pieces) = whole_and_in_pieces(&env, &input, &extra, "0.05");
         assert_eq!(whole.code, 0, "{name}: {}", whole.stderr);
-        args.extend(["-o", "pieces.csv", "--streaming", "--chunk-mb", "0.05"]);
-        let pieces = env.run(&args);
         assert_eq!(pieces.code, 0, "{name}: {}", pieces.stderr);
         assert!(pieces.stderr.contains("piece(s)"), "{}", pieces.stderr);
         assert!(
@@ -397,7 +407,6 @@ fn names_that_match_nothing_are_told_for_the_whole_file_after_its_faults() {
     // A streamed run told only the first piece's unknown names; and an unknown name in one
     // piece hid a fault of the table in a later one, which a whole-file reading tells first.
     let env = setup();
-    let refs = env.data("country-refs");
     let mut lines: Vec<String> = long_table(20_000).lines().map(str::to_string).collect();
     for (at, name) in [(100, "Narnia"), (18_000, "Oz"), (19_000, "Narnia")] {
         lines[at] = lines[at].replacen(lines[at].split(',').next().unwrap(), name, 1);
@@ -410,27 +419,7 @@ fn names_that_match_nothing_are_told_for_the_whole_file_after_its_faults() {
         ("ragged.csv", with_a_ragged_line, "6 field(s) on this line"),
     ] {
         let input = env.write(name, &text);
-        let args = [
-            "adjust",
-            &input,
-            "--refs",
-            &refs,
-            "--steps",
-            "ppp",
-            "--group",
-            "item",
-            "--currency",
-            "currency",
-            "--lenient",
-        ];
-        let whole = env.run(&[&args[..], &["-o", "whole.csv", "--max-input-mb", "64"]].concat());
-        let streamed = env.run(
-            &[
-                &args[..],
-                &["-o", "pieces.csv", "--streaming", "--chunk-mb", "0.05"],
-            ]
-            .concat(),
-        );
+        let (whole, streamed) = whole_and_in_pieces(&env, &input, &["--lenient"], "0.05");
         assert_eq!((whole.code, streamed.code), (2, 2), "{name}");
         assert!(whole.stderr.contains(told), "{name}: {}", whole.stderr);
         assert_eq!(whole.stderr, streamed.stderr, "{name}");
@@ -444,7 +433,6 @@ fn a_quote_inside_a_cell_does_not_move_where_pieces_end() {
     // opening quote, ended a piece inside a later quoted cell that spans two lines, and the
     // streamed run failed (exit 2) where the in-memory run read the file.
     let env = setup();
-    let refs = env.data("country-refs");
     let mut text = String::from("country,year,item,currency,value\n");
     for i in 0..4_000 {
         let row = match i {
@@ -456,30 +444,10 @@ fn a_quote_inside_a_cell_does_not_move_where_pieces_end() {
         text.push('\n');
     }
     let input = env.write("inch.csv", &text);
-    let args = [
-        "adjust",
-        &input,
-        "--refs",
-        &refs,
-        "--steps",
-        "ppp",
-        "--group",
-        "item",
-        "--currency",
-        "currency",
-        "--lenient",
-        "--allow-unresolved",
-    ];
-    let whole = env.run(&[&args[..], &["-o", "whole.csv"]].concat());
-    assert_eq!(whole.code, 0, "{}", whole.stderr);
     for chunk in ["0.02", "0.05"] {
-        let streamed = env.run(
-            &[
-                &args[..],
-                &["-o", "pieces.csv", "--streaming", "--chunk-mb", chunk],
-            ]
-            .concat(),
-        );
+        let extra = ["--lenient", "--allow-unresolved"];
+        let (whole, streamed) = whole_and_in_pieces(&env, &input, &extra, chunk);
+        assert_eq!(whole.code, 0, "{}", whole.stderr);
         assert_eq!(streamed.code, 0, "{chunk}: {}", streamed.stderr);
         assert!(
             std::fs::read(env.path("whole.csv")).unwrap()
