@@ -102,6 +102,8 @@ pub(super) fn read_joined<'a>(
             break;
         };
         body.append(later_body).ok()?;
+        #[cfg(test)]
+        tests::JOINS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
         end = later_end;
         stretch.last = later.last.or(stretch.last);
         stretch.next = later.next;
@@ -142,6 +144,11 @@ fn cuts(text: &str, from: usize, threads: usize) -> Option<Vec<usize>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Stretches joined to the ones before them, in the unit tests: the comparison with one
+    /// reading covers joined stretches, not only readings in one go.
+    pub(super) static JOINS: std::sync::atomic::AtomicUsize =
+        std::sync::atomic::AtomicUsize::new(0);
 
     #[test]
     fn stretches_start_after_line_breaks_and_cover_the_text() {
@@ -216,7 +223,10 @@ mod tests {
                 joined += !whole.starts_with("error") as usize;
             }
         }
-        // Most cases were tables, not errors: the comparison covered the records.
+        // Most cases were tables, not errors: the comparison covered the records, and
+        // stretches joined, not only tables read again in one go.
         assert!(joined > 2000, "{joined}");
+        let joins = JOINS.load(std::sync::atomic::Ordering::Relaxed);
+        assert!(joins > 2000, "{joins} stretches joined");
     }
 }
