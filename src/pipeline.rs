@@ -471,7 +471,6 @@ fn cautions(settings: &PipelineSettings) -> Vec<String> {
     out
 }
 
-/// The warning of a run whose catalog lacks a table only the baseline needs.
 /// The warnings of a run summary besides its own: the reading's first (lines set aside,
 /// likely misreadings), a missing baseline table's last.
 pub(crate) fn add_warnings(
@@ -485,6 +484,7 @@ pub(crate) fn add_warnings(
     summary.warnings.splice(0..0, reading);
 }
 
+/// The warning of a run whose catalog lacks a table only the baseline needs.
 fn missing_tables_warning(kinds: &[crate::reference::Kind]) -> Option<String> {
     if kinds.is_empty() {
         return None;

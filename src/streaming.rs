@@ -206,14 +206,6 @@ fn run(
     }))
 }
 
-/// A piece as the first pass read it: prepared, with the columns its ranks need collected
-/// (`rank_frame`), or not prepared (`PieceRead`).
-enum FirstRead {
-    Ranked(Box<pipeline::Prepared>, Result<DataFrame>),
-    Unresolved(Box<crate::ingest::Ingested>),
-    FailedLate(Error),
-}
-
 /// What the first pass over the pieces leaves: the rank inputs of every row, spilled by
 /// bucket, and what the first piece decided.
 struct FirstPass {
@@ -293,24 +285,21 @@ fn read_rank_inputs(
                 rows_before,
             };
             let seen = piece::digest(&cut.bytes);
+            // The columns the ranks need are collected here, on the piece's thread.
             prepare_piece(plan, settings, first, cut.bytes, &start).map(|read| {
-                let read = match read {
-                    PieceRead::Prepared(mut prepared) => {
-                        let frame = rank_frame(&mut prepared);
-                        FirstRead::Ranked(prepared, frame)
-                    }
-                    PieceRead::Unresolved(ingested) => FirstRead::Unresolved(ingested),
-                    PieceRead::FailedLate(error) => FirstRead::FailedLate(error),
-                };
+                let read = read.map_prepared(|mut prepared| {
+                    let frame = rank_frame(&mut prepared);
+                    (prepared, frame)
+                });
                 (read, seen)
             })
         });
         for (read, breaks) in read.into_iter().zip(breaks) {
             // A fault in the table is the run's error: no piece before it had one.
             let (read, seen) = read?;
-            let names_pending = !state.asides.unresolved.is_empty() && !settings.allow_unresolved;
+            let names_pending = state.asides.unresolved_refused(settings.allow_unresolved);
             match read {
-                FirstRead::Unresolved(ingested) => {
+                PieceRead::Unresolved(ingested) => {
                     if state.first.is_none() {
                         state.first = Some(first_piece(&ingested, settings, label)?);
                     }
@@ -318,8 +307,8 @@ fn read_rank_inputs(
                 }
                 // After a name that matches nothing, pieces are read for faults and names only.
                 _ if names_pending => {}
-                FirstRead::FailedLate(error) => return Err(error),
-                FirstRead::Ranked(prepared, frame) => {
+                PieceRead::FailedLate(error) => return Err(error),
+                PieceRead::Prepared((prepared, frame)) => {
                     if let Err(restart) = state.take(*prepared, frame, seen, plan, settings)? {
                         return Ok(Err(restart));
                     }
@@ -328,7 +317,7 @@ fn read_rank_inputs(
             state.lines_before += breaks;
         }
     }
-    if !state.asides.unresolved.is_empty() && !settings.allow_unresolved {
+    if state.asides.unresolved_refused(settings.allow_unresolved) {
         let names = std::mem::take(&mut state.asides.unresolved);
         return Err(crate::resolve::unresolved_error(
             label,

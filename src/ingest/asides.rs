@@ -50,6 +50,12 @@ impl Asides {
         }
     }
 
+    /// Whether names match nothing and `--allow-unresolved` (`allowed`) was not given: the
+    /// run's error.
+    pub fn unresolved_refused(&self, allowed: bool) -> bool {
+        !allowed && !self.unresolved.is_empty()
+    }
+
     /// Everything set aside, described: the lines, then the empty lines inside as one entry.
     pub fn set_aside(&self) -> Vec<String> {
         let mut all = self.lines.clone();

@@ -61,10 +61,11 @@ impl TableEnd {
         std::mem::take(&mut self.held)
     }
 
-    /// Whether nothing is held back and no footnote block has begun: the next record is
-    /// placed as by a table end that saw none of these records.
+    /// Whether nothing is held back and no footnote block has begun (only a footnote block
+    /// puts records below the table before the end): the next record is placed as by a table
+    /// end that saw none of these records.
     pub(super) fn is_clear(&self) -> bool {
-        self.held.is_empty() && self.below.is_empty() && !self.in_footnotes
+        self.held.is_empty() && !self.in_footnotes
     }
 
     /// The records below the table, in order.

@@ -43,10 +43,11 @@ pub struct StreamRun<'a> {
     pub columns: &'a crate::model::ColumnSet,
 }
 
-/// A piece as it was read.
-pub(super) enum PieceRead {
+/// A piece as it was read: prepared like an in-memory table (`P`, a `Prepared` or what a pass
+/// made of one), or not.
+pub(super) enum PieceRead<P = Box<pipeline::Prepared>> {
     /// Prepared like an in-memory table.
-    Prepared(Box<pipeline::Prepared>),
+    Prepared(P),
     /// Read, with names that match nothing (and no `--allow-unresolved`), and prepared no
     /// further: a whole-file reading tells every such name after every fault in the table
     /// and before any later error, so the run's error waits until every piece is read.
@@ -54,6 +55,17 @@ pub(super) enum PieceRead {
     /// Failed after its entities were resolved: the run's error unless a piece before it has
     /// names that match nothing.
     FailedLate(Error),
+}
+
+impl<P> PieceRead<P> {
+    /// The prepared piece turned into what `made` makes of it.
+    pub(super) fn map_prepared<Q>(self, made: impl FnOnce(P) -> Q) -> PieceRead<Q> {
+        match self {
+            PieceRead::Prepared(prepared) => PieceRead::Prepared(made(prepared)),
+            PieceRead::Unresolved(ingested) => PieceRead::Unresolved(ingested),
+            PieceRead::FailedLate(error) => PieceRead::FailedLate(error),
+        }
+    }
 }
 
 impl PieceRead {
@@ -87,7 +99,11 @@ pub(super) fn prepare_piece(
     let label = plan.input_label;
     let resolved =
         pipeline::read_and_resolve(bytes.into(), label, &piece_settings, plan.resolver, true)?;
-    if !piece_settings.allow_unresolved && !resolved.ingested.asides.unresolved.is_empty() {
+    if resolved
+        .ingested
+        .asides
+        .unresolved_refused(piece_settings.allow_unresolved)
+    {
         return Ok(PieceRead::Unresolved(Box::new(resolved.ingested)));
     }
     Ok(

@@ -63,23 +63,44 @@ fn long_table(rows: usize) -> String {
     out
 }
 
-fn run_both(env: &crate::Env, input: &str, extra: &[&str]) -> (Vec<u8>, Vec<u8>, String) {
+/// The same `adjust` run over the whole file, to whole.csv, and in pieces of `chunk` MB, to
+/// pieces.csv; `args` follow the input and its reference tables.
+fn whole_and_in_pieces(
+    env: &crate::Env,
+    input: &str,
+    args: &[&str],
+    chunk: &str,
+) -> (crate::Run, crate::Run) {
     let refs = env.data("country-refs");
-    let mut args = vec!["adjust", input, "--refs", &refs, "--format", "csv", "-q"];
-    args.extend_from_slice(extra);
-    let mut whole = args.clone();
-    whole.extend(["-o", "whole.csv", "--max-input-mb", "64"]);
-    let run = env.run(&whole);
-    assert_eq!(run.code, 0, "{}", run.stderr);
-    let mut pieces = args.clone();
-    pieces.retain(|a| *a != "-q");
-    pieces.extend(["-o", "pieces.csv", "--streaming", "--chunk-mb", "0.2"]);
-    let run = env.run(&pieces);
-    assert_eq!(run.code, 0, "{}", run.stderr);
+    let run = [&["adjust", input, "--refs", &refs][..], args].concat();
+    let whole = env.run(&[&run[..], &["-o", "whole.csv", "--max-input-mb", "64"]].concat());
+    let pieces = ["-o", "pieces.csv", "--streaming", "--chunk-mb", chunk];
+    let streamed = env.run(&[&run[..], &pieces[..]].concat());
+    (whole, streamed)
+}
+
+/// The steps and columns of most tables here: ppp, grouped by item, currencies from their
+/// column.
+const PPP_BY_ITEM: [&str; 6] = [
+    "--steps",
+    "ppp",
+    "--group",
+    "item",
+    "--currency",
+    "currency",
+];
+
+/// Both runs of `whole_and_in_pieces` in 0.2 MB pieces, which must succeed: their outputs, and
+/// the streamed run's summary.
+fn run_both(env: &crate::Env, input: &str, extra: &[&str]) -> (Vec<u8>, Vec<u8>, String) {
+    let args = [&["--format", "csv"][..], extra].concat();
+    let (whole, pieces) = whole_and_in_pieces(env, input, &args, "0.2");
+    assert_eq!(whole.code, 0, "{}", whole.stderr);
+    assert_eq!(pieces.code, 0, "{}", pieces.stderr);
     (
         std::fs::read(env.path("whole.csv")).unwrap(),
         std::fs::read(env.path("pieces.csv")).unwrap(),
-        run.stderr,
+        pieces.stderr,
     )
 }
 
@@ -272,53 +293,12 @@ fn streaming_reads_a_table_whose_header_row_is_given() {
         "titled.csv",
         &format!("Fees, a title line\n{}", long_table(20_000)),
     );
-    let (whole, pieces, _) = run_both(
-        &env,
-        &input,
-        &[
-            "--steps",
-            "ppp",
-            "--group",
-            "item",
-            "--currency",
-            "currency",
-            "--lenient",
-            "--header-row",
-            "2",
-        ],
-    );
+    let args = [&PPP_BY_ITEM[..], &["--lenient", "--header-row", "2"]].concat();
+    let (whole, pieces, _) = run_both(&env, &input, &args);
     assert!(
         whole == pieces,
         "streaming output differs from the in-memory output"
     );
-}
-
-/// The same `adjust` run (ppp, grouped by item, currencies from their column) over the whole
-/// file, to whole.csv, and in pieces of `chunk` MB, to pieces.csv.
-fn whole_and_in_pieces(
-    env: &crate::Env,
-    input: &str,
-    extra: &[&str],
-    chunk: &str,
-) -> (crate::Run, crate::Run) {
-    let refs = env.data("country-refs");
-    let mut args = vec![
-        "adjust",
-        input,
-        "--refs",
-        &refs,
-        "--steps",
-        "ppp",
-        "--group",
-        "item",
-        "--currency",
-        "currency",
-    ];
-    args.extend_from_slice(extra);
-    let whole = env.run(&[&args[..], &["-o", "whole.csv", "--max-input-mb", "64"]].concat());
-    let pieces = ["-o", "pieces.csv", "--streaming", "--chunk-mb", chunk];
-    let streamed = env.run(&[&args[..], &pieces[..]].concat());
-    (whole, streamed)
 }
 
 /// A run's summary without the lines that differ by design: how the file was cut, and the
@@ -374,7 +354,8 @@ fn the_summary_of_a_streamed_run_counts_what_every_piece_set_aside() {
     ];
     for (name, text, extra) in cases {
         let input = env.write(name, &text);
-        let (whole, pieces) = whole_and_in_pieces(&env, &input, &extra, "0.05");
+        let args = [&PPP_BY_ITEM[..], &extra].concat();
+        let (whole, pieces) = whole_and_in_pieces(&env, &input, &args, "0.05");
         assert_eq!(whole.code, 0, "{name}: {}", whole.stderr);
         assert_eq!(pieces.code, 0, "{name}: {}", pieces.stderr);
         assert!(pieces.stderr.contains("piece(s)"), "{}", pieces.stderr);
@@ -419,7 +400,8 @@ fn names_that_match_nothing_are_told_for_the_whole_file_after_its_faults() {
         ("ragged.csv", with_a_ragged_line, "6 field(s) on this line"),
     ] {
         let input = env.write(name, &text);
-        let (whole, streamed) = whole_and_in_pieces(&env, &input, &["--lenient"], "0.05");
+        let args = [&PPP_BY_ITEM[..], &["--lenient"]].concat();
+        let (whole, streamed) = whole_and_in_pieces(&env, &input, &args, "0.05");
         assert_eq!((whole.code, streamed.code), (2, 2), "{name}");
         assert!(whole.stderr.contains(told), "{name}: {}", whole.stderr);
         assert_eq!(whole.stderr, streamed.stderr, "{name}");
@@ -445,8 +427,8 @@ fn a_quote_inside_a_cell_does_not_move_where_pieces_end() {
     }
     let input = env.write("inch.csv", &text);
     for chunk in ["0.02", "0.05"] {
-        let extra = ["--lenient", "--allow-unresolved"];
-        let (whole, streamed) = whole_and_in_pieces(&env, &input, &extra, chunk);
+        let args = [&PPP_BY_ITEM[..], &["--lenient", "--allow-unresolved"]].concat();
+        let (whole, streamed) = whole_and_in_pieces(&env, &input, &args, chunk);
         assert_eq!(whole.code, 0, "{}", whole.stderr);
         assert_eq!(streamed.code, 0, "{chunk}: {}", streamed.stderr);
         assert!(
