@@ -55,8 +55,9 @@ pub(super) struct AtLeast {
 }
 
 impl AtLeast {
-    /// For the first piece: the header search's records and one more (the header is chosen by
-    /// the block of figures below it), and the line `--header-row` names.
+    /// For the first piece: the records the header is chosen among (it is chosen among them
+    /// alone, as a whole-file reading chooses it) and one more, and the line `--header-row`
+    /// names.
     pub(super) fn first_piece(header_row: Option<usize>) -> AtLeast {
         AtLeast {
             records: crate::ingest::table::HEADER_SEARCH + 1,
